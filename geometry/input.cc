@@ -1,0 +1,98 @@
+#include "input.h"
+
+#include <cmath>
+#include <sstream>
+
+namespace backcomb
+{
+  InputError::InputError(const std::string &entry,
+                         const std::string &value,
+                         const std::string &reason)
+    : std::runtime_error(entry + " = " + value + ": " + reason)
+    , entry_(entry)
+    , value_(value)
+    , reason_(reason)
+  {}
+
+  InputError::InputError(const std::string &message)
+    : std::runtime_error(message)
+    , reason_(message)
+  {}
+
+  namespace
+  {
+    double
+    get_finite(const dealii::ParameterHandler &prm,
+               const std::string &section,
+               const std::string &name)
+    {
+      const std::string text = prm.get(name);
+      const std::string path = section.empty() ? name : section + "/" + name;
+      std::istringstream in(text);
+      double v = 0;
+      in >> v;
+      std::string rest;
+      in >> rest;
+      if (in.fail() && !in.eof())
+        throw InputError(path, text, "not a number");
+      if (!rest.empty() || text.find_first_not_of(" \t") == std::string::npos)
+        throw InputError(path, text, "not a number");
+      if (!std::isfinite(v))
+        throw InputError(path, text, "must be a finite number");
+      return v;
+    }
+  } // namespace
+
+  double
+  get_positive(const dealii::ParameterHandler &prm,
+               const std::string &section,
+               const std::string &name)
+  {
+    const double v = get_finite(prm, section, name);
+    if (!(v > 0))
+      throw InputError(section + "/" + name, prm.get(name), "must be > 0");
+    return v;
+  }
+
+  double
+  get_nonnegative(const dealii::ParameterHandler &prm,
+                  const std::string &section,
+                  const std::string &name)
+  {
+    const double v = get_finite(prm, section, name);
+    if (!(v >= 0))
+      throw InputError(section + "/" + name, prm.get(name), "must be >= 0");
+    return v;
+  }
+
+  double
+  get_in_range(const dealii::ParameterHandler &prm,
+               const std::string &section,
+               const std::string &name,
+               const double lo,
+               const double hi)
+  {
+    const double v = get_finite(prm, section, name);
+    if (!(v >= lo && v <= hi))
+      {
+        std::ostringstream r;
+        r << "must lie in [" << lo << ", " << hi << "]";
+        throw InputError(section + "/" + name, prm.get(name), r.str());
+      }
+    return v;
+  }
+
+  void
+  declare_number(dealii::ParameterHandler &prm,
+                 const std::string &name,
+                 const std::string &default_value,
+                 const std::string &documentation)
+  {
+    // Patterns::Anything: the range and number checks happen in
+    // get_positive() & co., which name the entry and the value.
+    prm.declare_entry(name,
+                      default_value,
+                      dealii::Patterns::Anything(),
+                      documentation);
+  }
+} // namespace backcomb
