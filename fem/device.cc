@@ -1,0 +1,189 @@
+#include "fem/device.h"
+
+#include "fem/constants.h"
+#include "geometry/input.h"
+
+#include <cmath>
+#include <sstream>
+
+namespace backcomb::fem
+{
+  namespace
+  {
+    std::string
+    str(const double v)
+    {
+      std::ostringstream s;
+      s << v;
+      return s.str();
+    }
+  } // namespace
+
+  void
+  ContactParameters::declare_parameters(dealii::ParameterHandler &prm,
+                                        const std::string &section,
+                                        const ContactParameters &d)
+  {
+    prm.enter_subsection(section);
+    prm.declare_entry("Model", d.ohmic ? "ohmic" : "selective",
+                      dealii::Patterns::Selection("selective|ohmic"),
+                      "selective: the potential is set by the work function and each "
+                      "carrier leaves with flux S (c - c0) at its own velocity; ohmic: "
+                      "both quasi-Fermi levels are pinned to the contact (infinite velocities).");
+    declare_number(prm, "Work function", str(d.work_function),
+                   "Contact work function in eV, 0..10; sets the equilibrium potential "
+                   "(Schottky-Mott, no pinning) and the equilibrium densities at the contact.");
+    declare_number(prm, "Electron recombination velocity", str(d.S_n),
+                   "Electron surface velocity S_n at the contact in cm/s, >= 0 "
+                   "(0 = blocks electrons). Ignored when Model = ohmic.");
+    declare_number(prm, "Hole recombination velocity", str(d.S_p),
+                   "Hole surface velocity S_p at the contact in cm/s, >= 0 "
+                   "(0 = blocks holes). Ignored when Model = ohmic.");
+    prm.leave_subsection();
+  }
+
+  void
+  ContactParameters::parse_parameters(dealii::ParameterHandler &prm, const std::string &section)
+  {
+    prm.enter_subsection(section);
+    ohmic         = prm.get("Model") == "ohmic";
+    work_function = get_in_range(prm, section, "Work function", 0.0, 10.0);
+    S_n           = get_in_range(prm, section, "Electron recombination velocity", 0.0, 1e12);
+    S_p           = get_in_range(prm, section, "Hole recombination velocity", 0.0, 1e12);
+    prm.leave_subsection();
+  }
+
+  void
+  SurfaceParameters::declare_parameters(dealii::ParameterHandler &prm,
+                                        const std::string &section,
+                                        const SurfaceParameters &d)
+  {
+    prm.enter_subsection(section);
+    declare_number(prm, "Electron recombination velocity", str(d.S_n),
+                   "SRH surface recombination velocity S_n in cm/s, >= 0.");
+    declare_number(prm, "Hole recombination velocity", str(d.S_p),
+                   "SRH surface recombination velocity S_p in cm/s, >= 0.");
+    declare_number(prm, "Trap level", str(d.trap_level),
+                   "Surface trap energy in eV from midgap of the adjacent material, "
+                   "|value| < E_g/2.");
+    prm.leave_subsection();
+  }
+
+  void
+  SurfaceParameters::parse_parameters(dealii::ParameterHandler &prm, const std::string &section)
+  {
+    prm.enter_subsection(section);
+    S_n        = get_in_range(prm, section, "Electron recombination velocity", 0.0, 1e12);
+    S_p        = get_in_range(prm, section, "Hole recombination velocity", 0.0, 1e12);
+    trap_level = get_in_range(prm, section, "Trap level", -5.0, 5.0);
+    prm.leave_subsection();
+  }
+
+  void
+  NumericsParameters::declare_parameters(dealii::ParameterHandler &prm)
+  {
+    const NumericsParameters d;
+    prm.enter_subsection("Numerics");
+    declare_number(prm, "Newton tolerance", str(d.tolerance),
+                   "Converged when the largest Newton update is below this, in units "
+                   "of kT/q; 1e-14..1e-2.");
+    declare_number(prm, "Newton iterations", str(d.max_iterations),
+                   "Largest number of Newton steps per operating point, 1..1000.");
+    declare_number(prm, "Update limit", str(d.max_update),
+                   "Largest change of any potential per Newton step, in kT/q; 0.1..100.");
+    declare_number(prm, "Step halvings", str(d.max_halvings),
+                   "How often a continuation step (light or bias) may be halved "
+                   "before the operating point is reported as failed; 0..30.");
+    declare_number(prm, "Quadrature points", str(d.quadrature),
+                   "Gauss points per cell direction, 2..5.");
+    prm.leave_subsection();
+  }
+
+  void
+  NumericsParameters::parse_parameters(dealii::ParameterHandler &prm)
+  {
+    prm.enter_subsection("Numerics");
+    tolerance      = get_in_range(prm, "Numerics", "Newton tolerance", 1e-14, 1e-2);
+    max_iterations = static_cast<unsigned>(get_in_range(prm, "Numerics", "Newton iterations", 1, 1000));
+    max_update     = get_in_range(prm, "Numerics", "Update limit", 0.1, 100);
+    max_halvings   = static_cast<unsigned>(get_in_range(prm, "Numerics", "Step halvings", 0, 30));
+    quadrature     = static_cast<unsigned>(get_in_range(prm, "Numerics", "Quadrature points", 2, 5));
+    prm.leave_subsection();
+  }
+
+  Scaling::Scaling(const double T, const double N0_)
+    : temperature(T)
+    , Vt(thermal_voltage(T))
+    , N0(N0_)
+  {
+    t0 = L0 * L0 / (mu0 * Vt);
+    R0 = N0 / t0;
+    S0 = L0 / t0;
+    // A/cm^2 -> mA/cm^2
+    J0 = constants::q * N0 * mu0 * Vt / L0 * 1e3;
+    // SI: eps0 [F/m] Vt / (q N0[m^-3] L0[m]^2)
+    lambda2 = constants::eps0 * Vt / (constants::q * N0 * 1e6 * (L0 * 1e-2) * (L0 * 1e-2));
+  }
+
+  DeviceModel::DeviceModel(const double temperature,
+                           const std::map<unsigned, Material> &materials_,
+                           const std::vector<unsigned> &absorber_ids,
+                           const ContactParameters &ec,
+                           const ContactParameters &hc,
+                           const SurfaceParameters &top,
+                           const SurfaceParameters &gap,
+                           std::function<double(double, double)> generation_)
+    : scaling(temperature, 1e16)
+    , generation(std::move(generation_))
+    , materials(materials_)
+  {
+    const Scaling &s = scaling;
+    const double   kT = s.Vt; // eV per kT
+    for (const auto &[id, m] : materials)
+      {
+        ScaledRegion r;
+        r.absorber = false;
+        for (const unsigned a : absorber_ids)
+          r.absorber |= (a == id);
+        r.eps      = s.lambda2 * m.permittivity;
+        r.mu_n     = m.mu_n / s.mu0;
+        r.mu_p     = m.mu_p / s.mu0;
+        r.ln_nc    = std::log(m.Nc / s.N0);
+        r.ln_nv    = std::log(m.Nv / s.N0);
+        // E_c = -q psi - chi, E_v = E_c - E_g; E_Fn = -q phi_n (see DESIGN.md).
+        r.a_n      = r.ln_nc + m.electron_affinity / kT;
+        r.a_p      = r.ln_nv - (m.electron_affinity + m.band_gap) / kT;
+        r.doping   = (m.donors - m.acceptors) / s.N0;
+        r.ni2      = std::exp(r.a_n + r.a_p);
+        r.half_gap = 0.5 * m.band_gap / kT;
+        // n1 = Nc exp(-(E_c - E_t)/kT), E_t = midgap + trap level.
+        r.n1 = std::exp(r.ln_nc - r.half_gap + m.trap_level / kT);
+        r.p1 = std::exp(r.ln_nv - r.half_gap - m.trap_level / kT);
+        r.channels.push_back(std::make_shared<SrhRecombination>(
+          m.tau_n / s.t0, m.tau_p / s.t0, r.n1, r.p1, r.ni2));
+        if (m.B_rad > 0)
+          r.channels.push_back(std::make_shared<RadiativeRecombination>(
+            (1 - m.photon_recycling) * m.B_rad * s.N0 * s.t0, r.ni2));
+        if (m.C_n > 0 || m.C_p > 0)
+          r.channels.push_back(std::make_shared<AugerRecombination>(
+            m.C_n * s.N0 * s.N0 * s.t0, m.C_p * s.N0 * s.N0 * s.t0, r.ni2));
+        regions[id] = r;
+      }
+    auto contact = [&](const ContactParameters &c) {
+      return ScaledContact{c.ohmic, -c.work_function / kT, c.S_n / s.S0, c.S_p / s.S0};
+    };
+    electron_contact = contact(ec);
+    hole_contact     = contact(hc);
+    top_surface      = {top.S_n / s.S0, top.S_p / s.S0, top.trap_level / kT};
+    gap_interface    = {gap.S_n / s.S0, gap.S_p / s.S0, gap.trap_level / kT};
+  }
+
+  const ScaledRegion &
+  DeviceModel::region(const unsigned id) const
+  {
+    const auto it = regions.find(id);
+    if (it == regions.end())
+      throw std::runtime_error("mesh region " + std::to_string(id) + " has no material");
+    return it->second;
+  }
+} // namespace backcomb::fem

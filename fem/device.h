@@ -1,0 +1,131 @@
+// The physical description of one device (materials per region, contacts,
+// surfaces, temperature, generation) and its conversion to the scaled units
+// the solver works in. Units are converted here and nowhere else.
+#pragma once
+
+#include "fem/material.h"
+#include "fem/recombination.h"
+
+#include <deal.II/base/parameter_handler.h>
+#include <deal.II/base/point.h>
+
+#include <functional>
+#include <map>
+#include <memory>
+#include <string>
+#include <vector>
+
+namespace backcomb::fem
+{
+  // A comb contact: the work function sets the equilibrium potential and the
+  // equilibrium densities n0, p0 at the contact; each carrier leaves through
+  // it with flux S (c - c0) (selective model) or the quasi-Fermi levels are
+  // pinned to the contact's Fermi level (ohmic: both velocities infinite).
+  struct ContactParameters
+  {
+    bool   ohmic         = false;
+    double work_function = 4.0;  // eV
+    double S_n           = 1e7;  // cm/s
+    double S_p           = 1e7;  // cm/s
+
+    static void declare_parameters(dealii::ParameterHandler &prm,
+                                   const std::string &section,
+                                   const ContactParameters &defaults);
+    void parse_parameters(dealii::ParameterHandler &prm, const std::string &section);
+  };
+
+  // SRH recombination at a surface or interface (top surface, gap interface).
+  struct SurfaceParameters
+  {
+    double S_n        = 0;   // cm/s
+    double S_p        = 0;   // cm/s
+    double trap_level = 0;   // eV above midgap of the adjacent material
+
+    static void declare_parameters(dealii::ParameterHandler &prm,
+                                   const std::string &section,
+                                   const SurfaceParameters &defaults);
+    void parse_parameters(dealii::ParameterHandler &prm, const std::string &section);
+  };
+
+  // Newton and continuation settings (section "Numerics").
+  struct NumericsParameters
+  {
+    double   tolerance      = 1e-9;  // max Newton update, kT/q
+    unsigned max_iterations = 60;
+    double   max_update     = 4.0;   // kT/q per Newton step and unknown
+    unsigned max_halvings   = 8;
+    unsigned quadrature     = 3;     // Gauss points per direction
+
+    static void declare_parameters(dealii::ParameterHandler &prm);
+    void parse_parameters(dealii::ParameterHandler &prm);
+  };
+
+  // Reference quantities of the scaled system. Lengths in L0 = 1 um (the
+  // mesh unit), potentials in kT/q, densities in N0, mobilities in 1 cm^2/Vs.
+  struct Scaling
+  {
+    double temperature; // K
+    double Vt;          // V
+    double N0;          // cm^-3
+    double L0 = 1e-4;   // cm
+    double mu0 = 1.0;   // cm^2/(V s)
+    double t0;          // s        = L0^2 / (mu0 Vt)
+    double R0;          // cm^-3/s  = N0 / t0
+    double S0;          // cm/s     = L0 / t0
+    double J0;          // mA/cm^2  = q N0 mu0 Vt / L0
+    double lambda2;     // eps0 Vt / (q N0 L0^2), Poisson coefficient
+
+    Scaling(double temperature, double N0);
+  };
+
+  // One region in scaled units.
+  struct ScaledRegion
+  {
+    bool   absorber = false;  // generation happens here
+    double eps;               // lambda2 * eps_r
+    double mu_n, mu_p;
+    double a_n, a_p;          // n = exp(psi - phi_n + a_n), p = exp(phi_p - psi + a_p)
+    double doping;            // (N_D - N_A)/N0
+    double ni2;
+    double n1, p1;            // SRH trap occupancy densities, bulk
+    double half_gap;          // Eg/2 in kT
+    double ln_nc, ln_nv;      // ln(Nc/N0), ln(Nv/N0)
+    std::vector<std::shared_ptr<const RecombinationChannel>> channels;
+  };
+
+  struct ScaledContact
+  {
+    bool   ohmic;
+    double psi_offset;  // psi = V_contact - W, in kT/q
+    double S_n, S_p;
+  };
+
+  struct ScaledSurface
+  {
+    double S_n, S_p, trap_level; // trap level in kT from midgap
+  };
+
+  class DeviceModel
+  {
+  public:
+    // materials: region (material id) -> parameters; absorber_ids: regions
+    // with optical generation. generation(x_um, y_um) in cm^-3 s^-1.
+    DeviceModel(double temperature,
+                const std::map<unsigned, Material> &materials,
+                const std::vector<unsigned> &absorber_ids,
+                const ContactParameters &electron_contact,
+                const ContactParameters &hole_contact,
+                const SurfaceParameters &top_surface,
+                const SurfaceParameters &gap_interface,
+                std::function<double(double, double)> generation);
+
+    Scaling                            scaling;
+    std::map<unsigned, ScaledRegion>   regions;
+    ScaledContact                      electron_contact, hole_contact;
+    ScaledSurface                      top_surface, gap_interface;
+    std::function<double(double, double)> generation; // physical units
+    std::map<unsigned, Material>       materials;      // physical units
+
+    const ScaledRegion &region(unsigned material_id) const;
+  };
+} // namespace backcomb::fem

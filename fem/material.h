@@ -1,0 +1,45 @@
+// Semiconductor material parameters of one mesh region, in interface units
+// (eV, cm^-3, cm^2/Vs, s, cm^3/s, cm^6/s), as read from a case-file section
+// such as "Absorber" or "Electron interlayer".
+#pragma once
+
+#include <deal.II/base/parameter_handler.h>
+
+#include <string>
+
+namespace backcomb::fem
+{
+  struct Material
+  {
+    double band_gap          = 1.6;   // eV
+    double electron_affinity = 3.9;   // eV
+    double permittivity      = 25.0;  // relative
+    double Nc                = 2e18;  // cm^-3, effective density of states
+    double Nv                = 2e18;  // cm^-3
+    double mu_n              = 2.0;   // cm^2/(V s)
+    double mu_p              = 2.0;   // cm^2/(V s)
+    double donors            = 0.0;   // cm^-3, fully ionised
+    double acceptors         = 0.0;   // cm^-3, fully ionised
+    double tau_n             = 1e-6;  // s, SRH electron lifetime
+    double tau_p             = 1e-6;  // s, SRH hole lifetime
+    double trap_level        = 0.0;   // eV above midgap
+    double B_rad             = 0.0;   // cm^3/s, radiative coefficient
+    double photon_recycling  = 0.0;   // probability 0..1
+    double C_n               = 0.0;   // cm^6/s, Auger (eeh)
+    double C_p               = 0.0;   // cm^6/s, Auger (ehh)
+
+    // Declares the entries of section `section` with the given defaults.
+    static void declare_parameters(dealii::ParameterHandler &prm,
+                                   const std::string &section,
+                                   const Material &defaults);
+    void parse_parameters(dealii::ParameterHandler &prm,
+                          const std::string &section);
+
+    // Intrinsic density n_i = sqrt(Nc Nv) exp(-Eg / 2kT) in cm^-3
+    // (Sze & Ng, Physics of Semiconductor Devices, 3rd ed. 2007, eq. 1.22).
+    double intrinsic_density(double temperature) const;
+  };
+
+  // Thermal voltage kT/q in V.
+  double thermal_voltage(double temperature);
+} // namespace backcomb::fem

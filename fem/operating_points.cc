@@ -1,0 +1,143 @@
+#include "fem/operating_points.h"
+
+#include <cmath>
+#include <sstream>
+
+namespace backcomb::fem
+{
+  namespace
+  {
+    std::string
+    describe_failure(const NewtonReport &r, double voltage, double light)
+    {
+      std::ostringstream s;
+      s << "Newton did not converge at V = " << voltage << " V, light factor " << light
+        << " after " << r.iterations << " steps; largest update per step (kT/q):";
+      for (const double u : r.update_history)
+        s << ' ' << u;
+      s << "; last largest update at x = " << r.worst_x << " um, y = " << r.worst_y << " um";
+      return s.str();
+    }
+  } // namespace
+
+  StepReport
+  move_to(DriftDiffusionSolver &solver, const double voltage, const double light, const unsigned max_halvings)
+  {
+    StepReport rep;
+    // Targets still to reach, the last one first out; a failed step puts
+    // its midpoint in front of it.
+    std::vector<std::pair<double, double>> targets{{voltage, light}};
+    unsigned depth = 0;
+    while (!targets.empty())
+      {
+        const auto [v, s] = targets.back();
+        const NewtonReport r = solver.solve(v, s);
+        rep.newton_iterations += r.iterations;
+        if (r.converged)
+          {
+            targets.pop_back();
+            depth = 0;
+            continue;
+          }
+        if (depth >= max_halvings)
+          {
+            rep.diagnostic = describe_failure(r, v, s) + "; gave up after " +
+                             std::to_string(max_halvings) + " step halvings";
+            return rep;
+          }
+        ++depth;
+        ++rep.halvings;
+        targets.emplace_back(0.5 * (solver.voltage() + v), 0.5 * (solver.light() + s));
+      }
+    rep.converged = true;
+    return rep;
+  }
+
+  StepReport
+  illuminate(DriftDiffusionSolver &solver, const double light, const unsigned max_halvings)
+  {
+    StepReport         rep;
+    const NewtonReport eq = solver.solve_equilibrium();
+    rep.newton_iterations = eq.iterations;
+    if (!eq.converged)
+      {
+        rep.diagnostic = "equilibrium: " + describe_failure(eq, 0, 0);
+        return rep;
+      }
+    if (light > 0)
+      for (int e = -8; e <= 0; ++e)
+        {
+          const StepReport r = move_to(solver, 0.0, light * std::pow(10.0, e), max_halvings);
+          rep.newton_iterations += r.newton_iterations;
+          rep.halvings += r.halvings;
+          if (!r.converged)
+            {
+              rep.diagnostic = "light ramp: " + r.diagnostic;
+              return rep;
+            }
+        }
+    rep.converged = true;
+    return rep;
+  }
+
+  JVMetrics
+  jv_metrics(const std::vector<JVPoint> &c)
+  {
+    JVMetrics m;
+    if (c.size() < 3)
+      return m;
+    for (const auto &p : c)
+      if (!p.converged)
+        return m;
+    // Jsc: interpolate J at V = 0.
+    bool have_jsc = false, have_voc = false;
+    for (std::size_t i = 0; i + 1 < c.size(); ++i)
+      {
+        const auto &a = c[i], &b = c[i + 1];
+        if (!have_jsc && a.voltage <= 0 && b.voltage >= 0)
+          {
+            const double t = (0 - a.voltage) / (b.voltage - a.voltage);
+            m.Jsc          = a.current + t * (b.current - a.current);
+            have_jsc       = true;
+          }
+        if (!have_voc && a.current > 0 && b.current <= 0)
+          {
+            const double t = a.current / (a.current - b.current);
+            m.Voc          = a.voltage + t * (b.voltage - a.voltage);
+            have_voc       = true;
+          }
+      }
+    if (!have_jsc || !have_voc || m.Jsc <= 0)
+      return m;
+    std::size_t best = 0;
+    for (std::size_t i = 0; i < c.size(); ++i)
+      if (c[i].voltage * c[i].current > c[best].voltage * c[best].current)
+        best = i;
+    m.Vmp  = c[best].voltage;
+    m.Jmp  = c[best].current;
+    m.Pmax = m.Vmp * m.Jmp;
+    if (best > 0 && best + 1 < c.size())
+      {
+        // Parabola through three (V, P) points.
+        const double x0 = c[best - 1].voltage, x1 = c[best].voltage, x2 = c[best + 1].voltage;
+        const double y0 = x0 * c[best - 1].current, y1 = m.Pmax, y2 = x2 * c[best + 1].current;
+        const double d  = (x0 - x1) * (x0 - x2) * (x1 - x2);
+        const double A  = (x2 * (y1 - y0) + x1 * (y0 - y2) + x0 * (y2 - y1)) / d;
+        const double B  = (x2 * x2 * (y0 - y1) + x1 * x1 * (y2 - y0) + x0 * x0 * (y1 - y2)) / d;
+        const double C  = (x1 * x2 * (x1 - x2) * y0 + x2 * x0 * (x2 - x0) * y1 + x0 * x1 * (x0 - x1) * y2) / d;
+        if (A < 0)
+          {
+            const double v = -B / (2 * A);
+            if (v > x0 && v < x2)
+              {
+                m.Vmp  = v;
+                m.Pmax = A * v * v + B * v + C;
+                m.Jmp  = m.Pmax / v;
+              }
+          }
+      }
+    m.FF    = m.Pmax / (m.Jsc * m.Voc);
+    m.valid = true;
+    return m;
+  }
+} // namespace backcomb::fem

@@ -1,0 +1,51 @@
+// Continuation and operating points: equilibrium -> light ramp -> bias
+// steps, halving a step when Newton fails, and the J-V metrics.
+#pragma once
+
+#include "fem/drift_diffusion.h"
+
+#include <string>
+#include <vector>
+
+namespace backcomb::fem
+{
+  // Outcome of reaching one operating point.
+  struct StepReport
+  {
+    bool        converged  = false;
+    unsigned    newton_iterations = 0; // summed over all attempts
+    unsigned    halvings   = 0;
+    std::string diagnostic;            // why it failed (bias, update history, where)
+  };
+
+  // Moves the solver from its current state to (voltage, light), first in
+  // one step, then by halving the step from the last converged state, at
+  // most `max_halvings` times in a row.
+  StepReport move_to(DriftDiffusionSolver &solver,
+                     double voltage,
+                     double light,
+                     unsigned max_halvings);
+
+  // Equilibrium, then the generation switched on in decades (1e-8, 1e-7,
+  // ..., 1) times `light`, at zero bias.
+  StepReport illuminate(DriftDiffusionSolver &solver, double light, unsigned max_halvings);
+
+  struct JVPoint
+  {
+    double   voltage   = 0; // V
+    double   current   = 0; // mA/cm^2 of footprint, generator convention
+    bool     converged = false;
+    unsigned newton_iterations = 0;
+  };
+
+  struct JVMetrics
+  {
+    bool   valid = false;   // false when a point they depend on failed
+    double Jsc = 0, Voc = 0, FF = 0, Pmax = 0, Vmp = 0, Jmp = 0; // mA/cm^2, V, -, mW/cm^2
+  };
+
+  // Metrics from a converged J-V table (sorted by voltage). Voc by linear
+  // interpolation of the sign change; the maximum power point by parabolic
+  // interpolation through the best point and its neighbours.
+  JVMetrics jv_metrics(const std::vector<JVPoint> &curve);
+} // namespace backcomb::fem

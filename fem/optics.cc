@@ -1,0 +1,853 @@
+#include "fem/optics.h"
+
+#include "fem/constants.h"
+#include "geometry/input.h"
+
+#include <algorithm>
+#include <cctype>
+#include <cmath>
+#include <cstdlib>
+#include <fstream>
+#include <sstream>
+#include <stdexcept>
+
+#ifndef BACKCOMB_DATA_DIR
+#  error "BACKCOMB_DATA_DIR must name the folder with the shipped data files"
+#endif
+
+namespace backcomb::fem
+{
+  namespace
+  {
+    // ------------------------------------------------ text-file helpers
+
+    // One row of a numeric table with where it came from, so that every
+    // later check can name the line and show its text.
+    struct Row
+    {
+      std::vector<double> values;
+      int                 line = 0;
+      std::string         text;
+    };
+
+    std::string
+    trim(const std::string &s)
+    {
+      const auto first = s.find_first_not_of(" \t\r\n");
+      if (first == std::string::npos)
+        return "";
+      const auto last = s.find_last_not_of(" \t\r\n");
+      return s.substr(first, last - first + 1);
+    }
+
+    [[noreturn]] void
+    fail(const std::string &file,
+         const int          line,
+         const std::string &text,
+         const std::string &reason)
+    {
+      throw InputError(file + ":" + std::to_string(line), trim(text), reason);
+    }
+
+    std::vector<std::string>
+    read_lines(const std::filesystem::path &path, const std::string &what)
+    {
+      std::ifstream in(path);
+      if (!in)
+        throw InputError("cannot open the " + what + " file '" +
+                         path.string() + "'");
+      std::vector<std::string> lines;
+      for (std::string line; std::getline(in, line);)
+        lines.push_back(line);
+      return lines;
+    }
+
+    std::vector<std::string>
+    split_commas(const std::string &text)
+    {
+      std::vector<std::string> fields;
+      std::stringstream        in(text);
+      for (std::string field; std::getline(in, field, ',');)
+        fields.push_back(trim(field));
+      // getline drops a trailing empty field ("1,2,"); keep it so that the
+      // row counts as having a missing column.
+      if (!text.empty() && trim(text).back() == ',')
+        fields.emplace_back();
+      return fields;
+    }
+
+    std::vector<std::string>
+    split_blanks(const std::string &text)
+    {
+      std::vector<std::string> fields;
+      std::istringstream       in(text);
+      for (std::string field; in >> field;)
+        fields.push_back(field);
+      return fields;
+    }
+
+    // True if the whole field is one number (strtod also accepts "nan" and
+    // "inf"; those are rejected later as not finite, with a clearer reason).
+    bool
+    parse_number(const std::string &field, double &value)
+    {
+      if (field.empty())
+        return false;
+      char *end = nullptr;
+      value     = std::strtod(field.c_str(), &end);
+      return end == field.c_str() + field.size();
+    }
+
+    // Converts the fields of one data line into a Row, checking the number
+    // of columns and that every field is a finite number.
+    Row
+    parse_row(const std::string              &file,
+              const int                       line,
+              const std::string              &text,
+              const std::vector<std::string> &fields,
+              const std::size_t               columns,
+              const std::string              &layout)
+    {
+      const bool empty_field =
+        std::any_of(fields.begin(), fields.end(), [](const std::string &f) {
+          return f.empty();
+        });
+      if (fields.size() < columns || empty_field)
+        fail(file,
+             line,
+             text,
+             "missing column (truncated row?): expected " + layout);
+      if (fields.size() > columns)
+        fail(file, line, text, "too many columns: expected " + layout);
+      Row row{{}, line, text};
+      for (const auto &field : fields)
+        {
+          double v = 0;
+          if (!parse_number(field, v))
+            fail(file, line, text, "'" + field + "' is not a number");
+          if (!std::isfinite(v))
+            fail(file, line, text, "'" + field + "' is not a finite number");
+          row.values.push_back(v);
+        }
+      return row;
+    }
+
+    bool
+    is_comment_or_blank(const std::string &line)
+    {
+      const std::string t = trim(line);
+      return t.empty() || t.front() == '#';
+    }
+
+    // Reads the two-column CSV layout of our own tables: '#' comments and
+    // blank lines anywhere, then the header line, then data rows.
+    std::vector<Row>
+    read_two_column_csv(const std::filesystem::path &path,
+                        const std::string           &what,
+                        const std::string           &header)
+    {
+      const std::string file  = path.string();
+      const auto        lines = read_lines(path, what);
+      std::vector<Row>  rows;
+      bool              header_seen = false;
+      for (std::size_t i = 0; i < lines.size(); ++i)
+        {
+          const int line = static_cast<int>(i) + 1;
+          if (is_comment_or_blank(lines[i]))
+            continue;
+          if (!header_seen)
+            {
+              std::string compact;
+              for (const char ch : lines[i])
+                if (!std::isspace(static_cast<unsigned char>(ch)))
+                  compact += ch;
+              if (compact != header)
+                fail(file,
+                     line,
+                     lines[i],
+                     "the first line that is not a comment must be the "
+                     "header '" +
+                       header + "'");
+              header_seen = true;
+              continue;
+            }
+          rows.push_back(
+            parse_row(file, line, lines[i], split_commas(lines[i]), 2, header));
+        }
+      if (!header_seen)
+        throw InputError(file, "", "empty file: expected the header '" + header + "'");
+      return rows;
+    }
+
+    void
+    require_rows(const std::string      &file,
+                 const std::vector<Row> &rows,
+                 const std::size_t       minimum)
+    {
+      if (rows.size() < minimum)
+        throw InputError(file,
+                         std::to_string(rows.size()) + " data rows",
+                         "at least " + std::to_string(minimum) +
+                           " data rows are needed");
+    }
+
+    // Column 0 must increase strictly from row to row.
+    void
+    require_increasing(const std::string      &file,
+                       const std::vector<Row> &rows,
+                       const std::string      &quantity)
+    {
+      for (std::size_t i = 1; i < rows.size(); ++i)
+        if (!(rows[i].values[0] > rows[i - 1].values[0]))
+          {
+            std::ostringstream r;
+            r << quantity << " " << rows[i].values[0]
+              << " is not greater than the previous row's "
+              << rows[i - 1].values[0]
+              << " (rows must be sorted by strictly increasing " << quantity
+              << ")";
+            fail(file, rows[i].line, rows[i].text, r.str());
+          }
+    }
+
+    void
+    require_sign(const std::string &file,
+                 const Row         &row,
+                 const std::size_t  column,
+                 const std::string &quantity,
+                 const bool         strictly_positive)
+    {
+      const double v  = row.values[column];
+      const bool   ok = strictly_positive ? v > 0 : v >= 0;
+      if (!ok)
+        fail(file,
+             row.line,
+             row.text,
+             quantity + (strictly_positive ? " must be > 0" : " must be >= 0"));
+    }
+
+    // Piecewise-linear interpolation in a sorted table; x must lie inside.
+    double
+    interpolate(const std::vector<double> &x,
+                const std::vector<double> &y,
+                const double               at)
+    {
+      if (x.size() == 1)
+        return y[0];
+      const auto   upper = std::upper_bound(x.begin(), x.end(), at);
+      const auto   i     = std::clamp<std::ptrdiff_t>(upper - x.begin(),
+                                                1,
+                                                static_cast<std::ptrdiff_t>(
+                                                  x.size()) - 1);
+      const double s     = (at - x[i - 1]) / (x[i] - x[i - 1]);
+      return y[i - 1] + s * (y[i] - y[i - 1]);
+    }
+
+    // The refractiveindex.info YAML layout: find "DATA:", the entry
+    // "- type: tabulated nk" and its block "data: |"; the block ends at the
+    // first non-blank line indented no deeper than the "data:" key.
+    std::vector<Row>
+    read_nk_yaml(const std::filesystem::path &path)
+    {
+      const std::string file  = path.string();
+      const auto        lines = read_lines(path, "optical constants");
+      const std::string layout = "wavelength_um n k";
+
+      std::size_t i = 0;
+      while (i < lines.size() && trim(lines[i]).rfind("DATA:", 0) != 0)
+        ++i;
+      if (i == lines.size())
+        throw InputError(file, "", "no 'DATA:' block found");
+
+      // The first entry of the list must be tabulated nk: other entry
+      // types (formulas, separate n and k tables) are not supported.
+      for (++i; i < lines.size() && is_comment_or_blank(lines[i]); ++i)
+        ;
+      const std::string type_prefix = "- type:";
+      if (i == lines.size() || trim(lines[i]).rfind(type_prefix, 0) != 0)
+        throw InputError(file, "", "'DATA:' has no '- type:' entry");
+      const std::string type = trim(trim(lines[i]).substr(type_prefix.size()));
+      if (type != "tabulated nk")
+        fail(file,
+             static_cast<int>(i) + 1,
+             lines[i],
+             "only 'type: tabulated nk' data are supported");
+
+      for (++i; i < lines.size() && trim(lines[i]).rfind("data:", 0) != 0; ++i)
+        ;
+      if (i == lines.size())
+        throw InputError(file, "", "the 'tabulated nk' entry has no 'data: |' block");
+      const std::size_t key_indent = lines[i].find_first_not_of(' ');
+
+      std::vector<Row> rows;
+      for (++i; i < lines.size(); ++i)
+        {
+          if (trim(lines[i]).empty())
+            continue;
+          if (lines[i].find_first_not_of(" \t") <= key_indent)
+            break;
+          rows.push_back(parse_row(file,
+                                   static_cast<int>(i) + 1,
+                                   lines[i],
+                                   split_blanks(lines[i]),
+                                   3,
+                                   layout));
+        }
+      return rows;
+    }
+
+    std::string
+    format_range(const double lo, const double hi, const std::string &unit)
+    {
+      std::ostringstream s;
+      s << lo << "-" << hi << " " << unit;
+      return s.str();
+    }
+  } // namespace
+
+  // ------------------------------------------------------------- readers
+
+  Spectrum
+  read_spectrum(const std::filesystem::path &path)
+  {
+    Spectrum spectrum;
+    spectrum.file     = path.string();
+    const auto &file  = spectrum.file;
+    const auto  lines = read_lines(path, "spectrum");
+
+    std::vector<Row> rows;
+    std::size_t      columns = 0;
+    for (std::size_t i = 0; i < lines.size(); ++i)
+      {
+        if (is_comment_or_blank(lines[i]))
+          continue;
+        const auto fields = split_commas(lines[i]);
+        double     first  = 0;
+        // Header lines (titles, column names) precede the first data row.
+        if (columns == 0 && !parse_number(fields[0], first))
+          continue;
+        if (columns == 0)
+          columns = fields.size() >= 3 ? fields.size() : 2;
+        rows.push_back(parse_row(file,
+                                 static_cast<int>(i) + 1,
+                                 lines[i],
+                                 fields,
+                                 columns,
+                                 columns == 2 ?
+                                   "wavelength_nm,irradiance" :
+                                   std::to_string(columns) +
+                                     " columns as in the first data row"));
+      }
+    require_rows(file, rows, 2);
+    require_increasing(file, rows, "wavelength");
+
+    // Two columns: wavelength, irradiance. The ASTM G173 layout: wavelength,
+    // extraterrestrial, global tilt (AM1.5G), direct.
+    const std::size_t column = columns == 2 ? 1 : 2;
+    for (const auto &row : rows)
+      {
+        require_sign(file, row, 0, "wavelength", true);
+        require_sign(file, row, column, "irradiance", false);
+        spectrum.wavelength_nm.push_back(row.values[0]);
+        spectrum.irradiance.push_back(row.values[column]);
+      }
+    return spectrum;
+  }
+
+  OpticalConstants
+  read_optical_constants(const std::filesystem::path &path)
+  {
+    OpticalConstants constants;
+    constants.file    = path.string();
+    const auto &file  = constants.file;
+    std::string ext   = path.extension().string();
+    std::transform(ext.begin(), ext.end(), ext.begin(), [](unsigned char c) {
+      return std::tolower(c);
+    });
+
+    if (ext == ".yml" || ext == ".yaml")
+      {
+        const auto rows = read_nk_yaml(path);
+        require_rows(file, rows, 2);
+        require_increasing(file, rows, "wavelength");
+        constants.kind = OpticalConstants::Kind::nk;
+        for (const auto &row : rows)
+          {
+            require_sign(file, row, 0, "wavelength", true);
+            require_sign(file, row, 1, "n", true);
+            require_sign(file, row, 2, "k", false);
+            constants.wavelength_nm.push_back(1000. * row.values[0]);
+            constants.n.push_back(row.values[1]);
+            constants.k.push_back(row.values[2]);
+          }
+      }
+    else
+      {
+        const auto rows =
+          read_two_column_csv(path, "optical constants", "wavelength_nm,alpha_per_cm");
+        require_rows(file, rows, 2);
+        require_increasing(file, rows, "wavelength");
+        constants.kind = OpticalConstants::Kind::alpha;
+        for (const auto &row : rows)
+          {
+            require_sign(file, row, 0, "wavelength", true);
+            require_sign(file, row, 1, "alpha", false);
+            constants.wavelength_nm.push_back(row.values[0]);
+            constants.alpha_per_cm.push_back(row.values[1]);
+          }
+      }
+    return constants;
+  }
+
+  void
+  check_wavelength_coverage(const OpticalConstants &constants,
+                            const double            lo_nm,
+                            const double            hi_nm)
+  {
+    const auto &w = constants.wavelength_nm;
+    if (w.empty() || lo_nm < w.front() || hi_nm > w.back())
+      throw InputError(constants.file,
+                       w.empty() ? "no data" :
+                                   format_range(w.front(), w.back(), "nm"),
+                       "the optical constants cover too little: " +
+                         format_range(lo_nm, hi_nm, "nm") +
+                         " is needed (the spectrum above the band gap)");
+  }
+
+  double
+  absorption_coefficient(const OpticalConstants &constants,
+                         const double            wavelength_nm)
+  {
+    check_wavelength_coverage(constants, wavelength_nm, wavelength_nm);
+    if (constants.kind == OpticalConstants::Kind::alpha)
+      return interpolate(constants.wavelength_nm,
+                         constants.alpha_per_cm,
+                         wavelength_nm);
+    const double k =
+      interpolate(constants.wavelength_nm, constants.k, wavelength_nm);
+    // alpha = 4 pi k / lambda, with lambda converted from nm to cm.
+    constexpr double pi = 3.14159265358979323846;
+    return 4 * pi * k / (wavelength_nm * 1e-7);
+  }
+
+  DepthTable
+  read_depth_table(const std::filesystem::path &path)
+  {
+    DepthTable table;
+    table.file       = path.string();
+    const auto  rows = read_two_column_csv(path,
+                                          "depth table",
+                                          "depth_nm,generation_per_cm3_s");
+    require_rows(table.file, rows, 2);
+    require_increasing(table.file, rows, "depth");
+    for (const auto &row : rows)
+      {
+        require_sign(table.file, row, 0, "depth", false);
+        require_sign(table.file, row, 1, "generation rate", false);
+        table.depth_nm.push_back(row.values[0]);
+        table.generation_per_cm3_s.push_back(row.values[1]);
+      }
+    return table;
+  }
+
+  // ------------------------------------------------------------- physics
+
+  double
+  photon_energy_eV(const double wavelength_nm)
+  {
+    using namespace constants;
+    return h * c / (q * wavelength_nm * 1e-9);
+  }
+
+  std::vector<double>
+  photon_flux(const Spectrum &spectrum)
+  {
+    using namespace constants;
+    std::vector<double> flux(spectrum.wavelength_nm.size());
+    for (std::size_t i = 0; i < flux.size(); ++i)
+      {
+        // E [W m^-2 nm^-1] / (h c / lambda) [J] = m^-2 s^-1 nm^-1; 1e-4 to cm^-2.
+        const double photon_energy = h * c / (spectrum.wavelength_nm[i] * 1e-9);
+        flux[i] = 1e-4 * spectrum.irradiance[i] / photon_energy;
+      }
+    return flux;
+  }
+
+  double
+  integrate_trapezoid(const std::vector<double> &x, const std::vector<double> &y)
+  {
+    double sum = 0;
+    for (std::size_t i = 1; i < x.size(); ++i)
+      sum += 0.5 * (y[i] + y[i - 1]) * (x[i] - x[i - 1]);
+    return sum;
+  }
+
+  AboveGapSpectrum
+  above_gap_spectrum(const Spectrum &spectrum, const double band_gap_eV)
+  {
+    if (!(band_gap_eV > 0))
+      throw std::invalid_argument("the band gap must be > 0 eV");
+    // The grid increases in wavelength, so the above-gap points are a prefix.
+    const auto         flux = photon_flux(spectrum);
+    AboveGapSpectrum   above;
+    for (std::size_t i = 0; i < flux.size(); ++i)
+      {
+        if (photon_energy_eV(spectrum.wavelength_nm[i]) < band_gap_eV)
+          break;
+        above.wavelength_nm.push_back(spectrum.wavelength_nm[i]);
+        above.photon_flux.push_back(flux[i]);
+      }
+    return above;
+  }
+
+  AboveGapSpectrum
+  above_gap_spectrum(const Spectrum         &spectrum,
+                     const OpticalConstants &constants,
+                     const double            band_gap_eV)
+  {
+    AboveGapSpectrum above = above_gap_spectrum(spectrum, band_gap_eV);
+    const auto      &w     = above.wavelength_nm;
+    if (w.empty())
+      return above;
+
+    // Reference spectra start in the ultraviolet where they carry almost no
+    // photons (AM1.5G below 300 nm: about 1e-6 of the photon current above
+    // 1.6 eV), while measured optical constants often start at 300 nm.
+    // Such a tail may stay uncovered; everything above it must be covered.
+    const double total = integrate_trapezoid(w, above.photon_flux);
+    std::size_t  first_needed = 0;
+    double       tail         = 0;
+    for (std::size_t i = 1; i < w.size(); ++i)
+      {
+        tail += 0.5 * (above.photon_flux[i] + above.photon_flux[i - 1]) *
+                (w[i] - w[i - 1]);
+        if (tail > uncovered_tail_fraction * total)
+          break;
+        first_needed = i;
+      }
+    check_wavelength_coverage(constants, w[first_needed], w.back());
+
+    above.alpha_per_cm.resize(w.size(), 0.);
+    for (std::size_t i = 0; i < w.size(); ++i)
+      if (w[i] >= constants.wavelength_nm.front())
+        above.alpha_per_cm[i] = absorption_coefficient(constants, w[i]);
+    return above;
+  }
+
+  double
+  photon_current_mA_per_cm2(const AboveGapSpectrum &above_gap)
+  {
+    // q [C] times photons cm^-2 s^-1 gives A/cm^2; 1e3 for mA.
+    return 1e3 * constants::q *
+           integrate_trapezoid(above_gap.wavelength_nm, above_gap.photon_flux);
+  }
+
+  double
+  beer_lambert_generation(const AboveGapSpectrum &above_gap,
+                          const BeerLambert      &optics,
+                          const double            depth_um)
+  {
+    const auto         &w = above_gap.wavelength_nm;
+    std::vector<double> integrand(w.size());
+    // Depths in cm so that alpha d is dimensionless.
+    const double d = 1e-4 * depth_um;
+    const double t = 1e-4 * optics.thickness_um;
+    for (std::size_t i = 0; i < w.size(); ++i)
+      {
+        const double alpha = above_gap.alpha_per_cm[i];
+        integrand[i] = above_gap.photon_flux[i] * alpha *
+                       (std::exp(-alpha * d) +
+                        optics.back_reflectance * std::exp(-alpha * (2 * t - d)));
+      }
+    return optics.intensity_suns * (1 - optics.front_reflectance) *
+           integrate_trapezoid(w, integrand);
+  }
+
+  double
+  beer_lambert_absorbed_current(const AboveGapSpectrum &above_gap,
+                                const BeerLambert      &optics)
+  {
+    // Per wavelength, int_0^t alpha e^{-alpha d} dd = 1 - e^{-alpha t} and
+    // the reflected pass adds R_b e^{-alpha t} (1 - e^{-alpha t}).
+    const auto         &w = above_gap.wavelength_nm;
+    const double        t = 1e-4 * optics.thickness_um;
+    std::vector<double> integrand(w.size());
+    for (std::size_t i = 0; i < w.size(); ++i)
+      {
+        const double transmitted = std::exp(-above_gap.alpha_per_cm[i] * t);
+        integrand[i] = above_gap.photon_flux[i] * (1 - transmitted) *
+                       (1 + optics.back_reflectance * transmitted);
+      }
+    return 1e3 * constants::q * optics.intensity_suns *
+           (1 - optics.front_reflectance) * integrate_trapezoid(w, integrand);
+  }
+
+  // ----------------------------------------------------------- case file
+
+  IlluminationParameters::IlluminationParameters()
+    : spectrum_file(std::filesystem::path(BACKCOMB_DATA_DIR) /
+                    "astm-g173-03.csv")
+    , optical_constants_file(std::filesystem::path(BACKCOMB_DATA_DIR) /
+                             "absorber-nk-mapi.yml")
+  {}
+
+  void
+  IlluminationParameters::declare_parameters(dealii::ParameterHandler &prm)
+  {
+    using dealii::Patterns::Anything;
+    using dealii::Patterns::Selection;
+    prm.enter_subsection("Illumination");
+    prm.declare_entry(
+      "Generation model",
+      "spectrum",
+      Selection("spectrum|uniform|depth table"),
+      "How the generation rate in the absorber is obtained. 'spectrum': "
+      "Beer-Lambert absorption of the solar spectrum with the absorber's "
+      "optical constants, cut off at the band gap. 'uniform': the constant "
+      "'Uniform generation rate'. 'depth table': G(depth) read from "
+      "'Depth table file'. All three are scaled by 'Intensity'.");
+    prm.declare_entry(
+      "Spectrum file",
+      "",
+      Anything(),
+      "Spectral irradiance, comma separated, wavelength in nm and irradiance "
+      "in W m^-2 nm^-1; either two columns or the four columns of the "
+      "ASTM G173-03 tables (the global-tilt column is used). Empty: the "
+      "shipped ASTM G173-03 AM1.5G spectrum. Relative paths are relative to "
+      "the case file's folder.");
+    prm.declare_entry(
+      "Optical constants file",
+      "",
+      Anything(),
+      "Absorber optical constants: a .yml file with a 'tabulated nk' block "
+      "(rows: wavelength in um, n, k), or a table with header "
+      "'wavelength_nm,alpha_per_cm' (alpha in cm^-1). Empty: the shipped "
+      "MAPbI3 n,k table. Relative paths are relative to the case file's "
+      "folder.");
+    declare_number(prm,
+                   "Intensity",
+                   "1",
+                   "Illumination intensity in suns (>= 0; 1 sun = the "
+                   "spectrum as given, about 100 mW/cm^2; 0 = dark).");
+    prm.declare_entry("Illuminated side",
+                      "film",
+                      Selection("film|substrate"),
+                      "Where the light enters: 'film' = through the free top "
+                      "surface of the absorber; 'substrate' = through the "
+                      "substrate and the electrode fingers.");
+    declare_number(prm,
+                   "Finger transmittance",
+                   "0.85",
+                   "Fraction of the light transmitted through the fingers "
+                   "when lit through the substrate (dimensionless, 0..1).");
+    declare_number(prm,
+                   "Front reflectance",
+                   "0",
+                   "Fraction of the light reflected before it enters the "
+                   "absorber (dimensionless, 0..1; spectrum model only).");
+    declare_number(prm,
+                   "Back reflectance",
+                   "0",
+                   "Fraction of the light reaching the far side of the "
+                   "absorber that is reflected back for a second pass "
+                   "(dimensionless, 0..1; 0 = single pass; spectrum model "
+                   "only).");
+    declare_number(prm,
+                   "Uniform generation rate",
+                   "1e21",
+                   "Generation rate at 1 sun for the uniform model, in "
+                   "cm^-3 s^-1 (>= 0).");
+    prm.declare_entry(
+      "Depth table file",
+      "",
+      Anything(),
+      "Generation rate at 1 sun versus depth below the illuminated surface "
+      "for the depth table model: '#' comment lines, then the header "
+      "'depth_nm,generation_per_cm3_s', then rows depth in nm, G in "
+      "cm^-3 s^-1, interpolated linearly; the table must span the whole "
+      "absorber. Relative paths are relative to the case file's folder.");
+    prm.leave_subsection();
+  }
+
+  void
+  IlluminationParameters::parse_parameters(
+    dealii::ParameterHandler    &prm,
+    const std::filesystem::path &base_folder)
+  {
+    const std::string section = "Illumination";
+    prm.enter_subsection(section);
+
+    const auto resolve = [&](const std::string           &name,
+                             const std::filesystem::path &fallback) {
+      const std::string text = trim(prm.get(name));
+      if (text.empty())
+        return fallback;
+      std::filesystem::path p(text);
+      if (p.is_relative() && !base_folder.empty())
+        p = base_folder / p;
+      return p.lexically_normal();
+    };
+
+    const std::string model_name = prm.get("Generation model");
+    model = model_name == "uniform"     ? Model::uniform :
+            model_name == "depth table" ? Model::depth_table :
+                                          Model::spectrum;
+    const IlluminationParameters defaults;
+    spectrum_file = resolve("Spectrum file", defaults.spectrum_file);
+    optical_constants_file =
+      resolve("Optical constants file", defaults.optical_constants_file);
+    depth_table_file = resolve("Depth table file", {});
+    if (model == Model::depth_table && depth_table_file.empty())
+      throw InputError(section + "/Depth table file",
+                       "",
+                       "a file is required when 'Generation model' is "
+                       "'depth table'");
+
+    intensity_suns = get_nonnegative(prm, section, "Intensity");
+    side = prm.get("Illuminated side") == "substrate" ? Side::substrate :
+                                                        Side::film;
+    finger_transmittance =
+      get_in_range(prm, section, "Finger transmittance", 0, 1);
+    front_reflectance = get_in_range(prm, section, "Front reflectance", 0, 1);
+    back_reflectance  = get_in_range(prm, section, "Back reflectance", 0, 1);
+    uniform_rate_per_cm3_s =
+      get_nonnegative(prm, section, "Uniform generation rate");
+    prm.leave_subsection();
+  }
+
+  // ---------------------------------------------------------- Generation
+
+  Generation::Generation(const IlluminationParameters &parameters,
+                         const double                  band_gap_eV,
+                         const double                  thickness_um,
+                         const FingerLayout           &layout)
+    : thickness_um_(thickness_um)
+    , from_substrate_(parameters.side ==
+                      IlluminationParameters::Side::substrate)
+    , finger_transmittance_(parameters.finger_transmittance)
+    , layout_(layout)
+  {
+    if (!(thickness_um > 0))
+      throw std::invalid_argument("Generation: absorber thickness must be > 0");
+    if (layout.electron_finger_half_width_um < 0 || layout.gap_um < 0 ||
+        layout.hole_finger_half_width_um < 0)
+      throw std::invalid_argument("Generation: negative finger layout size");
+
+    const double suns = parameters.intensity_suns;
+    // Micrometres to centimetres, and A to mA, for q int G dd.
+    const double to_mA_per_cm2 = 1e3 * constants::q * 1e-4;
+
+    switch (parameters.model)
+      {
+        case IlluminationParameters::Model::spectrum:
+          {
+            const auto spectrum = read_spectrum(parameters.spectrum_file);
+            const auto constants =
+              read_optical_constants(parameters.optical_constants_file);
+            const auto above =
+              above_gap_spectrum(spectrum, constants, band_gap_eV);
+            const BeerLambert optics{thickness_um,
+                                     suns,
+                                     parameters.front_reflectance,
+                                     parameters.back_reflectance};
+            photon_current_  = suns * photon_current_mA_per_cm2(above);
+            absorbed_current_ = beer_lambert_absorbed_current(above, optics);
+
+            // Linear interpolation of e^{-alpha d} on a step h errs by at
+            // most (alpha h)^2 / 8 relative; alpha h <= 0.02 keeps every
+            // wavelength's term, hence the sum, within 5e-5.
+            const double alpha_max =
+              above.alpha_per_cm.empty() ?
+                0. :
+                *std::max_element(above.alpha_per_cm.begin(),
+                                  above.alpha_per_cm.end());
+            const double intervals =
+              std::clamp(std::ceil(alpha_max * 1e-4 * thickness_um / 0.02),
+                         2000.,
+                         100000.);
+            const auto n = static_cast<std::size_t>(intervals);
+            for (std::size_t j = 0; j <= n; ++j)
+              {
+                const double d = thickness_um * static_cast<double>(j) / n;
+                depth_um_.push_back(d);
+                profile_.push_back(beer_lambert_generation(above, optics, d));
+              }
+            break;
+          }
+        case IlluminationParameters::Model::uniform:
+          {
+            const double g = suns * parameters.uniform_rate_per_cm3_s;
+            depth_um_        = {0., thickness_um};
+            profile_         = {g, g};
+            absorbed_current_ = to_mA_per_cm2 * g * thickness_um;
+            break;
+          }
+        case IlluminationParameters::Model::depth_table:
+          {
+            const auto   table    = read_depth_table(parameters.depth_table_file);
+            const double needed_nm = 1e3 * thickness_um;
+            if (table.depth_nm.front() > 0 || table.depth_nm.back() < needed_nm)
+              throw InputError(table.file,
+                               format_range(table.depth_nm.front(),
+                                            table.depth_nm.back(),
+                                            "nm"),
+                               "the depth table covers too little: " +
+                                 format_range(0, needed_nm, "nm") +
+                                 " is needed (the absorber thickness)");
+            for (std::size_t i = 0; i < table.depth_nm.size(); ++i)
+              if (table.depth_nm[i] < needed_nm)
+                {
+                  depth_um_.push_back(1e-3 * table.depth_nm[i]);
+                  profile_.push_back(suns * table.generation_per_cm3_s[i]);
+                }
+            depth_um_.push_back(thickness_um);
+            profile_.push_back(suns * interpolate(table.depth_nm,
+                                                  table.generation_per_cm3_s,
+                                                  needed_nm));
+            absorbed_current_ =
+              to_mA_per_cm2 * integrate_trapezoid(depth_um_, profile_);
+            break;
+          }
+      }
+  }
+
+  double
+  Generation::rate_at_depth(const double depth_um) const
+  {
+    return interpolate(depth_um_,
+                       profile_,
+                       std::clamp(depth_um, 0., thickness_um_));
+  }
+
+  double
+  Generation::finger_factor(const double x_um) const
+  {
+    if (!from_substrate_ || !layout_.has_fingers)
+      return 1;
+    const double gap_start = layout_.electron_finger_half_width_um;
+    const double gap_end   = gap_start + layout_.gap_um;
+    return (x_um < gap_start || x_um > gap_end) ? finger_transmittance_ : 1.;
+  }
+
+  double
+  Generation::rate(const double x_um, const double y_um) const
+  {
+    // Film side: light enters at the top surface y = t; substrate side: at
+    // the bottom y = 0, through the fingers where there are fingers.
+    const double depth = from_substrate_ ? y_um : thickness_um_ - y_um;
+    return finger_factor(x_um) * rate_at_depth(depth);
+  }
+
+  double
+  Generation::period_average_transmittance() const
+  {
+    if (!from_substrate_ || !layout_.has_fingers)
+      return 1;
+    const double fingers = layout_.electron_finger_half_width_um +
+                           layout_.hole_finger_half_width_um;
+    const double period  = fingers + layout_.gap_um;
+    if (!(period > 0))
+      return 1;
+    return (finger_transmittance_ * fingers + layout_.gap_um) / period;
+  }
+} // namespace backcomb::fem

@@ -1,0 +1,274 @@
+// Optical generation in the absorber: spectrum and optical-constant readers,
+// Beer-Lambert generation profiles, and the case-file section "Illumination".
+//
+// Units at this interface: wavelengths in nm, depths and coordinates in µm,
+// absorption coefficients in cm^-1, photon fluxes in cm^-2 s^-1 nm^-1,
+// generation rates in cm^-3 s^-1, current densities in mA/cm^2, band gaps
+// in eV, intensity in suns (1 sun = the reference spectrum as given).
+#pragma once
+
+#include <deal.II/base/parameter_handler.h>
+
+#include <filesystem>
+#include <optional>
+#include <string>
+#include <vector>
+
+namespace backcomb::fem
+{
+  // ----------------------------------------------------------------- data
+
+  // A solar spectrum on its own (non-uniform) wavelength grid.
+  struct Spectrum
+  {
+    std::string         file;          // for messages
+    std::vector<double> wavelength_nm; // strictly increasing
+    std::vector<double> irradiance;    // W m^-2 nm^-1
+  };
+
+  // Reads a comma-separated spectrum. Leading lines whose first field is not
+  // a number are headers. Data rows have either two columns (wavelength_nm,
+  // irradiance) or the layout of the ASTM G173-03 tables (wavelength_nm,
+  // extraterrestrial, global tilt, direct), of which the global-tilt
+  // (AM1.5G) column is used. Throws InputError naming file, line and text.
+  Spectrum
+  read_spectrum(const std::filesystem::path &path);
+
+  // Absorption data of the absorber, either as complex refractive index
+  // (n, k) or directly as absorption coefficient.
+  struct OpticalConstants
+  {
+    enum class Kind
+    {
+      nk,   // n and k filled
+      alpha // alpha_per_cm filled
+    };
+    std::string         file; // for messages
+    Kind                kind = Kind::nk;
+    std::vector<double> wavelength_nm; // strictly increasing
+    std::vector<double> n;
+    std::vector<double> k;
+    std::vector<double> alpha_per_cm;
+  };
+
+  // Two formats, chosen by the file extension:
+  //  - ".yml"/".yaml": the tabulated-nk YAML layout of the refractiveindex.info
+  //    database: a "DATA:" list whose entry "- type: tabulated nk" carries a
+  //    block "data: |" of rows "wavelength_um n k".
+  //  - anything else: an absorption-coefficient table. Lines starting with '#'
+  //    and blank lines are ignored; the first other line must be the header
+  //    "wavelength_nm,alpha_per_cm"; then one row "wavelength_nm,alpha_per_cm"
+  //    per line (comma separated, alpha in cm^-1).
+  // Throws InputError naming file, line and the offending text.
+  OpticalConstants
+  read_optical_constants(const std::filesystem::path &path);
+
+  // Throws InputError (naming the file, the needed and the available range)
+  // unless the table covers [lo_nm, hi_nm].
+  void
+  check_wavelength_coverage(const OpticalConstants &constants,
+                            double                  lo_nm,
+                            double                  hi_nm);
+
+  // Absorption coefficient in cm^-1 at a wavelength inside the table: k is
+  // interpolated linearly and converted with alpha = 4 pi k / lambda, or
+  // alpha is interpolated linearly. No band-gap cut-off is applied here.
+  double
+  absorption_coefficient(const OpticalConstants &constants,
+                         double                  wavelength_nm);
+
+  // -------------------------------------------------------------- physics
+
+  // Photon energy in eV of a wavelength in nm: E = h c / (q lambda).
+  double
+  photon_energy_eV(double wavelength_nm);
+
+  // Spectral photon flux Phi = E lambda / (h c) on the spectrum's grid, in
+  // cm^-2 s^-1 nm^-1.
+  std::vector<double>
+  photon_flux(const Spectrum &spectrum);
+
+  // Trapezoidal rule for tabulated y(x).
+  double
+  integrate_trapezoid(const std::vector<double> &x,
+                      const std::vector<double> &y);
+
+  // The part of the spectrum grid whose photon energy is at least the band
+  // gap (a prefix of the grid: the grid is not refined at the gap), with the
+  // 1-sun photon flux and the absorption coefficient on it.
+  struct AboveGapSpectrum
+  {
+    std::vector<double> wavelength_nm;
+    std::vector<double> photon_flux;  // cm^-2 s^-1 nm^-1 at 1 sun
+    std::vector<double> alpha_per_cm; // empty if built without constants
+  };
+
+  // Photon flux only (no optical constants needed).
+  AboveGapSpectrum
+  above_gap_spectrum(const Spectrum &spectrum, double band_gap_eV);
+
+  // Photon flux and absorption coefficient. The optical constants must cover
+  // the above-gap grid; only a short-wavelength tail carrying at most
+  // `uncovered_tail_fraction` of the above-gap photon current may lie below
+  // the table, and is then counted as not absorbed.
+  AboveGapSpectrum
+  above_gap_spectrum(const Spectrum         &spectrum,
+                     const OpticalConstants &constants,
+                     double                  band_gap_eV);
+
+  constexpr double uncovered_tail_fraction = 1e-4;
+
+  // q times the photon flux above the gap, in mA/cm^2 at 1 sun: the upper
+  // bound of the absorbed photon current.
+  double
+  photon_current_mA_per_cm2(const AboveGapSpectrum &above_gap);
+
+  // Geometry and optics of a Beer-Lambert pass through the absorber.
+  struct BeerLambert
+  {
+    double thickness_um      = 1;
+    double intensity_suns    = 1;
+    double front_reflectance = 0; // lost before entering the absorber
+    double back_reflectance  = 0; // 0 = single pass, 1 = perfect mirror
+  };
+
+  // G(d) in cm^-3 s^-1 at depth d (µm) below the illuminated surface:
+  // S (1 - R_f) int Phi alpha [exp(-alpha d) + R_b exp(-alpha (2 t - d))].
+  double
+  beer_lambert_generation(const AboveGapSpectrum &above_gap,
+                          const BeerLambert      &optics,
+                          double                  depth_um);
+
+  // q int_0^t G(d) dd in mA/cm^2, integrated over depth in closed form
+  // for each wavelength.
+  double
+  beer_lambert_absorbed_current(const AboveGapSpectrum &above_gap,
+                                const BeerLambert      &optics);
+
+  // --------------------------------------------------------- case file
+
+  // Section "Illumination" of the case file.
+  struct IlluminationParameters
+  {
+    enum class Model
+    {
+      spectrum,
+      uniform,
+      depth_table
+    };
+    enum class Side
+    {
+      film,
+      substrate
+    };
+
+    Model                 model = Model::spectrum;
+    std::filesystem::path spectrum_file;          // resolved path
+    std::filesystem::path optical_constants_file; // resolved path
+    std::filesystem::path depth_table_file;       // resolved path, or empty
+    double                intensity_suns         = 1;
+    Side                  side                   = Side::film;
+    double                finger_transmittance   = 0.85;
+    double                front_reflectance      = 0;
+    double                back_reflectance       = 0;
+    double                uniform_rate_per_cm3_s = 1e21;
+
+    // The data files shipped with backcomb (data/ of the source tree).
+    IlluminationParameters();
+
+    static void
+    declare_parameters(dealii::ParameterHandler &prm);
+    // Relative file names are resolved against `base_folder` (the case
+    // file's folder); empty file names select the shipped data files.
+    void
+    parse_parameters(dealii::ParameterHandler    &prm,
+                     const std::filesystem::path &base_folder = {});
+  };
+
+  // Depth-resolved generation from a table file: comment lines start with
+  // '#', the first other line is the header
+  // "depth_nm,generation_per_cm3_s", then rows of those two columns.
+  struct DepthTable
+  {
+    std::string         file;
+    std::vector<double> depth_nm; // strictly increasing, from 0
+    std::vector<double> generation_per_cm3_s;
+  };
+  DepthTable
+  read_depth_table(const std::filesystem::path &path);
+
+  // Where the fingers lie along x in one period: the electron finger's
+  // centre at x = 0, then its half-width, the gap, the hole finger's
+  // half-width. `has_fingers = false` for the verification strip.
+  struct FingerLayout
+  {
+    double electron_finger_half_width_um = 0;
+    double gap_um                        = 0;
+    double hole_finger_half_width_um     = 0;
+    bool   has_fingers                   = true;
+  };
+
+  // The generation rate G(x, y) in the absorber, 0 <= y <= t (y = 0 at the
+  // substrate). Built once per case; rate() is cheap (interpolation in a
+  // precomputed depth profile, accurate to 1e-4 relative).
+  class Generation
+  {
+  public:
+    Generation(const IlluminationParameters &parameters,
+               double                        band_gap_eV,
+               double                        thickness_um,
+               const FingerLayout           &layout);
+
+    // cm^-3 s^-1 at a point of the absorber (coordinates in µm).
+    double
+    rate(double x_um, double y_um) const;
+
+    // cm^-3 s^-1 at a depth below the illuminated surface, not shadowed.
+    double
+    rate_at_depth(double depth_um) const;
+
+    // The tabulated depth profile (not shadowed) that rate() interpolates.
+    const std::vector<double> &
+    depth_um() const
+    {
+      return depth_um_;
+    }
+    const std::vector<double> &
+    profile_per_cm3_s() const
+    {
+      return profile_;
+    }
+
+    // q int_0^t G dd for an unshadowed column, in mA/cm^2.
+    double
+    absorbed_current_mA_per_cm2() const
+    {
+      return absorbed_current_;
+    }
+    // Photon current above the gap reaching the cell (intensity applied,
+    // reflectance not): the upper bound of the absorbed current. Only the
+    // spectrum model knows it.
+    std::optional<double>
+    photon_current_above_gap_mA_per_cm2() const
+    {
+      return photon_current_;
+    }
+    // Fraction of the incident light that the fingers let through, averaged
+    // over the period (1 when lit from the film side).
+    double
+    period_average_transmittance() const;
+
+  private:
+    double
+    finger_factor(double x_um) const;
+
+    double                thickness_um_;
+    bool                  from_substrate_;
+    double                finger_transmittance_;
+    FingerLayout          layout_;
+    std::vector<double>   depth_um_;
+    std::vector<double>   profile_;
+    double                absorbed_current_ = 0;
+    std::optional<double> photon_current_;
+  };
+} // namespace backcomb::fem

@@ -1,0 +1,269 @@
+// Verification of the drift-diffusion solver against textbook device
+// physics on test strips. Each check names its source.
+#include "fem/constants.h"
+#include "fem/drift_diffusion.h"
+#include "fem/operating_points.h"
+#include "tests/strip_mesh.h"
+
+#include <gtest/gtest.h>
+
+#include <cmath>
+
+using namespace backcomb;
+using namespace backcomb::fem;
+namespace ids = backcomb::geometry::ids;
+
+namespace
+{
+  constexpr double T  = 300.0;
+  const double     Vt = constants::k_B * T / constants::q;
+
+  ContactParameters
+  ohmic_contact()
+  {
+    ContactParameters c;
+    c.ohmic = true;
+    return c;
+  }
+
+  // A generic crystalline semiconductor for the textbook checks; the
+  // numbers are round values of the order of the common ones, not a
+  // particular material.
+  Material
+  textbook_material()
+  {
+    Material m;
+    m.band_gap          = 0.8;
+    m.electron_affinity = 4.0;
+    m.permittivity      = 12.0;
+    m.Nc = m.Nv = 2.5e19;
+    m.mu_n = m.mu_p = 100.0;
+    m.tau_n = m.tau_p = 1.0; // SRH switched off in effect
+    return m;
+  }
+
+  // Strip device; generation uniform `G` (cm^-3 s^-1) in both regions.
+  DeviceModel
+  strip_device(const Material &left, const Material &right, const double G,
+               const ContactParameters &ec, const ContactParameters &hc)
+  {
+    return DeviceModel(T, {{ids::absorber, left}, {ids::absorber_right, right}},
+                       {ids::absorber, ids::absorber_right}, ec, hc, SurfaceParameters(),
+                       SurfaceParameters(), [G](double, double) { return G; });
+  }
+
+  NumericsParameters
+  tight_numerics()
+  {
+    NumericsParameters n;
+    n.tolerance      = 1e-10;
+    n.max_iterations = 200;
+    return n;
+  }
+} // namespace
+
+// Equilibrium densities in a neutral n-type region: n = N_D and
+// p = n_i^2 / N_D with n_i = sqrt(Nc Nv) exp(-Eg/2kT) (Sze & Ng, Physics of
+// Semiconductor Devices, 3rd ed., 2007, eqs. 1.22 and 1.29-1.30; Boltzmann
+// statistics, complete ionisation).
+TEST(Equilibrium, IntrinsicDensityAndNeutralRegion)
+{
+  Material m = textbook_material();
+  m.donors   = 1e16;
+  dealii::Triangulation<2> tria;
+  test_support::make_strip(tria, 10.0, 1.0, 0.0, 0.01);
+  ContactParameters c;
+  c.ohmic = true;
+  // Work functions of an ideal ohmic contact to this n-type material.
+  const double ni      = std::sqrt(m.Nc * m.Nv) * std::exp(-m.band_gap / (2 * Vt));
+  c.work_function      = m.electron_affinity + Vt * std::log(m.Nc / 1e16);
+  const DeviceModel dev = strip_device(m, m, 0.0, c, c);
+  DriftDiffusionSolver solver(tria, dev, tight_numerics());
+  ASSERT_TRUE(solver.solve_equilibrium().converged);
+  // Sample the centre node.
+  const auto &u = solver.state();
+  const auto &r = dev.region(ids::absorber);
+  double best = 1e9, n = 0, p = 0;
+  std::vector<dealii::types::global_dof_index> idx(12);
+  for (const auto &cell : solver.dof_handler().active_cell_iterators())
+    for (unsigned v = 0; v < 4; ++v)
+      if (std::abs(cell->vertex(v)[0] - 5.0) < best)
+        {
+          best = std::abs(cell->vertex(v)[0] - 5.0);
+          cell->get_dof_indices(idx);
+          const double psi = u[idx[3 * v]], phin = u[idx[3 * v + 1]], phip = u[idx[3 * v + 2]];
+          n = std::exp(psi - phin + r.a_n) * dev.scaling.N0;
+          p = std::exp(phip - psi + r.a_p) * dev.scaling.N0;
+        }
+  EXPECT_NEAR(n / 1e16, 1.0, 1e-6);
+  EXPECT_NEAR(p / (ni * ni / 1e16), 1.0, 1e-6);
+  EXPECT_NEAR(m.intrinsic_density(T) / ni, 1.0, 1e-12);
+}
+
+namespace
+{
+  // Symmetric abrupt p-n junction: p side left (acceptors), n side right.
+  struct Junction
+  {
+    double N = 1e18, B = 1e-10, L = 40.0, xj = 20.0;
+    Material p_side() const
+    {
+      Material m  = textbook_material();
+      m.band_gap  = 0.9; // keeps the currents small enough for negligible ohmic drop
+      m.acceptors = N;
+      m.B_rad     = B;
+      return m;
+    }
+    Material n_side() const
+    {
+      Material m = textbook_material();
+      m.band_gap = 0.9;
+      m.donors   = N;
+      m.B_rad    = B;
+      return m;
+    }
+  };
+} // namespace
+
+// Built-in potential V_bi = (kT/q) ln(N_A N_D / n_i^2) and depletion width
+// W = sqrt(2 eps (V_bi - 2kT/q)/q (1/N_A + 1/N_D)), the depletion
+// approximation with the majority-carrier tail correction (Sze & Ng, 3rd
+// ed., 2007, eqs. 2.9 and 2.11 with sec. 2.2.2). W is measured as the
+// total space charge on the n side divided by q N_D, times two.
+TEST(PnJunction, BuiltInPotentialAndDepletionWidth)
+{
+  const Junction j;
+  dealii::Triangulation<2> tria;
+  test_support::make_strip(tria, j.L, 1.0, j.xj, 0.002, 1.1, 0.5);
+  const Material mp = j.p_side(), mn = j.n_side();
+  const double   ni = std::sqrt(mp.Nc * mp.Nv) * std::exp(-mp.band_gap / (2 * Vt));
+  // Hole contact (right end) sits on the n side here: use ohmic contacts
+  // whose work functions match each side's Fermi level.
+  ContactParameters left = ohmic_contact(), right = ohmic_contact();
+  left.work_function  = mp.electron_affinity + mp.band_gap - Vt * std::log(mp.Nv / j.N);
+  right.work_function = mn.electron_affinity + Vt * std::log(mn.Nc / j.N);
+  // Assign the left region p-type material.
+  DeviceModel dev(T, {{ids::absorber, mp}, {ids::absorber_right, mn}}, {}, left, right,
+                  SurfaceParameters(), SurfaceParameters(), nullptr);
+  DriftDiffusionSolver solver(tria, dev, tight_numerics());
+  ASSERT_TRUE(solver.solve_equilibrium().converged);
+
+  // psi at both ends and the space charge on the n side.
+  const auto &u = solver.state();
+  double psi_left = 0, psi_right = 0, charge = 0;
+  std::vector<dealii::types::global_dof_index> idx(12);
+  for (const auto &cell : solver.dof_handler().active_cell_iterators())
+    {
+      cell->get_dof_indices(idx);
+      const auto &r = dev.region(cell->material_id());
+      for (unsigned v = 0; v < 4; ++v)
+        {
+          if (std::abs(cell->vertex(v)[0]) < 1e-9)
+            psi_left = u[idx[3 * v]];
+          if (std::abs(cell->vertex(v)[0] - j.L) < 1e-9)
+            psi_right = u[idx[3 * v]];
+        }
+      if (cell->material_id() == ids::absorber_right)
+        {
+          // Cell-average space charge (trapezoid on the two x-nodes).
+          double rho = 0;
+          for (unsigned v : {0u, 1u})
+            {
+              const double psi = u[idx[3 * v]];
+              const double n = std::exp(psi - u[idx[3 * v + 1]] + r.a_n);
+              const double p = std::exp(u[idx[3 * v + 2]] - psi + r.a_p);
+              rho += 0.5 * (p - n + r.doping);
+            }
+          charge += rho * cell->extent_in_direction(0) * dev.scaling.N0;
+        }
+    }
+  const double Vbi_textbook = Vt * std::log(j.N * j.N / (ni * ni));
+  const double Vbi_solver   = (psi_right - psi_left) * Vt;
+  EXPECT_NEAR(Vbi_solver / Vbi_textbook, 1.0, 1e-6);
+
+  const double eps     = mp.permittivity * constants::eps0 * 1e-2; // F/cm
+  const double W_text  = std::sqrt(2 * eps * (Vbi_textbook - 2 * Vt) / constants::q * (2.0 / j.N)) * 1e4; // um
+  const double W_model = 2 * charge / j.N;
+  std::printf("V_bi %.6f V (textbook %.6f), W %.5f um (depletion approx. %.5f um)\n",
+              Vbi_solver, Vbi_textbook, W_model, W_text);
+  EXPECT_NEAR(W_model / W_text, 1.0, 0.05);
+}
+
+// Dark J-V of a long-base symmetric p-n junction follows the ideal-diode
+// law J = J0 (exp(V/Vt) - 1), J0 = q n_i^2 (D_n/(L_n N_A) + D_p/(L_p N_D))
+// (Sze & Ng, 3rd ed., 2007, eq. 2.65 in sec. 2.4.2, "Shockley equation").
+// Radiative recombination only, so the lifetime is tau = 1/(B N) and the
+// space-charge recombination is a fraction ~W/(2L) of the diffusion current.
+TEST(PnJunction, IdealDiodeLaw)
+{
+  const Junction j;
+  dealii::Triangulation<2> tria;
+  test_support::make_strip(tria, j.L, 1.0, j.xj, 0.002, 1.1, 0.5);
+  const Material mp = j.p_side(), mn = j.n_side();
+  ContactParameters left = ohmic_contact(), right = ohmic_contact();
+  left.work_function  = mp.electron_affinity + mp.band_gap - Vt * std::log(mp.Nv / j.N);
+  right.work_function = mn.electron_affinity + Vt * std::log(mn.Nc / j.N);
+  // The p side must be at the hole contact for forward bias V > 0:
+  // mirror the strip so that acceptors are on the right.
+  DeviceModel dev(T, {{ids::absorber, mn}, {ids::absorber_right, mp}}, {}, right, left,
+                  SurfaceParameters(), SurfaceParameters(), nullptr);
+  DriftDiffusionSolver solver(tria, dev, tight_numerics());
+  ASSERT_TRUE(solver.solve_equilibrium().converged);
+
+  const double ni  = std::sqrt(mp.Nc * mp.Nv) * std::exp(-mp.band_gap / (2 * Vt));
+  const double D   = mp.mu_n * Vt;                      // cm^2/s, Einstein relation
+  const double tau = 1.0 / (j.B * j.N);                   // s
+  const double Ld  = std::sqrt(D * tau);                  // cm
+  const double J0  = constants::q * ni * ni * 2 * D / (Ld * j.N) * 1e3; // mA/cm^2
+  for (double V = 0.05; V <= 0.5001; V += 0.05)
+    {
+      const StepReport s = move_to(solver, V, 0.0, 8);
+      ASSERT_TRUE(s.converged) << s.diagnostic;
+      if (V < 0.199)
+        continue;
+      // Generator convention: a forward-biased dark diode draws current.
+      const double J_model = -solver.terminal_current().total() * j.L; // per unit strip cross-section
+      const double J_ideal = J0 * (std::exp(V / Vt) - 1);
+      std::printf("V = %.2f V: J = %.6e mA/cm^2, ideal diode %.6e, ratio %.4f\n", V, J_model,
+                  J_ideal, J_model / J_ideal);
+      EXPECT_NEAR(J_model / J_ideal, 1.0, 0.05);
+    }
+}
+
+// Diffusion-limited collection: a p-type strip with uniform generation and
+// ohmic (minority-absorbing) contacts at both ends, at short circuit and low
+// injection. The minority-carrier diffusion equation D n'' - n/tau + G = 0
+// with n(0) = n(g) = 0 gives the collected fraction (2L/g) tanh(g/(2L))
+// (standard solution; e.g. Sze & Ng, 3rd ed., 2007, sec. 2.4.2 for the
+// diffusion equation in a quasi-neutral region).
+TEST(Collection, DiffusionLimitedStrip)
+{
+  Material m  = textbook_material();
+  m.acceptors = 1e16;
+  m.mu_n = m.mu_p = 10.0;
+  // L = 1 um: tau = L^2 / D.
+  const double D   = m.mu_n * Vt;
+  m.tau_n = m.tau_p = 1e-8 / D;
+  const double G   = 1e16; // cm^-3 s^-1: delta n ~ G tau << N_A
+  ContactParameters c = ohmic_contact();
+  c.work_function     = m.electron_affinity + m.band_gap - Vt * std::log(m.Nv / m.acceptors);
+  for (const double ratio : {0.5, 1.0, 2.0, 5.0, 10.0, 20.0})
+    {
+      const double g = ratio * 1.0; // um
+      dealii::Triangulation<2> tria;
+      test_support::make_strip(tria, g, 1.0, 0.0, 0.002 * g, 1.1, 0.05);
+      DeviceModel          dev(T, {{ids::absorber, m}}, {ids::absorber}, c, c, SurfaceParameters(),
+                               SurfaceParameters(), [G](double, double) { return G; });
+      DriftDiffusionSolver solver(tria, dev, tight_numerics());
+      const StepReport     s = illuminate(solver, 1.0, 8);
+      ASSERT_TRUE(s.converged) << s.diagnostic;
+      const TerminalCurrent t = solver.terminal_current();
+      // Electron current out of both ends, over the generated current.
+      const double collected = t.electron_contact_electron - t.electron;
+      const double generated = solver.generation_current();
+      const double expected  = 2.0 / ratio * std::tanh(ratio / 2.0);
+      std::printf("g/L = %5.1f: collected fraction %.5f, diffusion solution %.5f\n", ratio,
+                  collected / generated, expected);
+      EXPECT_NEAR(collected / generated / expected, 1.0, 0.02);
+    }
+}
