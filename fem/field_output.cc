@@ -1,0 +1,117 @@
+// VTK field output of a converged state: potentials, quasi-Fermi levels,
+// densities, current densities, field strength, generation and
+// recombination, in interface units (names carry the unit).
+#include "fem/drift_diffusion.h"
+
+#include <deal.II/numerics/data_out.h>
+#include <deal.II/numerics/data_postprocessor.h>
+
+#include <cmath>
+#include <filesystem>
+#include <fstream>
+
+namespace backcomb::fem
+{
+  using namespace dealii;
+
+  namespace
+  {
+    class DerivedFields : public DataPostprocessor<2>
+    {
+    public:
+      DerivedFields(const DeviceModel &d, double light)
+        : device(d)
+        , light(light)
+      {}
+
+      std::vector<std::string>
+      get_names() const override
+      {
+        return {"potential_V",    "quasi_fermi_n_eV", "quasi_fermi_p_eV", "n_per_cm3",
+                "p_per_cm3",      "J_n_mA_per_cm2",   "J_n_mA_per_cm2",   "J_p_mA_per_cm2",
+                "J_p_mA_per_cm2", "J_mA_per_cm2",     "J_mA_per_cm2",     "field_V_per_cm",
+                "G_per_cm3_s",    "R_per_cm3_s"};
+      }
+
+      std::vector<DataComponentInterpretation::DataComponentInterpretation>
+      get_data_component_interpretation() const override
+      {
+        using I = DataComponentInterpretation::DataComponentInterpretation;
+        const I s = DataComponentInterpretation::component_is_scalar;
+        const I v = DataComponentInterpretation::component_is_part_of_vector;
+        return {s, s, s, s, s, v, v, v, v, v, v, s, s, s};
+      }
+
+      UpdateFlags
+      get_needed_update_flags() const override
+      {
+        return update_values | update_gradients | update_quadrature_points;
+      }
+
+      void
+      evaluate_vector_field(const DataPostprocessorInputs::Vector<2> &in,
+                            std::vector<Vector<double>> &out) const override
+      {
+        const auto         cell = in.template get_cell<2>();
+        const ScaledRegion &r   = device.region(cell->material_id());
+        const Scaling      &s   = device.scaling;
+        for (unsigned q = 0; q < in.solution_values.size(); ++q)
+          {
+            const auto  &u = in.solution_values[q];
+            const auto  &g = in.solution_gradients[q];
+            const double n = std::exp(u[0] - u[1] + r.a_n);
+            const double p = std::exp(u[2] - u[0] + r.a_p);
+            Rate         k;
+            for (const auto &ch : r.channels)
+              k.R += ch->rate(n, p).R;
+            const Tensor<1, 2> Jn = -r.mu_n * n * g[1] * s.J0;
+            const Tensor<1, 2> Jp = -r.mu_p * p * g[2] * s.J0;
+            auto &o = out[q];
+            o(0)  = u[0] * s.Vt;
+            o(1)  = -u[1] * s.Vt;
+            o(2)  = -u[2] * s.Vt;
+            o(3)  = n * s.N0;
+            o(4)  = p * s.N0;
+            o(5)  = Jn[0], o(6) = Jn[1];
+            o(7)  = Jp[0], o(8) = Jp[1];
+            o(9)  = Jn[0] + Jp[0], o(10) = Jn[1] + Jp[1];
+            o(11) = g[0].norm() * s.Vt / s.L0;
+            const auto &x = in.evaluation_points[q];
+            o(12) = (r.absorber && device.generation) ? light * device.generation(x[0], x[1]) : 0.0;
+            o(13) = k.R * s.R0;
+          }
+      }
+
+    private:
+      const DeviceModel &device;
+      double             light;
+    };
+  } // namespace
+
+  void
+  DriftDiffusionSolver::write_fields(const std::string &vtu_file) const
+  {
+    DerivedFields derived(device, light_factor);
+    DataOut<2>    out;
+    out.attach_dof_handler(dofs);
+    out.add_data_vector(solution, derived);
+    Vector<float> region(tria.n_active_cells());
+    for (const auto &cell : tria.active_cell_iterators())
+      region[cell->active_cell_index()] = cell->material_id();
+    out.add_data_vector(region, "region_id");
+    out.build_patches();
+    // Atomic: write a temporary file next to the target, then rename.
+    const std::string tmp = vtu_file + ".tmp";
+    {
+      std::ofstream f(tmp);
+      out.write_vtu(f);
+      f.flush();
+      if (!f)
+        {
+          std::filesystem::remove(tmp);
+          throw std::runtime_error("cannot write " + vtu_file);
+        }
+    }
+    std::filesystem::rename(tmp, vtu_file);
+  }
+} // namespace backcomb::fem

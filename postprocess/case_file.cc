@@ -1,0 +1,304 @@
+#include "postprocess/case_file.h"
+
+#include "geometry/input.h"
+
+#include <filesystem>
+#include <fstream>
+#include <set>
+#include <sstream>
+
+namespace backcomb::postprocess
+{
+  namespace
+  {
+    // Interlayers default to wide-gap transport layers; the absorber to a
+    // generic intrinsic perovskite-type film. These defaults are the
+    // template a user edits, not measured data.
+    fem::Material
+    interlayer_defaults(const bool electron)
+    {
+      fem::Material m;
+      m.band_gap          = 3.2;
+      m.electron_affinity = electron ? 4.0 : 2.3;
+      m.permittivity      = 10;
+      m.mu_n = m.mu_p     = 1e-3;
+      m.donors            = electron ? 1e18 : 0;
+      m.acceptors         = electron ? 0 : 1e18;
+      return m;
+    }
+
+    fem::ContactParameters
+    contact_defaults(const bool electron)
+    {
+      fem::ContactParameters c;
+      c.work_function = electron ? 4.0 : 5.4;
+      c.S_n           = electron ? 1e7 : 10;
+      c.S_p           = electron ? 10 : 1e7;
+      return c;
+    }
+
+    std::vector<double>
+    parse_list(const std::string &entry, const std::string &text)
+    {
+      std::vector<double> out;
+      std::stringstream   in(text);
+      std::string         item;
+      while (std::getline(in, item, ','))
+        {
+          std::istringstream s(item);
+          double             v;
+          std::string        rest;
+          if (!(s >> v) || (s >> rest) || !std::isfinite(v))
+            throw InputError(entry, text, "expected a comma-separated list of numbers");
+          out.push_back(v);
+        }
+      return out;
+    }
+
+    // Line of "set <name>" inside the section path of `file`, or 0.
+    unsigned
+    find_line(const std::string &text, const std::string &path)
+    {
+      const auto  slash = path.rfind('/');
+      if (slash == std::string::npos)
+        return 0;
+      const std::string name = path.substr(slash + 1);
+      std::vector<std::string> want, stack;
+      std::stringstream p(path.substr(0, slash));
+      for (std::string s; std::getline(p, s, '/');)
+        want.push_back(s);
+      std::istringstream in(text);
+      unsigned           no = 0;
+      for (std::string line; std::getline(in, line);)
+        {
+          ++no;
+          std::istringstream w(line);
+          std::string        key;
+          w >> key;
+          if (key == "subsection")
+            {
+              std::string rest;
+              std::getline(w, rest);
+              rest.erase(0, rest.find_first_not_of(" \t"));
+              rest.erase(rest.find_last_not_of(" \t\r") + 1);
+              stack.push_back(rest);
+            }
+          else if (key == "end" && !stack.empty())
+            stack.pop_back();
+          else if (key == "set" && stack == want)
+            {
+              std::string rest;
+              std::getline(w, rest);
+              const auto eq = rest.find('=');
+              std::string n = rest.substr(0, eq);
+              n.erase(0, n.find_first_not_of(" \t"));
+              n.erase(n.find_last_not_of(" \t") + 1);
+              if (n == name)
+                return no;
+            }
+        }
+      return 0;
+    }
+  } // namespace
+
+  void
+  declare_case(dealii::ParameterHandler &prm)
+  {
+    geometry::GeometryParameters::declare_parameters(prm);
+    geometry::MeshParameters::declare_parameters(prm);
+    fem::Material::declare_parameters(prm, "Absorber", fem::Material());
+    fem::Material::declare_parameters(prm, "Electron interlayer", interlayer_defaults(true));
+    fem::Material::declare_parameters(prm, "Hole interlayer", interlayer_defaults(false));
+    fem::ContactParameters::declare_parameters(prm, "Electron contact", contact_defaults(true));
+    fem::ContactParameters::declare_parameters(prm, "Hole contact", contact_defaults(false));
+    fem::SurfaceParameters::declare_parameters(prm, "Top surface", fem::SurfaceParameters());
+    fem::SurfaceParameters::declare_parameters(prm, "Gap interface", fem::SurfaceParameters());
+    fem::IlluminationParameters::declare_parameters(prm);
+    fem::NumericsParameters::declare_parameters(prm);
+
+    prm.enter_subsection("Device");
+    declare_number(prm, "Temperature", "300", "Device temperature in K, 1..1000.");
+    prm.declare_entry("Active area", "gap", dealii::Patterns::Selection("gap|period"),
+                      "Width counted as active for the per-active-area metrics: the gap "
+                      "between the fingers, or the whole period (= footprint).");
+    prm.leave_subsection();
+
+    prm.enter_subsection("J-V sweep");
+    declare_number(prm, "Start voltage", "-0.1", "First bias in V (hole comb against electron comb), -5..5.");
+    declare_number(prm, "Stop voltage", "1.3", "Last bias in V, > Start voltage, -5..5.");
+    declare_number(prm, "Voltage step", "0.02", "Bias step in V, 1e-4..1.");
+    prm.declare_entry("Direction", "forward", dealii::Patterns::Selection("forward|reverse"),
+                      "forward: from Start to Stop voltage; reverse: from Stop to Start.");
+    prm.declare_entry("Dark sweep", "true", dealii::Patterns::Bool(),
+                      "Also compute the dark J-V over the same biases.");
+    declare_number(prm, "Maximum power point resolution", "0.002",
+                   "Bias step in V to which the sweep is refined around the maximum power "
+                   "point, 1e-5..1.");
+    prm.leave_subsection();
+
+    prm.enter_subsection("Output");
+    prm.declare_entry("Folder", "backcomb-out", dealii::Patterns::Anything(),
+                      "Folder for the results (created if missing), relative to the "
+                      "working directory.");
+    prm.declare_entry("Write fields", "true", dealii::Patterns::Bool(),
+                      "Write the VTK fields at the field biases.");
+    prm.declare_entry("Field biases", "0", dealii::Patterns::Anything(),
+                      "Comma-separated biases in V at which the fields are written "
+                      "(each must lie within the J-V sweep).");
+    prm.leave_subsection();
+  }
+
+  std::string
+  default_case_text()
+  {
+    dealii::ParameterHandler prm;
+    declare_case(prm);
+    std::ostringstream out;
+    out << "# backcomb case file: all entries with their defaults.\n"
+        << "# Units are stated in each entry's documentation.\n";
+    prm.print_parameters(out, dealii::ParameterHandler::PRM);
+    return out.str();
+  }
+
+  std::pair<std::string, std::string>
+  split_override(const std::string &text)
+  {
+    const auto eq = text.find('=');
+    if (eq == std::string::npos || eq == 0 || text.find('/') == std::string::npos ||
+        text.find('/') > eq)
+      throw InputError("--set", text, "expected \"Section/Name=value\"");
+    return {text.substr(0, eq), text.substr(eq + 1)};
+  }
+
+  Case
+  read_case(const std::string &file, const std::vector<std::string> &overrides)
+  {
+    Case c;
+    c.file      = file;
+    c.overrides = overrides;
+    {
+      std::ifstream in(file);
+      if (!in)
+        throw InputError(file + ": cannot open the case file for reading");
+      std::ostringstream s;
+      s << in.rdbuf();
+      c.echo = s.str();
+    }
+    dealii::ParameterHandler prm;
+    declare_case(prm);
+    try
+      {
+        prm.parse_input_from_string(c.echo, file);
+      }
+    catch (const dealii::ExceptionBase &e)
+      {
+        // deal.II's message names the file, the line and the entry; keep
+        // its first lines, which carry that.
+        std::ostringstream s;
+        e.print_info(s);
+        std::string msg = s.str();
+        while (!msg.empty() && (msg.back() == '\n' || msg.back() == ' '))
+          msg.pop_back();
+        throw InputError(file + ": " + msg);
+      }
+
+    // Overrides: "Section/Sub/Name=value", each entry at most once.
+    std::set<std::string> seen;
+    std::string           override_of; // for error messages
+    for (const auto &o : overrides)
+      {
+        const auto [path, value] = split_override(o);
+        if (!seen.insert(path).second)
+          throw InputError("--set " + path, value, "given more than once");
+        std::vector<std::string> parts;
+        std::stringstream        p(path);
+        for (std::string s; std::getline(p, s, '/');)
+          parts.push_back(s);
+        unsigned depth = 0;
+        try
+          {
+            for (std::size_t i = 0; i + 1 < parts.size(); ++i, ++depth)
+              prm.enter_subsection(parts[i]);
+            prm.set(parts.back(), value);
+          }
+        catch (const dealii::ExceptionBase &)
+          {
+            for (; depth > 0; --depth)
+              prm.leave_subsection();
+            throw InputError("--set " + path, value,
+                             "unknown entry or value not allowed here (print the "
+                             "annotated defaults with 'backcomb template')");
+          }
+        for (; depth > 0; --depth)
+          prm.leave_subsection();
+      }
+
+    try
+      {
+        c.geometry.parse_parameters(prm);
+        c.mesh.parse_parameters(prm);
+        c.mesh.validate(c.geometry);
+        c.absorber.parse_parameters(prm, "Absorber");
+        c.electron_interlayer.parse_parameters(prm, "Electron interlayer");
+        c.hole_interlayer.parse_parameters(prm, "Hole interlayer");
+        c.electron_contact.parse_parameters(prm, "Electron contact");
+        c.hole_contact.parse_parameters(prm, "Hole contact");
+        c.top_surface.parse_parameters(prm, "Top surface");
+        c.gap_interface.parse_parameters(prm, "Gap interface");
+        c.illumination.parse_parameters(prm, std::filesystem::path(file).parent_path());
+        c.numerics.parse_parameters(prm);
+
+        prm.enter_subsection("Device");
+        c.device.temperature = get_in_range(prm, "Device", "Temperature", 1, 1000);
+        c.device.active_area = prm.get("Active area") == "period" ? DeviceSettings::ActiveArea::period
+                                                                   : DeviceSettings::ActiveArea::gap;
+        prm.leave_subsection();
+
+        prm.enter_subsection("J-V sweep");
+        c.jv.start     = get_in_range(prm, "J-V sweep", "Start voltage", -5, 5);
+        c.jv.stop      = get_in_range(prm, "J-V sweep", "Stop voltage", -5, 5);
+        c.jv.step      = get_in_range(prm, "J-V sweep", "Voltage step", 1e-4, 1);
+        c.jv.reverse   = prm.get("Direction") == "reverse";
+        c.jv.dark      = prm.get_bool("Dark sweep");
+        c.jv.refine_to = get_in_range(prm, "J-V sweep", "Maximum power point resolution", 1e-5, 1);
+        if (!(c.jv.stop > c.jv.start))
+          throw InputError("J-V sweep/Stop voltage", prm.get("Stop voltage"),
+                           "must be larger than Start voltage = " + prm.get("Start voltage"));
+        if ((c.jv.stop - c.jv.start) / c.jv.step > 20000)
+          throw InputError("J-V sweep/Voltage step", prm.get("Voltage step"),
+                           "gives more than 20000 biases");
+        prm.leave_subsection();
+
+        prm.enter_subsection("Output");
+        c.output.folder = prm.get("Folder");
+        if (c.output.folder.empty())
+          throw InputError("Output/Folder", "", "must not be empty");
+        c.output.fields       = prm.get_bool("Write fields");
+        c.output.field_biases = parse_list("Output/Field biases", prm.get("Field biases"));
+        for (const double v : c.output.field_biases)
+          if (v < c.jv.start - 1e-12 || v > c.jv.stop + 1e-12)
+            throw InputError("Output/Field biases", prm.get("Field biases"),
+                             "every bias must lie within the J-V sweep [Start, Stop voltage]");
+        prm.leave_subsection();
+
+        // Contradictions between sections.
+        const double film_nm = c.geometry.absorber_thickness_um * 1e3;
+        (void)film_nm; // interlayer vs film is checked by GeometryParameters
+      }
+    catch (const InputError &e)
+      {
+        // Locate the entry in the file or among the overrides.
+        std::string where = file;
+        bool        from_override = false;
+        for (const auto &o : overrides)
+          if (o.rfind(e.entry() + "=", 0) == 0)
+            from_override = true;
+        if (from_override)
+          where = "--set " + e.entry();
+        else if (const unsigned line = find_line(c.echo, e.entry()))
+          where += ":" + std::to_string(line);
+        throw InputError(where + ": " + e.what());
+      }
+    return c;
+  }
+} // namespace backcomb::postprocess

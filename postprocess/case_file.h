@@ -1,0 +1,73 @@
+// The complete case: every section of a backcomb case file, read from a
+// deal.II ParameterHandler text file plus command-line overrides
+// ("Section/Name=value"). Errors name the file, the line (when the entry
+// appears in the file), the entry and the value.
+#pragma once
+
+#include "fem/device.h"
+#include "fem/material.h"
+#include "fem/optics.h"
+#include "geometry/parameters.h"
+
+#include <deal.II/base/parameter_handler.h>
+
+#include <string>
+#include <vector>
+
+namespace backcomb::postprocess
+{
+  // Section "Device": conditions and the definition of the active area.
+  struct DeviceSettings
+  {
+    double temperature = 300.0; // K
+    // Which width counts as "active" for the per-active-area metrics.
+    enum class ActiveArea { gap, period } active_area = ActiveArea::gap;
+  };
+
+  // Section "J-V sweep".
+  struct JVSettings
+  {
+    double start = -0.1, stop = 1.3, step = 0.02; // V
+    bool   reverse      = false;  // sweep from stop to start
+    bool   dark         = true;   // also a dark J-V
+    double refine_to    = 0.002;  // V, step near the maximum power point
+  };
+
+  // Section "Output".
+  struct OutputSettings
+  {
+    std::string         folder = "backcomb-out";
+    bool                fields = true;
+    std::vector<double> field_biases{0.0}; // V at which fields are written
+  };
+
+  struct Case
+  {
+    std::string                  file;   // path as given
+    std::string                  echo;   // the case file text (for summary.json)
+    geometry::GeometryParameters geometry;
+    geometry::MeshParameters     mesh;
+    fem::Material                absorber, electron_interlayer, hole_interlayer;
+    fem::ContactParameters       electron_contact, hole_contact;
+    fem::SurfaceParameters       top_surface, gap_interface;
+    fem::IlluminationParameters  illumination;
+    fem::NumericsParameters      numerics;
+    DeviceSettings               device;
+    JVSettings                   jv;
+    OutputSettings               output;
+    std::vector<std::string>     overrides;
+  };
+
+  // Declares every section with the documented defaults.
+  void declare_case(dealii::ParameterHandler &prm);
+
+  // The complete annotated defaults, as a case file.
+  std::string default_case_text();
+
+  // Reads `file`, applies the overrides in order and checks everything.
+  // Throws InputError with a message "file:line: Section/Name = value: why".
+  Case read_case(const std::string &file, const std::vector<std::string> &overrides);
+
+  // Splits "Section/Sub/Name=value" into path and value; throws InputError.
+  std::pair<std::string, std::string> split_override(const std::string &text);
+} // namespace backcomb::postprocess

@@ -1,0 +1,508 @@
+#include "postprocess/pipeline.h"
+
+#include "fem/drift_diffusion.h"
+#include "fem/operating_points.h"
+#include "geometry/ids.h"
+#include "geometry/input.h"
+#include "geometry/period_mesh.h"
+
+#include <deal.II/base/config.h>
+#include <deal.II/grid/tria.h>
+
+#include <gmsh.h>
+#include <nlohmann/json.hpp>
+#include <vtkVersion.h>
+
+#include <algorithm>
+#include <chrono>
+#include <cmath>
+#include <cstdio>
+#include <iomanip>
+#include <iostream>
+#include <map>
+#include <sstream>
+#include <unistd.h>
+
+namespace backcomb::postprocess
+{
+  namespace ids = backcomb::geometry::ids;
+  using json    = nlohmann::json;
+
+  namespace
+  {
+    double
+    seconds_since(const std::chrono::steady_clock::time_point t0)
+    {
+      return std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+    }
+
+    json
+    statistics_json(const geometry::MeshStatistics &s)
+    {
+      return {{"cells", s.n_cells},
+              {"smallest_cell_um", s.min_size_um},
+              {"largest_cell_um", s.max_size_um},
+              {"smallest_cell_x_um", s.min_x_size_um},
+              {"smallest_cell_y_um", s.min_y_size_um},
+              {"worst_aspect_ratio", s.worst_aspect_ratio}};
+    }
+
+    void
+    print_statistics(const geometry::MeshStatistics &s)
+    {
+      std::printf("mesh: %u cells; cell sides %.4g .. %.4g um (x from %.4g um, y from %.4g um); "
+                  "worst aspect ratio %.0f\n",
+                  s.n_cells, s.min_size_um, s.max_size_um, s.min_x_size_um, s.min_y_size_um,
+                  s.worst_aspect_ratio);
+    }
+
+    // Progress on a terminal; nothing in batch logs or with --quiet.
+    struct Progress
+    {
+      bool on;
+      explicit Progress(bool quiet)
+        : on(!quiet && isatty(fileno(stderr)))
+      {}
+      void
+      line(const std::string &s) const
+      {
+        if (on)
+          std::fprintf(stderr, "\r%-78s", s.c_str());
+      }
+      void
+      done() const
+      {
+        if (on)
+          std::fprintf(stderr, "\r%-78s\r", "");
+      }
+    };
+
+    // One J-V point with the state it converged to (for refinement).
+    struct Point
+    {
+      fem::JVPoint           jv;
+      dealii::Vector<double> state;
+    };
+
+    struct Sweep
+    {
+      std::vector<Point> points;         // sorted by voltage at the end
+      std::vector<std::string> failures; // diagnostics
+      unsigned newton = 0, halvings = 0;
+      double   seconds = 0;
+    };
+
+    std::string
+    bias_name(double v)
+    {
+      std::ostringstream s;
+      s << std::fixed << std::setprecision(4) << v;
+      return s.str();
+    }
+
+    // Sweeps the biases in the given order from the solver's current state.
+    // Stops at the first failure: later points would start from a state
+    // that is not a solution.
+    void
+    sweep(fem::DriftDiffusionSolver &solver, const std::vector<double> &biases, double light,
+          unsigned halvings, Sweep &out, const Progress &progress, const std::string &label)
+    {
+      const auto t0 = std::chrono::steady_clock::now();
+      for (const double v : biases)
+        {
+          const fem::StepReport r = fem::move_to(solver, v, light, halvings);
+          out.newton += r.newton_iterations;
+          out.halvings += r.halvings;
+          Point p;
+          p.jv.voltage           = v;
+          p.jv.converged         = r.converged;
+          p.jv.newton_iterations = r.newton_iterations;
+          if (!r.converged)
+            {
+              out.failures.push_back(label + ": " + r.diagnostic);
+              out.points.push_back(p);
+              break;
+            }
+          p.jv.current = solver.terminal_current().total();
+          p.state      = solver.state();
+          out.points.push_back(std::move(p));
+          std::ostringstream s;
+          s << label << ": V = " << std::fixed << std::setprecision(3) << v << " V, J = "
+            << std::setprecision(3) << out.points.back().jv.current << " mA/cm2, "
+            << r.newton_iterations << " Newton steps";
+          progress.line(s.str());
+        }
+      out.seconds += seconds_since(t0);
+    }
+
+    // Solves at V starting from the stored point nearest to it.
+    bool
+    solve_near(fem::DriftDiffusionSolver &solver, Sweep &s, double v, double light, unsigned halvings)
+    {
+      const Point *best = nullptr;
+      for (const auto &p : s.points)
+        if (p.jv.converged && (!best || std::abs(p.jv.voltage - v) < std::abs(best->jv.voltage - v)))
+          best = &p;
+      if (!best)
+        return false;
+      solver.set_state(best->state, best->jv.voltage, light);
+      const fem::StepReport r = fem::move_to(solver, v, light, halvings);
+      s.newton += r.newton_iterations;
+      s.halvings += r.halvings;
+      if (!r.converged)
+        return false;
+      Point p;
+      p.jv = {v, solver.terminal_current().total(), true, r.newton_iterations};
+      p.state = solver.state();
+      s.points.push_back(std::move(p));
+      std::sort(s.points.begin(), s.points.end(),
+                [](const Point &a, const Point &b) { return a.jv.voltage < b.jv.voltage; });
+      return true;
+    }
+
+    // The contiguous converged J-V points from the lowest bias up.
+    std::vector<fem::JVPoint>
+    converged_curve(const Sweep &s)
+    {
+      std::vector<fem::JVPoint> c;
+      for (const auto &p : s.points)
+        {
+          if (!p.jv.converged)
+            break;
+          c.push_back(p.jv);
+        }
+      return c;
+    }
+
+    // Refines around the maximum power point down to `resolution` and finds
+    // V_oc by regula falsi to 1e-4 V.
+    void
+    refine(fem::DriftDiffusionSolver &solver, Sweep &s, double resolution, unsigned halvings)
+    {
+      const auto t0 = std::chrono::steady_clock::now();
+      for (int pass = 0; pass < 40; ++pass)
+        {
+          const auto c = converged_curve(s);
+          if (c.size() < 3)
+            break;
+          std::size_t b = 0;
+          for (std::size_t i = 0; i < c.size(); ++i)
+            if (c[i].voltage * c[i].current > c[b].voltage * c[b].current)
+              b = i;
+          if (b == 0 || b + 1 >= c.size())
+            break;
+          const double left = c[b].voltage - c[b - 1].voltage, right = c[b + 1].voltage - c[b].voltage;
+          if (std::max(left, right) <= resolution)
+            break;
+          const double v = left > right ? c[b].voltage - 0.5 * left : c[b].voltage + 0.5 * right;
+          if (!solve_near(solver, s, v, 1.0, halvings))
+            break;
+        }
+      for (int it = 0; it < 30; ++it)
+        {
+          const auto c = converged_curve(s);
+          std::size_t k = c.size();
+          for (std::size_t i = 0; i + 1 < c.size(); ++i)
+            if (c[i].current > 0 && c[i + 1].current <= 0)
+              k = i;
+          if (k == c.size() || c[k + 1].voltage - c[k].voltage < 1e-4)
+            break;
+          double v = c[k].voltage + c[k].current / (c[k].current - c[k + 1].current) *
+                                      (c[k + 1].voltage - c[k].voltage);
+          // Keep away from the bracket ends so that the bracket shrinks.
+          const double w = c[k + 1].voltage - c[k].voltage;
+          v = std::clamp(v, c[k].voltage + 0.05 * w, c[k + 1].voltage - 0.05 * w);
+          if (!solve_near(solver, s, v, 1.0, halvings))
+            break;
+        }
+      s.seconds += seconds_since(t0);
+    }
+
+    std::vector<double>
+    bias_grid(const Case &c)
+    {
+      std::vector<double> v;
+      const long n = std::lround(std::floor((c.jv.stop - c.jv.start) / c.jv.step + 1e-9));
+      for (long i = 0; i <= n; ++i)
+        v.push_back(c.jv.start + i * c.jv.step);
+      if (v.back() < c.jv.stop - 1e-9)
+        v.push_back(c.jv.stop);
+      if (c.jv.start < 0 && c.jv.stop > 0)
+        v.push_back(0.0);
+      for (const double f : c.output.field_biases)
+        v.push_back(f);
+      std::sort(v.begin(), v.end());
+      v.erase(std::unique(v.begin(), v.end(), [](double a, double b) { return std::abs(a - b) < 1e-9; }),
+              v.end());
+      return v;
+    }
+
+    // Sweep order: from short circuit outward, so that each bias starts
+    // from a neighbouring solution: 0 -> stop, then (restarting at 0) 0 ->
+    // start; "reverse" does the negative side first.
+    void
+    run_sweep(fem::DriftDiffusionSolver &solver, const Case &c, double light, Sweep &s,
+              const Progress &progress, const std::string &label)
+    {
+      const std::vector<double> grid = bias_grid(c);
+      std::vector<double>       up, down;
+      for (const double v : grid)
+        (v >= 0 ? up : down).push_back(v);
+      std::reverse(down.begin(), down.end());
+      const dealii::Vector<double> start = solver.state();
+      const double                 v0    = solver.voltage();
+      auto run = [&](const std::vector<double> &b) {
+        solver.set_state(start, v0, light);
+        sweep(solver, b, light, c.numerics.max_halvings, s, progress, label);
+      };
+      if (c.jv.reverse)
+        run(down), run(up);
+      else
+        run(up), run(down);
+      std::sort(s.points.begin(), s.points.end(),
+                [](const Point &a, const Point &b) { return a.jv.voltage < b.jv.voltage; });
+    }
+
+    std::map<unsigned, fem::Material>
+    materials_of(const Case &c)
+    {
+      std::map<unsigned, fem::Material> m{{ids::absorber, c.absorber}};
+      if (c.geometry.layout == geometry::GeometryParameters::Layout::test_strip)
+        m[ids::absorber_right] = c.absorber;
+      if (c.geometry.electron_interlayer_nm > 0)
+        m[ids::electron_interlayer] = c.electron_interlayer;
+      if (c.geometry.hole_interlayer_nm > 0)
+        m[ids::hole_interlayer] = c.hole_interlayer;
+      return m;
+    }
+
+    json
+    metrics_json(const fem::JVMetrics &m, double active_scale, double input_power)
+    {
+      if (!m.valid)
+        return nullptr;
+      json j = {{"Jsc_mA_per_cm2", m.Jsc},   {"Voc_V", m.Voc},  {"FF", m.FF},
+                {"Pmax_mW_per_cm2", m.Pmax}, {"Vmp_V", m.Vmp},  {"Jmp_mA_per_cm2", m.Jmp}};
+      j["PCE_percent"] = input_power > 0 ? json(100 * m.Pmax / input_power) : json(nullptr);
+      j["per_active_area"] = {{"Jsc_mA_per_cm2", m.Jsc * active_scale},
+                              {"Pmax_mW_per_cm2", m.Pmax * active_scale},
+                              {"PCE_percent", input_power > 0 ? json(100 * m.Pmax * active_scale / input_power)
+                                                              : json(nullptr)}};
+      return j;
+    }
+
+    std::string
+    number(double v)
+    {
+      std::ostringstream s;
+      s << std::setprecision(10) << v;
+      return s.str();
+    }
+  } // namespace
+
+  int
+  run_mesh(const Case &c, const RunOptions &o)
+  {
+    make_folder(o.folder);
+    dealii::Triangulation<2> tria;
+    const std::string        msh = o.folder + "/mesh.msh";
+    try
+      {
+        geometry::build_triangulation(c.geometry, c.mesh, tria, msh);
+        geometry::write_mesh_preview(tria, o.folder + "/mesh.vtu");
+      }
+    catch (const InputError &)
+      {
+        throw;
+      }
+    catch (const std::exception &e)
+      {
+        throw OutputError(e.what());
+      }
+    print_statistics(geometry::mesh_statistics(tria));
+    std::printf("wrote %s/mesh.msh and %s/mesh.vtu\n", o.folder.c_str(), o.folder.c_str());
+    return exit_ok;
+  }
+
+  int
+  run_solve(const Case &c, const RunOptions &o)
+  {
+    const auto     t_start = std::chrono::steady_clock::now();
+    const Progress progress(o.quiet);
+    json           summary;
+    summary["backcomb_version"] = BACKCOMB_VERSION;
+    summary["software"] = {{"deal.II", DEAL_II_PACKAGE_VERSION},
+                           {"gmsh", GMSH_API_VERSION},
+                           {"vtk", vtkVersion::GetVTKVersion()}};
+    summary["case_file"]  = c.file;
+    summary["overrides"]  = c.overrides;
+    summary["case_text"]  = c.echo;
+
+    // Everything that can fail on input is checked before the folder exists.
+    const double film_um = c.geometry.absorber_thickness_um;
+    fem::FingerLayout layout;
+    const bool strip = c.geometry.layout == geometry::GeometryParameters::Layout::test_strip;
+    layout.has_fingers                   = !strip;
+    layout.electron_finger_half_width_um = 0.5 * c.geometry.electron_finger_width_um;
+    layout.gap_um                        = c.geometry.gap_um;
+    layout.hole_finger_half_width_um     = 0.5 * c.geometry.hole_finger_width_um;
+    const fem::Generation generation(c.illumination, c.absorber.band_gap, film_um, layout);
+
+    make_folder(o.folder);
+    const auto t_mesh = std::chrono::steady_clock::now();
+    dealii::Triangulation<2> tria;
+    try
+      {
+        geometry::build_triangulation(c.geometry, c.mesh, tria, o.folder + "/mesh.msh");
+      }
+    catch (const InputError &)
+      {
+        throw;
+      }
+    catch (const std::exception &e)
+      {
+        throw OutputError(e.what());
+      }
+    const auto stats   = geometry::mesh_statistics(tria);
+    summary["mesh"]    = statistics_json(stats);
+    const double t_m   = seconds_since(t_mesh);
+    if (!o.quiet)
+      print_statistics(stats);
+
+    const fem::DeviceModel device(
+      c.device.temperature, materials_of(c), {ids::absorber, ids::absorber_right},
+      c.electron_contact, c.hole_contact, c.top_surface, c.gap_interface,
+      [&generation](double x, double y) { return generation.rate(x, y); });
+    fem::DriftDiffusionSolver solver(tria, device, c.numerics);
+    summary["unknowns"] = solver.n_dofs();
+
+    const double width  = solver.width_um();
+    const double active = (!strip && c.device.active_area == DeviceSettings::ActiveArea::gap)
+                            ? c.geometry.gap_um
+                            : width;
+    const double input_power = 100.0 * c.illumination.intensity_suns; // mW/cm^2
+    const bool   lit         = c.illumination.intensity_suns > 0;
+
+    // Light: equilibrium, light ramp, J-V.
+    Sweep      light;
+    const auto t_light = std::chrono::steady_clock::now();
+    const fem::StepReport on = fem::illuminate(solver, lit ? 1.0 : 0.0, c.numerics.max_halvings);
+    light.newton += on.newton_iterations;
+    light.halvings += on.halvings;
+    double generated = 0;
+    std::string status = "converged";
+    if (!on.converged)
+      {
+        light.failures.push_back(on.diagnostic);
+        status = "failed";
+      }
+    else
+      {
+        generated = solver.generation_current();
+        run_sweep(solver, c, lit ? 1.0 : 0.0, light, progress, lit ? "light" : "dark");
+        if (lit)
+          refine(solver, light, c.jv.refine_to, c.numerics.max_halvings);
+      }
+    const double t_l = seconds_since(t_light);
+
+    // Fields at the requested biases, from the stored states.
+    json fields = json::array();
+    if (c.output.fields && on.converged)
+      {
+        make_folder(o.folder + "/fields");
+        std::ostringstream pvd;
+        pvd << "<?xml version=\"1.0\"?>\n<VTKFile type=\"Collection\" version=\"0.1\">\n<Collection>\n";
+        for (const double v : c.output.field_biases)
+          for (const auto &p : light.points)
+            if (p.jv.converged && std::abs(p.jv.voltage - v) < 1e-9)
+              {
+                solver.set_state(p.state, v, lit ? 1.0 : 0.0);
+                const std::string name = "fields/" + std::string(lit ? "light" : "dark") + "_V" + bias_name(v) + ".vtu";
+                try
+                  {
+                    solver.write_fields(o.folder + "/" + name);
+                  }
+                catch (const std::exception &e)
+                  {
+                    throw OutputError(e.what());
+                  }
+                pvd << "<DataSet timestep=\"" << number(v) << "\" file=\"" << name << "\"/>\n";
+                fields.push_back({{"bias_V", v}, {"file", name}});
+              }
+        pvd << "</Collection>\n</VTKFile>\n";
+        write_file_atomically(o.folder + "/fields.pvd", pvd.str());
+      }
+
+    // Dark J-V over the same biases.
+    Sweep      dark;
+    const auto t_dark = std::chrono::steady_clock::now();
+    if (lit && c.jv.dark)
+      {
+        const fem::StepReport eq = fem::illuminate(solver, 0.0, c.numerics.max_halvings);
+        dark.newton += eq.newton_iterations;
+        if (eq.converged)
+          run_sweep(solver, c, 0.0, dark, progress, "dark");
+        else
+          dark.failures.push_back(eq.diagnostic);
+      }
+    const double t_d = seconds_since(t_dark);
+    progress.done();
+
+    // Metrics from the light curve.
+    const fem::JVMetrics m = lit ? fem::jv_metrics(converged_curve(light)) : fem::JVMetrics();
+    if (lit && !m.valid)
+      status = "failed";
+    for (const auto &p : light.points)
+      if (!p.jv.converged)
+        status = (status == "converged" && m.valid) ? "partial" : status;
+    for (const auto &p : dark.points)
+      if (!p.jv.converged && status == "converged")
+        status = "partial";
+
+    summary["status"]       = status;
+    summary["failures"]     = light.failures;
+    for (const auto &f : dark.failures)
+      summary["failures"].push_back(f);
+    summary["metrics"]      = lit ? metrics_json(m, width / active, input_power) : json(nullptr);
+    summary["footprint_width_um"] = width;
+    summary["active_width_um"]    = active;
+    summary["generation_current_mA_per_cm2"] = generated;
+    summary["collection_efficiency"] =
+      (m.valid && generated > 0) ? json(m.Jsc / generated) : json(nullptr);
+    summary["newton"] = {{"light_iterations", light.newton}, {"light_halvings", light.halvings},
+                         {"dark_iterations", dark.newton}, {"dark_halvings", dark.halvings}};
+    summary["timings_s"] = {{"mesh", t_m}, {"light", t_l}, {"dark", t_d},
+                            {"total", seconds_since(t_start)}};
+    summary["fields"]    = fields;
+
+    // jv.csv: light and dark currents on the union of biases.
+    std::map<long, std::pair<std::string, std::string>> rows;
+    auto key = [](double v) { return std::lround(v * 1e7); };
+    for (const auto &p : light.points)
+      rows[key(p.jv.voltage)].first = p.jv.converged ? number(p.jv.current) : "failed";
+    for (const auto &p : dark.points)
+      rows[key(p.jv.voltage)].second = p.jv.converged ? number(p.jv.current) : "failed";
+    std::ostringstream csv;
+    csv << "# backcomb J-V; current density per footprint (period width " << width
+        << " um), generator convention (positive = delivered)\n";
+    csv << "voltage_V,J_light_mA_per_cm2,J_dark_mA_per_cm2\n";
+    for (const auto &[k, r] : rows)
+      csv << number(k * 1e-7) << ',' << r.first << ',' << r.second << '\n';
+    write_file_atomically(o.folder + "/jv.csv", csv.str());
+    write_file_atomically(o.folder + "/summary.json", summary.dump(2) + "\n");
+
+    if (m.valid)
+      std::printf("Jsc %.3f mA/cm2  Voc %.4f V  FF %.4f  PCE %.3f %% (footprint), %.3f %% (active)  "
+                  "collection %.4f\n",
+                  m.Jsc, m.Voc, m.FF, input_power > 0 ? 100 * m.Pmax / input_power : 0.0,
+                  input_power > 0 ? 100 * m.Pmax * width / active / input_power : 0.0,
+                  generated > 0 ? m.Jsc / generated : 0.0);
+    else if (lit)
+      std::printf("J-V metrics not available: the light J-V did not converge where they are needed\n");
+    for (const auto &f : summary["failures"])
+      std::fprintf(stderr, "backcomb: %s\n", f.get<std::string>().c_str());
+    std::printf("status %s; wrote %s/jv.csv, %s/summary.json%s\n", status.c_str(), o.folder.c_str(),
+                o.folder.c_str(), fields.empty() ? "" : " and fields.pvd");
+    return status == "failed" ? exit_no_convergence : exit_ok;
+  }
+} // namespace backcomb::postprocess

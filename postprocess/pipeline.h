@@ -1,0 +1,22 @@
+// The case pipeline behind the `mesh` and `solve` subcommands: geometry ->
+// device model -> operating points -> result files.
+#pragma once
+
+#include "postprocess/case_file.h"
+#include "postprocess/output.h"
+
+#include <string>
+
+namespace backcomb::postprocess
+{
+  struct RunOptions
+  {
+    std::string folder;
+    bool        quiet = false;
+  };
+
+  // Both return a process exit code (see geometry/input.h) and throw
+  // InputError / OutputError for invalid input and unwritable output.
+  int run_mesh(const Case &c, const RunOptions &options);
+  int run_solve(const Case &c, const RunOptions &options);
+} // namespace backcomb::postprocess
