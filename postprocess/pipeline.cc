@@ -105,12 +105,42 @@ namespace backcomb::postprocess
     // that is not a solution.
     void
     sweep(fem::DriftDiffusionSolver &solver, const std::vector<double> &biases, double light,
-          unsigned halvings, Sweep &out, const Progress &progress, const std::string &label)
+          unsigned halvings, Sweep &out, const Progress &progress, const std::string &label,
+          bool extend_to_voc = false, double step = 0.02)
     {
       const auto t0 = std::chrono::steady_clock::now();
-      for (const double v : biases)
+      // The two previous solutions of this sweep, for a linear predictor.
+      dealii::Vector<double> older, old;
+      double                 v_older = 0, v_old = 0;
+      std::vector<double>    todo(biases.rbegin(), biases.rend());
+      double                 extended = 0;
+      while (!todo.empty())
         {
-          const fem::StepReport r = fem::move_to(solver, v, light, halvings);
+          const double v = todo.back();
+          todo.pop_back();
+          fem::StepReport r;
+          if (older.size() > 0 && std::abs(v_old - v_older) > 0)
+            {
+              // First try from the extrapolated solution; on failure fall
+              // back to the last converged state and step halving.
+              dealii::Vector<double> guess = old;
+              guess.sadd(1.0 + (v - v_old) / (v_old - v_older), -(v - v_old) / (v_old - v_older), older);
+              solver.set_state(guess, v, light);
+              const fem::NewtonReport n = solver.solve(v, light);
+              r.newton_iterations       = n.iterations;
+              r.converged               = n.converged;
+              if (!r.converged)
+                {
+                  solver.set_state(old, v_old, light);
+                  const fem::StepReport again = fem::move_to(solver, v, light, halvings);
+                  r.converged  = again.converged;
+                  r.halvings   = again.halvings;
+                  r.diagnostic = again.diagnostic;
+                  r.newton_iterations += again.newton_iterations;
+                }
+            }
+          else
+            r = fem::move_to(solver, v, light, halvings);
           out.newton += r.newton_iterations;
           out.halvings += r.halvings;
           Point p;
@@ -125,12 +155,23 @@ namespace backcomb::postprocess
             }
           p.jv.current = solver.terminal_current().total();
           p.state      = solver.state();
-          out.points.push_back(std::move(p));
+          older        = old;
+          v_older      = v_old;
+          old          = p.state;
+          v_old        = v;
+          out.points.push_back(p);
           std::ostringstream s;
           s << label << ": V = " << std::fixed << std::setprecision(3) << v << " V, J = "
-            << std::setprecision(3) << out.points.back().jv.current << " mA/cm2, "
-            << r.newton_iterations << " Newton steps";
+            << std::setprecision(3) << p.jv.current << " mA/cm2, " << r.newton_iterations
+            << " Newton steps";
           progress.line(s.str());
+          // Under light, go on past the last bias until the current changes
+          // sign (open circuit), at most 1 V further.
+          if (todo.empty() && extend_to_voc && v > 0 && p.jv.current > 0 && extended < 1.0)
+            {
+              todo.push_back(v + step);
+              extended += step;
+            }
         }
       out.seconds += seconds_since(t0);
     }
@@ -253,7 +294,9 @@ namespace backcomb::postprocess
       const double                 v0    = solver.voltage();
       auto run = [&](const std::vector<double> &b) {
         solver.set_state(start, v0, light);
-        sweep(solver, b, light, c.numerics.max_halvings, s, progress, label);
+        const bool up_side = !b.empty() && b.back() >= 0;
+        sweep(solver, b, light, c.numerics.max_halvings, s, progress, label,
+              light > 0 && up_side, c.jv.step);
       };
       if (c.jv.reverse)
         run(down), run(up);

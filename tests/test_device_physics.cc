@@ -267,3 +267,73 @@ TEST(Collection, DiffusionLimitedStrip)
       EXPECT_NEAR(collected / generated / expected, 1.0, 0.02);
     }
 }
+
+namespace
+{
+  // Small-signal resistance (per unit depth, Ohm cm) of a uniformly lit
+  // intrinsic strip of length L_um with ohmic end contacts.
+  double
+  photoconductor_resistance(const Material &m, const double G, const double L_um)
+  {
+    dealii::Triangulation<2> tria;
+    test_support::make_strip(tria, L_um, 1.0, 0.0, 0.01, 1.15, 2.0);
+    ContactParameters c = ohmic_contact();
+    c.work_function     = m.electron_affinity + 0.5 * m.band_gap; // midgap, Nc = Nv
+    DeviceModel dev(T, {{ids::absorber, m}}, {ids::absorber}, c, c, SurfaceParameters(),
+                    SurfaceParameters(), [G](double, double) { return G; });
+    DriftDiffusionSolver solver(tria, dev, tight_numerics());
+    const StepReport     s = illuminate(solver, 1.0, 8);
+    EXPECT_TRUE(s.converged) << s.diagnostic;
+    const double dV = 0.1 * Vt;
+    double       I[2];
+    for (int k = 0; k < 2; ++k)
+      {
+        const StepReport r = move_to(solver, k == 0 ? -dV : dV, 1.0, 8);
+        EXPECT_TRUE(r.converged) << r.diagnostic;
+        // mA/cm^2 of width -> A per cm of depth: J * L.
+        I[k] = -solver.terminal_current().total() * 1e-3 * (L_um * 1e-4);
+      }
+    return 2 * dV / (I[1] - I[0]);
+  }
+} // namespace
+
+// Uniformly illuminated intrinsic photoconductor: the conductance per unit
+// length is q (mu_n + mu_p) n t, with n = p = sqrt(G/B) for radiative
+// recombination and n = G (tau_n + tau_p) for SRH through a mid-gap trap
+// (n = p >> n1) (steady-state photoconductivity, e.g. Sze & Ng, 3rd ed.,
+// 2007, ch. 13, photoconductor gain). The resistances of two strips of
+// different length are subtracted so that the contact regions (a few
+// ambipolar diffusion lengths, here ~2 um) cancel exactly.
+TEST(Photoconductor, SmallSignalConductance)
+{
+  Material m          = textbook_material();
+  m.band_gap          = 1.6;
+  m.electron_affinity = 3.9;
+  m.mu_n = m.mu_p = 1.0;
+  const double G      = 1e21;
+  const double t_cm   = 1e-4;
+  const double dL_cm  = 200e-4;
+  for (const bool radiative : {true, false})
+    {
+      Material mm = m;
+      double   n  = 0;
+      if (radiative)
+        {
+          mm.B_rad = 1e-10;
+          mm.tau_n = mm.tau_p = 1.0;
+          n = std::sqrt(G / mm.B_rad);
+        }
+      else
+        {
+          mm.tau_n = mm.tau_p = 1e-6;
+          n = G * (mm.tau_n + mm.tau_p);
+        }
+      const double R1 = photoconductor_resistance(mm, G, 200.0);
+      const double R2 = photoconductor_resistance(mm, G, 400.0);
+      const double sigma_model = dL_cm / ((R2 - R1) * t_cm);
+      const double sigma_text  = constants::q * (mm.mu_n + mm.mu_p) * n;
+      std::printf("%s: sigma = %.6e S/cm, expected %.6e S/cm, ratio %.5f\n",
+                  radiative ? "radiative" : "SRH", sigma_model, sigma_text, sigma_model / sigma_text);
+      EXPECT_NEAR(sigma_model / sigma_text, 1.0, 0.02);
+    }
+}
