@@ -4,6 +4,7 @@
 #include "geometry/input.h"
 #include "postprocess/case_file.h"
 #include "postprocess/pipeline.h"
+#include "postprocess/sweep.h"
 
 #include <deal.II/base/exceptions.h>
 #include <deal.II/base/mpi.h>
@@ -26,11 +27,22 @@ namespace
     "                           unit and allowed range\n"
     "  mesh CASE.prm [options]  mesh the period: mesh.msh, mesh.vtu and statistics\n"
     "  solve CASE.prm [options] solve the case: jv.csv, summary.json, fields\n"
+    "  sweep CASE.prm --vary \"Section/Name=VALUES\" [--vary ...] [options]\n"
+    "                           solve every case of the grid, then write\n"
+    "                           sweep.csv, sweep.json, sweep.svg/.png\n"
+    "  merge FOLDER             table, plot and recommendation from the finished\n"
+    "                           cases of a sweep folder (after --task runs)\n"
     "\n"
     "options:\n"
     "  --set \"Section/Name=value\"  override one case-file entry (repeatable)\n"
     "  --out FOLDER                 results folder (default: Output/Folder)\n"
     "  --quiet                      no progress lines\n"
+    "sweep options:\n"
+    "  --vary \"Section/Name=VALUES\" swept entry; VALUES is a comma list of values,\n"
+    "                               start:stop:step and start:stop:xN (N values,\n"
+    "                               constant ratio); a second --vary makes a grid\n"
+    "  --task I --of N              run only share I (1..N) of the cases, no merge\n"
+    "  --retry-failed               recompute cases that failed before\n"
     "\n"
     "exit codes: 0 success, 1 usage, 2 invalid input, 3 no convergence,\n"
     "            4 output could not be written, 5 internal error\n";
@@ -38,9 +50,19 @@ namespace
   struct Arguments
   {
     std::string              command, case_file, out;
-    std::vector<std::string> overrides;
-    bool                     quiet = false;
+    std::vector<std::string> overrides, vary;
+    bool                     quiet = false, retry_failed = false;
+    unsigned                 task = 0, tasks = 0;
   };
+
+  // A whole positive number for --task / --of, or 0.
+  unsigned
+  positive(const char *text)
+  {
+    char         *end = nullptr;
+    const long    v   = std::strtol(text, &end, 10);
+    return (*text && *end == '\0' && v > 0 && v < 1000000) ? unsigned(v) : 0;
+  }
 
   bool
   parse_arguments(int argc, char **argv, Arguments &a)
@@ -53,10 +75,24 @@ namespace
         const std::string s = argv[i];
         if (s == "--set" && i + 1 < argc)
           a.overrides.push_back(argv[++i]);
-        else if (s == "--out" && i + 1 < argc)
+        else if (s == "--out" && i + 1 < argc && argv[i + 1][0] != '\0')
           a.out = argv[++i];
         else if (s == "--quiet")
           a.quiet = true;
+        else if (s == "--vary" && i + 1 < argc)
+          a.vary.push_back(argv[++i]);
+        else if (s == "--retry-failed")
+          a.retry_failed = true;
+        else if ((s == "--task" || s == "--of") && i + 1 < argc)
+          {
+            const unsigned v = positive(argv[++i]);
+            if (v == 0)
+              {
+                std::fprintf(stderr, "backcomb: %s needs a whole number >= 1, not '%s'\n", s.c_str(), argv[i]);
+                return false;
+              }
+            (s == "--task" ? a.task : a.tasks) = v;
+          }
         else if (!s.empty() && s[0] != '-' && a.case_file.empty())
           a.case_file = s;
         else
@@ -65,7 +101,26 @@ namespace
             return false;
           }
       }
+    if ((a.task == 0) != (a.tasks == 0) || a.task > a.tasks)
+      {
+        std::fprintf(stderr, "backcomb: --task I and --of N go together, with 1 <= I <= N\n");
+        return false;
+      }
+    const bool sweep_options = !a.vary.empty() || a.tasks > 0 || a.retry_failed;
+    if (sweep_options && a.command != "sweep")
+      {
+        std::fprintf(stderr, "backcomb: --vary, --task, --of and --retry-failed belong to 'sweep'\n");
+        return false;
+      }
     return true;
+  }
+
+  int
+  rank()
+  {
+    int r = 0;
+    MPI_Comm_rank(MPI_COMM_WORLD, &r);
+    return r;
   }
 } // namespace
 
@@ -89,7 +144,16 @@ main(int argc, char **argv)
           std::cout << postprocess::default_case_text();
           return exit_ok;
         }
-      if (args.command != "mesh" && args.command != "solve")
+      if (args.command == "merge")
+        {
+          if (args.case_file.empty() || !args.overrides.empty() || !args.out.empty())
+            {
+              std::fprintf(stderr, "backcomb: merge takes only the sweep folder (and --quiet)\n\n%s", usage);
+              return exit_usage;
+            }
+          return rank() == 0 ? postprocess::merge_sweep(args.case_file, args.quiet) : exit_ok;
+        }
+      if (args.command != "mesh" && args.command != "solve" && args.command != "sweep")
         {
           std::fprintf(stderr, "backcomb: unknown command '%s'\n\n%s", args.command.c_str(), usage);
           return exit_usage;
@@ -98,6 +162,22 @@ main(int argc, char **argv)
         {
           std::fprintf(stderr, "backcomb: %s needs a case file\n\n%s", args.command.c_str(), usage);
           return exit_usage;
+        }
+      if (args.command == "sweep")
+        {
+          // Every rank checks the whole grid: the same input gives every
+          // rank the same error, so all stop alike before anything is written.
+          const postprocess::SweepPlan plan =
+            postprocess::make_plan(args.case_file, args.overrides, args.vary);
+          postprocess::SweepOptions options;
+          options.folder = args.out.empty()
+                             ? postprocess::read_case(args.case_file, args.overrides).output.folder
+                             : args.out;
+          options.quiet        = args.quiet;
+          options.task         = args.task;
+          options.tasks        = args.tasks;
+          options.retry_failed = args.retry_failed;
+          return postprocess::run_sweep(plan, options);
         }
       const postprocess::Case c = postprocess::read_case(args.case_file, args.overrides);
       const std::string       out = args.out.empty() ? c.output.folder : args.out;
@@ -110,7 +190,9 @@ main(int argc, char **argv)
     }
   catch (const InputError &e)
     {
-      std::fprintf(stderr, "backcomb: input error: %s\n", e.what());
+      // Input errors are the same on every rank: report them once.
+      if (rank() == 0)
+        std::fprintf(stderr, "backcomb: input error: %s\n", e.what());
       return exit_input;
     }
   catch (const postprocess::OutputError &e)

@@ -104,10 +104,10 @@ namespace backcomb::fem
   {
     prm.enter_subsection("Numerics");
     tolerance      = get_in_range(prm, "Numerics", "Newton tolerance", 1e-14, 1e-2);
-    max_iterations = static_cast<unsigned>(get_in_range(prm, "Numerics", "Newton iterations", 1, 1000));
+    max_iterations = get_whole_number(prm, "Numerics", "Newton iterations", 1, 1000);
     max_update     = get_in_range(prm, "Numerics", "Update limit", 0.1, 100);
-    max_halvings   = static_cast<unsigned>(get_in_range(prm, "Numerics", "Step halvings", 0, 30));
-    quadrature     = static_cast<unsigned>(get_in_range(prm, "Numerics", "Quadrature points", 2, 5));
+    max_halvings   = get_whole_number(prm, "Numerics", "Step halvings", 0, 30);
+    quadrature     = get_whole_number(prm, "Numerics", "Quadrature points", 2, 5);
     prm.leave_subsection();
   }
 

@@ -7,9 +7,12 @@
 #include <deal.II/fe/fe_q.h>
 #include <deal.II/fe/fe_values.h>
 #include <deal.II/fe/mapping_q1.h>
+#include <deal.II/distributed/tria_base.h>
 #include <deal.II/lac/dynamic_sparsity_pattern.h>
-#include <deal.II/lac/sparse_direct.h>
+#include <deal.II/lac/sparsity_tools.h>
 #include <deal.II/numerics/vector_tools.h>
+
+#include <petscksp.h>
 
 #include <algorithm>
 #include <chrono>
@@ -29,6 +32,38 @@ namespace backcomb::fem
     mask_of(const bool psi, const bool phin, const bool phip)
     {
       return ComponentMask(std::vector<bool>{psi, phin, phip});
+    }
+
+    // PETSc error codes become exceptions (caught as failed solves).
+    void
+    check(const PetscErrorCode code, const char *what)
+    {
+      if (code != 0)
+        throw std::runtime_error(std::string("PETSc failed in ") + what);
+    }
+
+    // Direct LU solve with MUMPS through PETSc: A x = b or A^T x = b.
+    // Returns false if the factorisation failed (e.g. a singular Jacobian).
+    bool
+    lu_solve(const Mat A, const Vec b, Vec x, const bool transpose, const MPI_Comm comm)
+    {
+      KSP ksp;
+      PC  pc;
+      check(KSPCreate(comm, &ksp), "KSPCreate");
+      check(KSPSetOperators(ksp, A, A), "KSPSetOperators");
+      check(KSPSetType(ksp, KSPPREONLY), "KSPSetType");
+      check(KSPGetPC(ksp, &pc), "KSPGetPC");
+      check(PCSetType(pc, PCLU), "PCSetType");
+      check(PCFactorSetMatSolverType(pc, MATSOLVERMUMPS), "PCFactorSetMatSolverType");
+      check(KSPSetErrorIfNotConverged(ksp, PETSC_FALSE), "KSPSetErrorIfNotConverged");
+      PetscErrorCode code = KSPSetUp(ksp);
+      if (code == 0)
+        code = transpose ? KSPSolveTranspose(ksp, b, x) : KSPSolve(ksp, b, x);
+      KSPConvergedReason reason = KSP_DIVERGED_BREAKDOWN;
+      if (code == 0)
+        KSPGetConvergedReason(ksp, &reason);
+      KSPDestroy(&ksp);
+      return code == 0 && reason >= 0;
     }
 
     // Sum of the recombination channels of a region.
@@ -53,9 +88,12 @@ namespace backcomb::fem
     : tria(tria_)
     , device(device_)
     , numerics(numerics_)
+    , comm(MPI_COMM_SELF)
     , fe(FE_Q<2>(1), 3)
     , dofs(tria_)
   {
+    if (const auto *p = dynamic_cast<const parallel::TriangulationBase<2> *>(&tria))
+      comm = p->get_communicator();
     double xmin = 1e300, xmax = -1e300;
     for (const auto &v : tria.get_vertices())
       {
@@ -67,39 +105,67 @@ namespace backcomb::fem
     precompute_generation();
   }
 
+  std::vector<types::global_dof_index>
+  DriftDiffusionSolver::boundary_dofs(const unsigned b, const unsigned c) const
+  {
+    std::vector<types::global_dof_index> out, idx(fe.n_dofs_per_face());
+    for (const auto &cell : dofs.active_cell_iterators())
+      for (const unsigned f : cell->face_indices())
+        if (cell->face(f)->at_boundary() && cell->face(f)->boundary_id() == b)
+          {
+            cell->face(f)->get_dof_indices(idx);
+            for (unsigned i = 0; i < idx.size(); ++i)
+              if (fe.face_system_to_component_index(i).first == c)
+                out.push_back(idx[i]);
+          }
+    std::sort(out.begin(), out.end());
+    out.erase(std::unique(out.begin(), out.end()), out.end());
+    return out;
+  }
+
   void
   DriftDiffusionSolver::setup_system()
   {
     dofs.distribute_dofs(fe);
+    owned = dofs.locally_owned_dofs();
+    DoFTools::extract_locally_relevant_dofs(dofs, relevant);
+
+    for (unsigned c = 0; c < 3; ++c)
+      {
+        hole_contact_dofs[c]     = boundary_dofs(ids::hole_contact, c);
+        electron_contact_dofs[c] = boundary_dofs(ids::electron_contact, c);
+      }
 
     // The update vanishes where values are prescribed: psi at both contacts,
     // the quasi-Fermi potentials only at ohmic contacts.
     zero_constraints.clear();
-    const Functions::ZeroFunction<2> zero(3);
-    VectorTools::interpolate_boundary_values(
-      dofs, ids::electron_contact, zero, zero_constraints,
-      mask_of(true, device.electron_contact.ohmic, device.electron_contact.ohmic));
-    VectorTools::interpolate_boundary_values(
-      dofs, ids::hole_contact, zero, zero_constraints,
-      mask_of(true, device.hole_contact.ohmic, device.hole_contact.ohmic));
-    zero_constraints.close();
-
-    DynamicSparsityPattern dsp(dofs.n_dofs());
-    DoFTools::make_sparsity_pattern(dofs, dsp, zero_constraints, false);
-    sparsity.copy_from(dsp);
-    jacobian.reinit(sparsity);
-    solution.reinit(dofs.n_dofs());
-    support_points.resize(dofs.n_dofs());
-    DoFTools::map_dofs_to_support_points(MappingQ1<2>(), dofs, support_points);
-
     for (unsigned c = 0; c < 3; ++c)
       {
-        std::vector<bool> m(3, false);
-        m[c] = true;
-        const IndexSet h = DoFTools::extract_boundary_dofs(dofs, ComponentMask(m), {ids::hole_contact});
-        const IndexSet e = DoFTools::extract_boundary_dofs(dofs, ComponentMask(m), {ids::electron_contact});
-        hole_contact_dofs[c].assign(h.begin(), h.end());
-        electron_contact_dofs[c].assign(e.begin(), e.end());
+        if (c == c_psi || device.electron_contact.ohmic)
+          for (const auto i : electron_contact_dofs[c])
+            zero_constraints.add_line(i);
+        if (c == c_psi || device.hole_contact.ohmic)
+          for (const auto i : hole_contact_dofs[c])
+            zero_constraints.add_line(i);
+      }
+    zero_constraints.close();
+
+    DynamicSparsityPattern dsp(relevant);
+    DoFTools::make_sparsity_pattern(dofs, dsp, zero_constraints, false);
+    SparsityTools::distribute_sparsity_pattern(dsp, owned, comm, relevant);
+    jacobian.reinit(owned, owned, dsp, comm);
+    rhs.reinit(owned, comm);
+    solution.reinit(dofs.n_dofs());
+
+    // Nodal positions of every DoF (for diagnostics).
+    support_points.resize(dofs.n_dofs());
+    std::vector<types::global_dof_index> idx(fe.n_dofs_per_cell());
+    for (const auto &cell : dofs.active_cell_iterators())
+      {
+        cell->get_dof_indices(idx);
+        for (unsigned v = 0; v < 4; ++v)
+          for (unsigned c = 0; c < 3; ++c)
+            support_points[idx[fe.component_to_system_index(c, v)]] = cell->vertex(v);
       }
   }
 
@@ -111,6 +177,8 @@ namespace backcomb::fem
     generation_qp.assign(tria.n_active_cells() * quad.size(), 0.0);
     for (const auto &cell : dofs.active_cell_iterators())
       {
+        if (!cell->is_locally_owned())
+          continue;
         const ScaledRegion &r = device.region(cell->material_id());
         if (!r.absorber || !device.generation)
           continue;
@@ -127,250 +195,292 @@ namespace backcomb::fem
   void
   DriftDiffusionSolver::set_boundary_values(Vector<double> &u, const double voltage) const
   {
-    auto apply = [&](const types::boundary_id id, const ScaledContact &c, const double v_contact) {
-      const double phi = v_contact / device.scaling.Vt;
-      const Functions::ConstantFunction<2> values(std::vector<double>{phi + c.psi_offset, phi, phi});
-      std::map<types::global_dof_index, double> bv;
-      VectorTools::interpolate_boundary_values(dofs, id, values, bv, mask_of(true, c.ohmic, c.ohmic));
-      for (const auto &[i, v] : bv)
-        u[i] = v;
-    };
-    apply(ids::electron_contact, device.electron_contact, 0.0);
-    apply(ids::hole_contact, device.hole_contact, voltage);
+    const double V[2] = {0.0, voltage / device.scaling.Vt};
+    const ScaledContact *contact[2] = {&device.electron_contact, &device.hole_contact};
+    const std::vector<types::global_dof_index> *list[2] = {electron_contact_dofs, hole_contact_dofs};
+    for (unsigned k = 0; k < 2; ++k)
+      {
+        for (const auto i : list[k][c_psi])
+          u[i] = V[k] + contact[k]->psi_offset;
+        if (contact[k]->ohmic)
+          for (const unsigned c : {c_phin, c_phip})
+            for (const auto i : list[k][c])
+              u[i] = V[k];
+      }
   }
 
+  template <typename CellIterator>
   void
-  DriftDiffusionSolver::assemble(const Vector<double> &u,
-                                 const double light,
-                                 SparseMatrix<double> *matrix,
-                                 Vector<double> &residual,
-                                 const bool with_contacts,
-                                 const bool apply_constraints) const
+  DriftDiffusionSolver::assemble_cell(const CellIterator &cell,
+                                      const Vector<double> &u,
+                                      const double light,
+                                      FullMatrix<double> *Aptr,
+                                      Vector<double> &F,
+                                      const bool with_contacts) const
   {
     const QGauss<2> quad(numerics.quadrature);
     const QGauss<1> face_quad(numerics.quadrature);
-    FEValues<2>     fv(fe, quad, update_values | update_gradients | update_JxW_values);
-    FEFaceValues<2> ffv(fe, face_quad, update_values | update_JxW_values);
+    // FEValues objects are reused between calls of the same thread.
+    thread_local std::unique_ptr<FEValues<2>>     fv_ptr;
+    thread_local std::unique_ptr<FEFaceValues<2>> ffv_ptr;
+    thread_local const void                      *owner = nullptr;
+    if (owner != this || !fv_ptr)
+      {
+        fv_ptr  = std::make_unique<FEValues<2>>(fe, quad, update_values | update_gradients | update_JxW_values);
+        ffv_ptr = std::make_unique<FEFaceValues<2>>(fe, face_quad, update_values | update_JxW_values);
+        owner   = this;
+      }
+    FEValues<2>     &fv  = *fv_ptr;
+    FEFaceValues<2> &ffv = *ffv_ptr;
 
     const unsigned dpc = fe.n_dofs_per_cell();
     const unsigned nq  = quad.size();
-    FullMatrix<double> A(dpc, dpc);
-    Vector<double>     F(dpc);
     std::vector<types::global_dof_index> idx(dpc);
-    std::vector<unsigned> comp(dpc);
+    unsigned comp[GeometryInfo<2>::vertices_per_cell * 3];
     for (unsigned i = 0; i < dpc; ++i)
       comp[i] = fe.system_to_component_index(i).first;
 
-    if (matrix)
-      *matrix = 0;
-    residual.reinit(dofs.n_dofs());
-
-    for (const auto &cell : dofs.active_cell_iterators())
+    const ScaledRegion &r = device.region(cell->material_id());
+    fv.reinit(cell);
+    cell->get_dof_indices(idx);
+    if (Aptr)
+      *Aptr = 0;
+    F = 0;
+    for (unsigned q = 0; q < nq; ++q)
       {
-        const ScaledRegion &r = device.region(cell->material_id());
-        fv.reinit(cell);
-        cell->get_dof_indices(idx);
-        A = 0;
-        F = 0;
-        for (unsigned q = 0; q < nq; ++q)
+        double       v[3] = {0, 0, 0};
+        Tensor<1, 2> g[3];
+        for (unsigned i = 0; i < dpc; ++i)
           {
-            double      v[3] = {0, 0, 0};
-            Tensor<1, 2> g[3];
-            for (unsigned i = 0; i < dpc; ++i)
+            v[comp[i]] += u[idx[i]] * fv.shape_value(i, q);
+            g[comp[i]] += u[idx[i]] * fv.shape_grad(i, q);
+          }
+        const double n  = std::exp(v[c_psi] - v[c_phin] + r.a_n);
+        const double p  = std::exp(v[c_phip] - v[c_psi] + r.a_p);
+        const Rate   k  = bulk_rate(r, n, p);
+        const double G  = light * generation_qp[cell->active_cell_index() * nq + q];
+        const double dx = fv.JxW(q);
+        // Derivatives of R with respect to (psi, phi_n, phi_p).
+        const double dR[3]   = {k.dR_dn * n - k.dR_dp * p, -k.dR_dn * n, k.dR_dp * p};
+        const double jn_coef = r.mu_n * n, jp_coef = r.mu_p * p;
+        for (unsigned i = 0; i < dpc; ++i)
+          {
+            const double       vi = fv.shape_value(i, q);
+            const Tensor<1, 2> gi = fv.shape_grad(i, q);
+            switch (comp[i])
               {
-                v[comp[i]] += u[idx[i]] * fv.shape_value(i, q);
-                g[comp[i]] += u[idx[i]] * fv.shape_grad(i, q);
+                case c_psi:
+                  F(i) += (r.eps * (g[c_psi] * gi) - (p - n + r.doping) * vi) * dx;
+                  break;
+                case c_phin:
+                  F(i) += (jn_coef * (g[c_phin] * gi) - (k.R - G) * vi) * dx;
+                  break;
+                case c_phip:
+                  F(i) += (jp_coef * (g[c_phip] * gi) + (k.R - G) * vi) * dx;
+                  break;
               }
-            const double n  = std::exp(v[c_psi] - v[c_phin] + r.a_n);
-            const double p  = std::exp(v[c_phip] - v[c_psi] + r.a_p);
-            const Rate   k  = bulk_rate(r, n, p);
-            const double G  = light * generation_qp[cell->active_cell_index() * nq + q];
-            const double dx = fv.JxW(q);
-            // Derivatives of R with respect to (psi, phi_n, phi_p).
-            const double dR[3] = {k.dR_dn * n - k.dR_dp * p, -k.dR_dn * n, k.dR_dp * p};
-            const double jn_coef = r.mu_n * n, jp_coef = r.mu_p * p;
-            for (unsigned i = 0; i < dpc; ++i)
+            if (!Aptr)
+              continue;
+            FullMatrix<double> &A  = *Aptr;
+            const double        gn = g[c_phin] * gi, gp = g[c_phip] * gi;
+            for (unsigned j = 0; j < dpc; ++j)
               {
-                const double       vi = fv.shape_value(i, q);
-                const Tensor<1, 2> gi = fv.shape_grad(i, q);
+                const double       wj = fv.shape_value(j, q);
+                const Tensor<1, 2> gj = fv.shape_grad(j, q);
+                const unsigned     cj = comp[j];
+                double             a  = 0;
                 switch (comp[i])
                   {
                     case c_psi:
-                      F(i) += (r.eps * (g[c_psi] * gi) - (p - n + r.doping) * vi) * dx;
+                      if (cj == c_psi)
+                        a = r.eps * (gj * gi) + (p + n) * wj * vi;
+                      else if (cj == c_phin)
+                        a = -n * wj * vi;
+                      else
+                        a = -p * wj * vi;
                       break;
                     case c_phin:
-                      F(i) += (jn_coef * (g[c_phin] * gi) - (k.R - G) * vi) * dx;
+                      if (cj == c_psi)
+                        a = jn_coef * wj * gn - dR[0] * wj * vi;
+                      else if (cj == c_phin)
+                        a = -jn_coef * wj * gn + jn_coef * (gj * gi) - dR[1] * wj * vi;
+                      else
+                        a = -dR[2] * wj * vi;
                       break;
                     case c_phip:
-                      F(i) += (jp_coef * (g[c_phip] * gi) + (k.R - G) * vi) * dx;
+                      if (cj == c_psi)
+                        a = -jp_coef * wj * gp + dR[0] * wj * vi;
+                      else if (cj == c_phin)
+                        a = dR[1] * wj * vi;
+                      else
+                        a = jp_coef * wj * gp + jp_coef * (gj * gi) + dR[2] * wj * vi;
                       break;
                   }
-                if (!matrix)
-                  continue;
-                const double gn = g[c_phin] * gi, gp = g[c_phip] * gi;
-                for (unsigned j = 0; j < dpc; ++j)
-                  {
-                    const double       wj = fv.shape_value(j, q);
-                    const Tensor<1, 2> gj = fv.shape_grad(j, q);
-                    const unsigned     cj = comp[j];
-                    double             a  = 0;
-                    switch (comp[i])
-                      {
-                        case c_psi:
-                          if (cj == c_psi)
-                            a = r.eps * (gj * gi) + (p + n) * wj * vi;
-                          else if (cj == c_phin)
-                            a = -n * wj * vi;
-                          else
-                            a = -p * wj * vi;
-                          break;
-                        case c_phin:
-                          if (cj == c_psi)
-                            a = jn_coef * wj * gn - dR[0] * wj * vi;
-                          else if (cj == c_phin)
-                            a = -jn_coef * wj * gn + jn_coef * (gj * gi) - dR[1] * wj * vi;
-                          else
-                            a = -dR[2] * wj * vi;
-                          break;
-                        case c_phip:
-                          if (cj == c_psi)
-                            a = -jp_coef * wj * gp + dR[0] * wj * vi;
-                          else if (cj == c_phin)
-                            a = dR[1] * wj * vi;
-                          else
-                            a = jp_coef * wj * gp + jp_coef * (gj * gi) + dR[2] * wj * vi;
-                          break;
-                      }
-                    A(i, j) += a * dx;
-                  }
+                A(i, j) += a * dx;
               }
           }
+      }
 
-        // Boundary terms: contact fluxes (selective model) and surface
-        // recombination. On symmetry sides the normal flux is zero.
-        for (const unsigned f : cell->face_indices())
+    // Boundary terms: contact fluxes (selective model) and surface
+    // recombination. On symmetry sides the normal flux is zero.
+    for (const unsigned f : cell->face_indices())
+      {
+        if (!cell->face(f)->at_boundary())
+          continue;
+        const auto           bid     = cell->face(f)->boundary_id();
+        const ScaledContact *contact = nullptr;
+        const ScaledSurface *surface = nullptr;
+        if (bid == ids::electron_contact)
+          contact = &device.electron_contact;
+        else if (bid == ids::hole_contact)
+          contact = &device.hole_contact;
+        else if (bid == ids::top_surface)
+          surface = &device.top_surface;
+        else if (bid == ids::gap_interface)
+          surface = &device.gap_interface;
+        if (contact && (contact->ohmic || !with_contacts))
+          continue;
+        if (surface && surface->S_n == 0 && surface->S_p == 0)
+          continue;
+        if (!contact && !surface)
+          continue;
+        ffv.reinit(cell, f);
+        // Equilibrium densities at the contact: n, p with psi at its
+        // contact value and the quasi-Fermi levels at the contact's.
+        double n0 = 0, p0 = 0;
+        if (contact)
           {
-            if (!cell->face(f)->at_boundary())
-              continue;
-            const auto bid = cell->face(f)->boundary_id();
-            const ScaledContact *contact = nullptr;
-            const ScaledSurface *surface = nullptr;
-            if (bid == ids::electron_contact)
-              contact = &device.electron_contact;
-            else if (bid == ids::hole_contact)
-              contact = &device.hole_contact;
-            else if (bid == ids::top_surface)
-              surface = &device.top_surface;
-            else if (bid == ids::gap_interface)
-              surface = &device.gap_interface;
-            if (contact && (contact->ohmic || !with_contacts))
-              continue;
-            if (surface && surface->S_n == 0 && surface->S_p == 0)
-              continue;
-            if (!contact && !surface)
-              continue;
-            ffv.reinit(cell, f);
-            // Equilibrium densities at the contact: n, p with psi at its
-            // contact value and the quasi-Fermi levels at the contact's.
-            double n0 = 0, p0 = 0;
+            n0 = std::exp(contact->psi_offset + r.a_n);
+            p0 = std::exp(-contact->psi_offset + r.a_p);
+          }
+        const SurfaceRecombination srec =
+          surface ? SurfaceRecombination(surface->S_n, surface->S_p,
+                                         std::exp(r.ln_nc - r.half_gap + surface->trap_level),
+                                         std::exp(r.ln_nv - r.half_gap - surface->trap_level),
+                                         r.ni2)
+                  : SurfaceRecombination(0, 0, 0, 0, 0);
+        for (unsigned q = 0; q < face_quad.size(); ++q)
+          {
+            double v[3] = {0, 0, 0};
+            for (unsigned i = 0; i < dpc; ++i)
+              v[comp[i]] += u[idx[i]] * ffv.shape_value(i, q);
+            const double n  = std::exp(v[c_psi] - v[c_phin] + r.a_n);
+            const double p  = std::exp(v[c_phip] - v[c_psi] + r.a_p);
+            const double ds = ffv.JxW(q);
+            // Electron and hole particle fluxes out of the absorber and
+            // their derivatives with respect to (psi, phi_n, phi_p).
+            double fn, fp, dfn[3], dfp[3];
             if (contact)
               {
-                n0 = std::exp(contact->psi_offset + r.a_n);
-                p0 = std::exp(-contact->psi_offset + r.a_p);
+                fn     = contact->S_n * (n - n0);
+                fp     = contact->S_p * (p - p0);
+                dfn[0] = contact->S_n * n, dfn[1] = -contact->S_n * n, dfn[2] = 0;
+                dfp[0] = -contact->S_p * p, dfp[1] = 0, dfp[2] = contact->S_p * p;
               }
-            const SurfaceRecombination srec =
-              surface ? SurfaceRecombination(surface->S_n, surface->S_p,
-                                             std::exp(r.ln_nc - r.half_gap + surface->trap_level),
-                                             std::exp(r.ln_nv - r.half_gap - surface->trap_level),
-                                             r.ni2)
-                      : SurfaceRecombination(0, 0, 0, 0, 0);
-            for (unsigned q = 0; q < face_quad.size(); ++q)
-              {
-                double v[3] = {0, 0, 0};
-                for (unsigned i = 0; i < dpc; ++i)
-                  v[comp[i]] += u[idx[i]] * ffv.shape_value(i, q);
-                const double n  = std::exp(v[c_psi] - v[c_phin] + r.a_n);
-                const double p  = std::exp(v[c_phip] - v[c_psi] + r.a_p);
-                const double ds = ffv.JxW(q);
-                // Electron and hole particle fluxes out of the absorber and
-                // their derivatives with respect to (psi, phi_n, phi_p).
-                double fn, fp, dfn[3], dfp[3];
-                if (contact)
-                  {
-                    fn = contact->S_n * (n - n0);
-                    fp = contact->S_p * (p - p0);
-                    dfn[0] = contact->S_n * n, dfn[1] = -contact->S_n * n, dfn[2] = 0;
-                    dfp[0] = -contact->S_p * p, dfp[1] = 0, dfp[2] = contact->S_p * p;
-                  }
-                else
-                  {
-                    const Rate k = srec.rate(n, p);
-                    fn = fp = k.R;
-                    dfn[0] = dfp[0] = k.dR_dn * n - k.dR_dp * p;
-                    dfn[1] = dfp[1] = -k.dR_dn * n;
-                    dfn[2] = dfp[2] = k.dR_dp * p;
-                  }
-                for (unsigned i = 0; i < dpc; ++i)
-                  {
-                    const double vi = ffv.shape_value(i, q);
-                    if (comp[i] == c_psi || vi == 0)
-                      continue;
-                    const double sign = comp[i] == c_phin ? -1.0 : 1.0;
-                    const double flux = comp[i] == c_phin ? fn : fp;
-                    const double *dflux = comp[i] == c_phin ? dfn : dfp;
-                    F(i) += sign * flux * vi * ds;
-                    if (matrix)
-                      for (unsigned j = 0; j < dpc; ++j)
-                        A(i, j) += sign * dflux[comp[j]] * ffv.shape_value(j, q) * vi * ds;
-                  }
-              }
-          }
-
-        if (apply_constraints)
-          {
-            if (matrix)
-              zero_constraints.distribute_local_to_global(A, F, idx, *matrix, residual);
             else
-              zero_constraints.distribute_local_to_global(F, idx, residual);
+              {
+                const Rate k = srec.rate(n, p);
+                fn = fp = k.R;
+                dfn[0] = dfp[0] = k.dR_dn * n - k.dR_dp * p;
+                dfn[1] = dfp[1] = -k.dR_dn * n;
+                dfn[2] = dfp[2] = k.dR_dp * p;
+              }
+            for (unsigned i = 0; i < dpc; ++i)
+              {
+                const double vi = ffv.shape_value(i, q);
+                if (comp[i] == c_psi || vi == 0)
+                  continue;
+                const double  sign  = comp[i] == c_phin ? -1.0 : 1.0;
+                const double  flux  = comp[i] == c_phin ? fn : fp;
+                const double *dflux = comp[i] == c_phin ? dfn : dfp;
+                F(i) += sign * flux * vi * ds;
+                if (Aptr)
+                  for (unsigned j = 0; j < dpc; ++j)
+                    (*Aptr)(i, j) += sign * dflux[comp[j]] * ffv.shape_value(j, q) * vi * ds;
+              }
           }
-        else
-          for (unsigned i = 0; i < dpc; ++i)
-            residual[idx[i]] += F(i);
+      }
+  }
+
+  void
+  DriftDiffusionSolver::assemble_system(const Vector<double> &u, const double light,
+                                        const bool scale_rows) const
+  {
+    const unsigned     dpc = fe.n_dofs_per_cell();
+    FullMatrix<double> A(dpc, dpc);
+    Vector<double>     F(dpc);
+    std::vector<types::global_dof_index> idx(dpc);
+    jacobian = 0;
+    rhs      = 0;
+    for (const auto &cell : dofs.active_cell_iterators())
+      {
+        if (!cell->is_locally_owned())
+          continue;
+        assemble_cell(cell, u, light, &A, F, true);
+        cell->get_dof_indices(idx);
+        zero_constraints.distribute_local_to_global(A, F, idx, jacobian, rhs);
+      }
+    jacobian.compress(VectorOperation::add);
+    rhs.compress(VectorOperation::add);
+    if (!scale_rows)
+      return;
+
+    // Row scaling: the continuity rows carry the carrier densities and span
+    // many orders of magnitude; equilibrate each row by its largest entry
+    // before the direct solve.
+    Vec scale;
+    check(VecDuplicate(static_cast<const Vec &>(rhs), &scale), "VecDuplicate");
+    check(MatGetRowMaxAbs(static_cast<Mat>(jacobian), scale, nullptr), "MatGetRowMaxAbs");
+    PetscInt lo, hi;
+    check(VecGetOwnershipRange(scale, &lo, &hi), "VecGetOwnershipRange");
+    PetscScalar *s;
+    check(VecGetArray(scale, &s), "VecGetArray");
+    for (PetscInt i = 0; i < hi - lo; ++i)
+      s[i] = (s[i] > 0 && std::isfinite(s[i])) ? 1.0 / s[i] : 1.0;
+    check(VecRestoreArray(scale, &s), "VecRestoreArray");
+    check(MatDiagonalScale(static_cast<Mat>(jacobian), scale, nullptr), "MatDiagonalScale");
+    check(VecPointwiseMult(static_cast<const Vec &>(rhs), scale, static_cast<const Vec &>(rhs)),
+          "VecPointwiseMult");
+    check(VecDestroy(&scale), "VecDestroy");
+  }
+
+  void
+  DriftDiffusionSolver::assemble_residual(const Vector<double> &u, const double light,
+                                          Vector<double> &r) const
+  {
+    const unsigned dpc = fe.n_dofs_per_cell();
+    Vector<double> F(dpc);
+    std::vector<types::global_dof_index> idx(dpc);
+    r.reinit(dofs.n_dofs());
+    for (const auto &cell : dofs.active_cell_iterators())
+      {
+        if (!cell->is_locally_owned())
+          continue;
+        assemble_cell(cell, u, light, nullptr, F, false);
+        cell->get_dof_indices(idx);
+        for (unsigned i = 0; i < dpc; ++i)
+          r[idx[i]] += F(i);
       }
   }
 
   NewtonReport
   DriftDiffusionSolver::newton(Vector<double> &u, const double light) const
   {
-    const auto     start = std::chrono::steady_clock::now();
-    NewtonReport   report;
-    Vector<double> residual(dofs.n_dofs()), delta(dofs.n_dofs());
-    SparseDirectUMFPACK direct;
+    const auto   start = std::chrono::steady_clock::now();
+    NewtonReport report;
+    PETScWrappers::MPI::Vector delta_p(owned, comm);
     for (unsigned it = 0; it < numerics.max_iterations; ++it)
       {
-        assemble(u, light, &jacobian, residual, true, true);
-        // Row scaling: the continuity rows carry the carrier densities and
-        // span many orders of magnitude; equilibrate each row by its
-        // largest entry before the direct solve.
-        for (unsigned i = 0; i < jacobian.m(); ++i)
-          {
-            double m = 0;
-            for (auto e = jacobian.begin(i); e != jacobian.end(i); ++e)
-              m = std::max(m, std::abs(e->value()));
-            if (m > 0 && std::isfinite(m))
-              {
-                for (auto e = jacobian.begin(i); e != jacobian.end(i); ++e)
-                  e->value() /= m;
-                residual[i] /= m;
-              }
-          }
-        direct.initialize(jacobian);
-        direct.vmult(delta, residual);
+        assemble_system(u, light);
+        const bool ok = lu_solve(static_cast<Mat>(jacobian), static_cast<const Vec &>(rhs),
+                                 static_cast<const Vec &>(delta_p), false, comm);
+        // The update, complete on every process.
+        Vector<double> delta(delta_p);
         zero_constraints.distribute(delta);
 
-        double       worst = 0;
-        unsigned     where = 0;
-        bool         finite = true;
+        double   worst  = 0;
+        unsigned where  = 0;
+        bool     finite = ok;
         for (unsigned i = 0; i < delta.size(); ++i)
           {
             if (!std::isfinite(delta[i]))
@@ -379,23 +489,38 @@ namespace backcomb::fem
               worst = std::abs(delta[i]), where = i;
           }
         report.iterations = it + 1;
-        report.update_history.push_back(worst);
+        report.update_history.push_back(finite ? worst : std::numeric_limits<double>::infinity());
         if (!finite)
           break;
+        report.worst_x = support_points[where][0];
+        report.worst_y = support_points[where][1];
         // Limit each potential's change to a few kT/q (update limiting).
         for (unsigned i = 0; i < delta.size(); ++i)
           u[i] -= std::clamp(delta[i], -numerics.max_update, numerics.max_update);
-        report.worst_x = support_points[where][0];
-        report.worst_y = support_points[where][1];
         if (worst < numerics.tolerance)
           {
             report.converged = true;
             break;
           }
       }
-    report.seconds =
-      std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+    report.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     return report;
+  }
+
+  void
+  DriftDiffusionSolver::solve_transposed(const Vector<double> &b, Vector<double> &z) const
+  {
+    // Unscaled Jacobian: MUMPS scales internally, and the transpose of a
+    // row-scaled matrix would need the scaling undone afterwards.
+    assemble_system(solution, light_factor, false);
+    PETScWrappers::MPI::Vector b_p(owned, comm), y_p(owned, comm);
+    for (const auto i : owned)
+      b_p[i] = b[i];
+    b_p.compress(VectorOperation::insert);
+    if (!lu_solve(static_cast<Mat>(jacobian), static_cast<const Vec &>(b_p),
+                  static_cast<const Vec &>(y_p), true, comm))
+      throw std::runtime_error("the transposed Jacobian could not be factorised");
+    z = Vector<double>(y_p);
   }
 
   NewtonReport
@@ -458,17 +583,17 @@ namespace backcomb::fem
     // contact terms, summed over the contact's nodes, is minus the current
     // through the contact.
     Vector<double> r;
-    assemble(solution, light_factor, nullptr, r, false, false);
+    assemble_residual(solution, light_factor, r);
     auto sum = [&](const std::vector<types::global_dof_index> &d) {
       double s = 0;
       for (const auto i : d)
         s += r[i];
-      return s;
+      return Utilities::MPI::sum(s, comm);
     };
-    const double J0 = device.scaling.J0 / width;
+    const double    J0 = device.scaling.J0 / width;
     TerminalCurrent t;
-    t.electron               = -sum(hole_contact_dofs[c_phin]) * J0;
-    t.hole                   = -sum(hole_contact_dofs[c_phip]) * J0;
+    t.electron                  = -sum(hole_contact_dofs[c_phin]) * J0;
+    t.hole                      = -sum(hole_contact_dofs[c_phip]) * J0;
     t.electron_contact_electron = sum(electron_contact_dofs[c_phin]) * J0;
     t.electron_contact_hole     = sum(electron_contact_dofs[c_phip]) * J0;
     return t;
@@ -482,10 +607,12 @@ namespace backcomb::fem
     double          total = 0;
     for (const auto &cell : dofs.active_cell_iterators())
       {
+        if (!cell->is_locally_owned())
+          continue;
         fv.reinit(cell);
         for (unsigned q = 0; q < quad.size(); ++q)
           total += light_factor * generation_qp[cell->active_cell_index() * quad.size() + q] * fv.JxW(q);
       }
-    return total * device.scaling.J0 / width;
+    return Utilities::MPI::sum(total, comm) * device.scaling.J0 / width;
   }
 } // namespace backcomb::fem

@@ -1,6 +1,10 @@
 // Steady-state drift-diffusion-Poisson (van Roosbroeck) solver on the period
 // or strip mesh, in the quasi-Fermi-potential formulation (psi, phi_n, phi_p)
 // with Q1 elements, Newton's method with update limiting and row scaling.
+// Linear algebra: PETSc (through deal.II's wrappers) with the MUMPS direct
+// solver. On a parallel::shared::Triangulation every process assembles its
+// own cells and MUMPS factorises the distributed Jacobian; the nodal state
+// itself is small and kept complete on every process.
 // Densities n = exp(psi - phi_n + a_n), p = exp(phi_p - psi + a_p) are
 // positive by construction over any number of orders of magnitude.
 #pragma once
@@ -10,10 +14,14 @@
 #include <deal.II/dofs/dof_handler.h>
 #include <deal.II/fe/fe_system.h>
 #include <deal.II/grid/tria.h>
+#include <deal.II/base/index_set.h>
 #include <deal.II/lac/affine_constraints.h>
-#include <deal.II/lac/sparse_matrix.h>
-#include <deal.II/lac/sparsity_pattern.h>
+#include <deal.II/lac/full_matrix.h>
+#include <deal.II/lac/petsc_sparse_matrix.h>
+#include <deal.II/lac/petsc_vector.h>
 #include <deal.II/lac/vector.h>
+
+#include <mpi.h>
 
 #include <string>
 #include <vector>
@@ -48,6 +56,8 @@ namespace backcomb::fem
   class DriftDiffusionSolver
   {
   public:
+    // The processes taking part are those of `tria` if it is a parallel
+    // triangulation, otherwise only the calling process.
     DriftDiffusionSolver(const dealii::Triangulation<2> &tria,
                          const DeviceModel &device,
                          const NumericsParameters &numerics);
@@ -83,29 +93,48 @@ namespace backcomb::fem
 
     unsigned n_dofs() const { return dofs.n_dofs(); }
 
+    // Solves J^T z = b with the Jacobian of the current state (for the
+    // adjoint collection probability). `b` and `z` are complete vectors.
+    void solve_transposed(const dealii::Vector<double> &b, dealii::Vector<double> &z) const;
+
+    MPI_Comm communicator() const { return comm; }
+
   private:
     void setup_system();
     void precompute_generation();
     void set_boundary_values(dealii::Vector<double> &u, double voltage) const;
-    // Assembles the Jacobian (if matrix) and residual. Contact flux terms
-    // are left out when `with_contacts` is false (terminal currents).
-    void assemble(const dealii::Vector<double> &u,
-                  double light,
-                  dealii::SparseMatrix<double> *matrix,
-                  dealii::Vector<double> &residual,
-                  bool with_contacts,
-                  bool apply_constraints) const;
+    // Local Jacobian (if A) and residual of one cell, including its
+    // boundary faces. Contact flux terms are left out when `with_contacts`
+    // is false (terminal currents).
+    template <typename CellIterator>
+    void assemble_cell(const CellIterator &cell,
+                       const dealii::Vector<double> &u,
+                       double light,
+                       dealii::FullMatrix<double> *A,
+                       dealii::Vector<double> &F,
+                       bool with_contacts) const;
+    // Jacobian and residual of the locally owned cells, with the Dirichlet
+    // rows of the Newton update, row-equilibrated.
+    void assemble_system(const dealii::Vector<double> &u, double light, bool scale_rows = true) const;
+    // Residual without contact terms and constraints (complete vector; each
+    // process holds the contributions of its own cells).
+    void assemble_residual(const dealii::Vector<double> &u, double light,
+                           dealii::Vector<double> &r) const;
     NewtonReport newton(dealii::Vector<double> &u, double light) const;
+    // All DoFs of component c on boundary b, on every process.
+    std::vector<dealii::types::global_dof_index> boundary_dofs(unsigned b, unsigned c) const;
 
     const dealii::Triangulation<2> &tria;
     const DeviceModel               &device;
     NumericsParameters               numerics;
+    MPI_Comm                         comm;
 
     dealii::FESystem<2>              fe;
     dealii::DoFHandler<2>            dofs;
+    dealii::IndexSet                 owned, relevant;
     dealii::AffineConstraints<double> zero_constraints; // Dirichlet DoFs of the update
-    dealii::SparsityPattern          sparsity;
-    mutable dealii::SparseMatrix<double> jacobian;
+    mutable dealii::PETScWrappers::MPI::SparseMatrix jacobian;
+    mutable dealii::PETScWrappers::MPI::Vector       rhs;
     dealii::Vector<double>           solution;
     std::vector<double>              generation_qp; // scaled, per cell and quadrature point
     std::vector<dealii::types::global_dof_index> hole_contact_dofs[3], electron_contact_dofs[3];

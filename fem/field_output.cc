@@ -3,6 +3,7 @@
 // recombination, in interface units (names carry the unit).
 #include "fem/drift_diffusion.h"
 
+#include <deal.II/base/mpi.h>
 #include <deal.II/numerics/data_out.h>
 #include <deal.II/numerics/data_postprocessor.h>
 
@@ -100,18 +101,22 @@ namespace backcomb::fem
       region[cell->active_cell_index()] = cell->material_id();
     out.add_data_vector(region, "region_id");
     out.build_patches();
-    // Atomic: write a temporary file next to the target, then rename.
+    // Atomic: all processes write one temporary file next to the target
+    // (MPI I/O), then the first renames it.
     const std::string tmp = vtu_file + ".tmp";
-    {
-      std::ofstream f(tmp);
-      out.write_vtu(f);
-      f.flush();
-      if (!f)
-        {
+    try
+      {
+        out.write_vtu_in_parallel(tmp, comm);
+      }
+    catch (const std::exception &)
+      {
+        if (Utilities::MPI::this_mpi_process(comm) == 0)
           std::filesystem::remove(tmp);
-          throw std::runtime_error("cannot write " + vtu_file);
-        }
-    }
-    std::filesystem::rename(tmp, vtu_file);
+        throw std::runtime_error("cannot write " + vtu_file);
+      }
+    MPI_Barrier(comm);
+    if (Utilities::MPI::this_mpi_process(comm) == 0)
+      std::filesystem::rename(tmp, vtu_file);
+    MPI_Barrier(comm);
   }
 } // namespace backcomb::fem

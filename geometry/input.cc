@@ -1,6 +1,8 @@
 #include "input.h"
 
+#include <cerrno>
 #include <cmath>
+#include <cstdlib>
 #include <sstream>
 
 namespace backcomb
@@ -28,17 +30,20 @@ namespace backcomb
     {
       const std::string text = prm.get(name);
       const std::string path = section.empty() ? name : section + "/" + name;
-      std::istringstream in(text);
-      double v = 0;
-      in >> v;
-      std::string rest;
-      in >> rest;
-      if (in.fail() && !in.eof())
+      // strtod consumes the whole text (surrounding blanks allowed) and
+      // reports overflow, which stream extraction hides.
+      const char *begin = text.c_str();
+      char       *end   = nullptr;
+      errno             = 0;
+      const double v    = std::strtod(begin, &end);
+      if (end == begin)
         throw InputError(path, text, "not a number");
-      if (!rest.empty() || text.find_first_not_of(" \t") == std::string::npos)
-        throw InputError(path, text, "not a number");
-      if (!std::isfinite(v))
-        throw InputError(path, text, "must be a finite number");
+      while (*end == ' ' || *end == '\t')
+        ++end;
+      if (*end != '\0')
+        throw InputError(path, text, "not a number (unexpected text after the number)");
+      if (!std::isfinite(v) || errno == ERANGE)
+        throw InputError(path, text, "must be a finite number of normal size");
       return v;
     }
   } // namespace
@@ -94,5 +99,21 @@ namespace backcomb
                       default_value,
                       dealii::Patterns::Anything(),
                       documentation);
+  }
+} // namespace backcomb
+
+namespace backcomb
+{
+  unsigned
+  get_whole_number(const dealii::ParameterHandler &prm,
+                   const std::string &section,
+                   const std::string &name,
+                   const unsigned lo,
+                   const unsigned hi)
+  {
+    const double v = get_in_range(prm, section, name, lo, hi);
+    if (v != std::floor(v))
+      throw InputError(section + "/" + name, prm.get(name), "must be a whole number");
+    return static_cast<unsigned>(v);
   }
 } // namespace backcomb

@@ -63,6 +63,14 @@ namespace backcomb
                double lo,
                double hi);
 
+  // A whole number in [lo, hi].
+  unsigned
+  get_whole_number(const dealii::ParameterHandler &prm,
+                   const std::string &section,
+                   const std::string &name,
+                   unsigned lo,
+                   unsigned hi);
+
   // Declares a double entry with a documentation string that states unit
   // and range; the pattern admits any finite number so that the semantic
   // checks above produce the error (with the entry's name and value).

@@ -2,7 +2,9 @@
 
 #include "geometry/input.h"
 
+#include <cmath>
 #include <filesystem>
+#include <iomanip>
 #include <fstream>
 #include <set>
 #include <sstream>
@@ -99,6 +101,67 @@ namespace backcomb::postprocess
         }
       return 0;
     }
+    // Checks that need entries of several sections.
+    void
+    check_consistency(const Case &c, dealii::ParameterHandler &prm)
+    {
+      // Surface traps lie inside the absorber's gap.
+      for (const auto &[name, surface] :
+           {std::pair<std::string, const fem::SurfaceParameters *>{"Top surface", &c.top_surface},
+            {"Gap interface", &c.gap_interface}})
+        if (!(std::abs(surface->trap_level) < 0.5 * c.absorber.band_gap))
+          {
+            prm.enter_subsection(name);
+            const std::string v = prm.get("Trap level");
+            prm.leave_subsection();
+            throw InputError(name + "/Trap level", v,
+                             "must lie inside the absorber's gap: |level| < Absorber/Band gap / 2 = " +
+                               std::to_string(0.5 * c.absorber.band_gap) + " eV");
+          }
+      // The intrinsic density must stay representable: n_i^2 =
+      // Nc Nv exp(-Eg/kT) underflows for wide gaps at low temperature.
+      const double kT = fem::thermal_voltage(c.device.temperature);
+      for (const auto &[name, m] : {std::pair<std::string, const fem::Material *>{"Absorber", &c.absorber},
+                                    {"Electron interlayer", &c.electron_interlayer},
+                                    {"Hole interlayer", &c.hole_interlayer}})
+        {
+          const double ln_ni2 = std::log(m->Nc * m->Nv) - m->band_gap / kT;
+          if (ln_ni2 < -600)
+            throw InputError("Device/Temperature", std::to_string(c.device.temperature) + " K",
+                             "too low for " + name + "/Band gap = " + std::to_string(m->band_gap) +
+                               " eV: E_g/kT = " + std::to_string(m->band_gap / kT) +
+                               " makes the intrinsic density underflow");
+        }
+      // Refuse meshes too large for memory before anything is allocated.
+      // Estimate: the uniform parts plus the graded parts at each refined
+      // line (about 4 kB of memory per cell with the direct solver: a
+      // measured order of magnitude, not a bound).
+      const auto  &g = c.geometry;
+      const auto  &m = c.mesh;
+      const bool   strip  = g.layout == geometry::GeometryParameters::Layout::test_strip;
+      const double width  = strip ? g.strip_length_um : g.width_um();
+      const double graded = std::log(std::max(2.0, 1000 * m.largest_lateral_cell_um / m.smallest_cell_nm)) /
+                            std::log(m.growth_ratio) + 1;
+      const double nx = width / m.largest_lateral_cell_um + 6 * graded;
+      const double graded_y = std::log(std::max(2.0, m.largest_vertical_cell_nm / m.smallest_cell_nm)) /
+                              std::log(m.growth_ratio) + 1;
+      const double ny    = 1000 * g.absorber_thickness_um / m.largest_vertical_cell_nm + 3 * graded_y;
+      const double cells = nx * ny;
+      constexpr double limit = 1e6;
+      if (cells > limit)
+        {
+          std::ostringstream r;
+          r << "the mesh would have about " << std::setprecision(3) << cells << " cells (~"
+            << cells * 4e3 / 1e9 << " GB); the limit is " << limit
+            << " cells: use fewer cells (larger Mesh/Largest lateral cell or Largest vertical cell) "
+               "or a smaller geometry";
+          const std::string entry = strip ? "Strip length" : "Gap";
+          prm.enter_subsection("Geometry");
+          const std::string text = prm.get(entry);
+          prm.leave_subsection();
+          throw InputError("Geometry/" + entry, text, r.str());
+        }
+    }
   } // namespace
 
   void
@@ -117,7 +180,7 @@ namespace backcomb::postprocess
     fem::NumericsParameters::declare_parameters(prm);
 
     prm.enter_subsection("Device");
-    declare_number(prm, "Temperature", "300", "Device temperature in K, 1..1000.");
+    declare_number(prm, "Temperature", "300", "Device temperature in K, 100..1000.");
     prm.declare_entry("Active area", "gap", dealii::Patterns::Selection("gap|period"),
                       "Width counted as active for the per-active-area metrics: the gap "
                       "between the fingers, or the whole period (= footprint).");
@@ -177,6 +240,9 @@ namespace backcomb::postprocess
     c.file      = file;
     c.overrides = overrides;
     {
+      std::error_code ec;
+      if (!std::filesystem::is_regular_file(file, ec))
+        throw InputError(file + ": not a readable case file (missing, or not a regular file)");
       std::ifstream in(file);
       if (!in)
         throw InputError(file + ": cannot open the case file for reading");
@@ -188,7 +254,8 @@ namespace backcomb::postprocess
     declare_case(prm);
     try
       {
-        prm.parse_input_from_string(c.echo, file);
+        std::istringstream in(c.echo);
+        prm.parse_input(in, file);
       }
     catch (const dealii::ExceptionBase &e)
       {
@@ -249,7 +316,7 @@ namespace backcomb::postprocess
         c.numerics.parse_parameters(prm);
 
         prm.enter_subsection("Device");
-        c.device.temperature = get_in_range(prm, "Device", "Temperature", 1, 1000);
+        c.device.temperature = get_in_range(prm, "Device", "Temperature", 100, 1000);
         c.device.active_area = prm.get("Active area") == "period" ? DeviceSettings::ActiveArea::period
                                                                    : DeviceSettings::ActiveArea::gap;
         prm.leave_subsection();
@@ -282,8 +349,7 @@ namespace backcomb::postprocess
         prm.leave_subsection();
 
         // Contradictions between sections.
-        const double film_nm = c.geometry.absorber_thickness_um * 1e3;
-        (void)film_nm; // interlayer vs film is checked by GeometryParameters
+        check_consistency(c, prm);
       }
     catch (const InputError &e)
       {

@@ -4,6 +4,7 @@
 #include <filesystem>
 #include <fstream>
 #include <system_error>
+#include <unistd.h>
 
 namespace backcomb::postprocess
 {
@@ -20,7 +21,12 @@ namespace backcomb::postprocess
   void
   write_file_atomically(const std::string &path, const std::string &text)
   {
-    const std::string tmp = path + ".tmp";
+    // Host name and process id keep two processes that write the same file
+    // at once (array tasks writing a sweep plan, possibly on different
+    // nodes of a shared file system) from sharing a temporary file.
+    char host[64] = "";
+    ::gethostname(host, sizeof host - 1);
+    const std::string tmp = path + ".tmp." + host + "." + std::to_string(::getpid());
     {
       std::ofstream f(tmp, std::ios::binary | std::ios::trunc);
       if (!f)

@@ -7,6 +7,8 @@
 #include "geometry/period_mesh.h"
 
 #include <deal.II/base/config.h>
+#include <deal.II/base/mpi.h>
+#include <deal.II/distributed/shared_tria.h>
 #include <deal.II/grid/tria.h>
 
 #include <gmsh.h>
@@ -54,6 +56,49 @@ namespace backcomb::postprocess
                   "worst aspect ratio %.0f\n",
                   s.n_cells, s.min_size_um, s.max_size_um, s.min_x_size_um, s.min_y_size_um,
                   s.worst_aspect_ratio);
+    }
+
+    // Rank 0 writes the mesh file, then every process reads it. An error
+    // on rank 0 is passed on to all processes so that none waits forever.
+    void
+    build_shared_mesh(const Case &c, const std::string &msh, dealii::Triangulation<2> &tria, MPI_Comm comm)
+    {
+      std::string error;
+      bool        input_error = false;
+      if (dealii::Utilities::MPI::this_mpi_process(comm) == 0)
+        try
+          {
+            geometry::write_period_msh(c.geometry, c.mesh, msh);
+          }
+        catch (const InputError &e)
+          {
+            error       = e.what();
+            input_error = true;
+          }
+        catch (const std::exception &e)
+          {
+            error = e.what();
+          }
+      error       = dealii::Utilities::MPI::broadcast(comm, error, 0);
+      input_error = dealii::Utilities::MPI::broadcast(comm, input_error, 0);
+      if (!error.empty())
+        {
+          if (input_error)
+            throw InputError(error);
+          throw OutputError(error);
+        }
+      try
+        {
+          geometry::read_triangulation(msh, tria);
+        }
+      catch (const InputError &)
+        {
+          throw;
+        }
+      catch (const std::exception &e)
+        {
+          throw OutputError(e.what());
+        }
     }
 
     // Progress on a terminal; nothing in batch logs or with --quiet.
@@ -371,7 +416,7 @@ namespace backcomb::postprocess
   run_solve(const Case &c, const RunOptions &o)
   {
     const auto     t_start = std::chrono::steady_clock::now();
-    const Progress progress(o.quiet);
+    const Progress progress(o.quiet || dealii::Utilities::MPI::this_mpi_process(o.communicator) != 0);
     json           summary;
     summary["backcomb_version"] = BACKCOMB_VERSION;
     summary["software"] = {{"deal.II", DEAL_II_PACKAGE_VERSION},
@@ -391,25 +436,15 @@ namespace backcomb::postprocess
     layout.hole_finger_half_width_um     = 0.5 * c.geometry.hole_finger_width_um;
     const fem::Generation generation(c.illumination, c.absorber.band_gap, film_um, layout);
 
+    const bool root = dealii::Utilities::MPI::this_mpi_process(o.communicator) == 0;
     make_folder(o.folder);
     const auto t_mesh = std::chrono::steady_clock::now();
-    dealii::Triangulation<2> tria;
-    try
-      {
-        geometry::build_triangulation(c.geometry, c.mesh, tria, o.folder + "/mesh.msh");
-      }
-    catch (const InputError &)
-      {
-        throw;
-      }
-    catch (const std::exception &e)
-      {
-        throw OutputError(e.what());
-      }
+    dealii::parallel::shared::Triangulation<2> tria(o.communicator);
+    build_shared_mesh(c, o.folder + "/mesh.msh", tria, o.communicator);
     const auto stats   = geometry::mesh_statistics(tria);
     summary["mesh"]    = statistics_json(stats);
     const double t_m   = seconds_since(t_mesh);
-    if (!o.quiet)
+    if (!o.quiet && root)
       print_statistics(stats);
 
     const fem::DeviceModel device(
@@ -473,7 +508,8 @@ namespace backcomb::postprocess
                 fields.push_back({{"bias_V", v}, {"file", name}});
               }
         pvd << "</Collection>\n</VTKFile>\n";
-        write_file_atomically(o.folder + "/fields.pvd", pvd.str());
+        if (root)
+          write_file_atomically(o.folder + "/fields.pvd", pvd.str());
       }
 
     // Dark J-V over the same biases.
@@ -531,6 +567,10 @@ namespace backcomb::postprocess
     csv << "voltage_V,J_light_mA_per_cm2,J_dark_mA_per_cm2\n";
     for (const auto &[k, r] : rows)
       csv << number(k * 1e-7) << ',' << r.first << ',' << r.second << '\n';
+    summary["processes"] = dealii::Utilities::MPI::n_mpi_processes(o.communicator);
+    const int code = status == "failed" ? exit_no_convergence : exit_ok;
+    if (!root)
+      return code;
     write_file_atomically(o.folder + "/jv.csv", csv.str());
     write_file_atomically(o.folder + "/summary.json", summary.dump(2) + "\n");
 
@@ -546,6 +586,6 @@ namespace backcomb::postprocess
       std::fprintf(stderr, "backcomb: %s\n", f.get<std::string>().c_str());
     std::printf("status %s; wrote %s/jv.csv, %s/summary.json%s\n", status.c_str(), o.folder.c_str(),
                 o.folder.c_str(), fields.empty() ? "" : " and fields.pvd");
-    return status == "failed" ? exit_no_convergence : exit_ok;
+    return code;
   }
 } // namespace backcomb::postprocess

@@ -5,6 +5,8 @@
 #include "postprocess/case_file.h"
 #include "postprocess/output.h"
 
+#include <mpi.h>
+
 #include <string>
 
 namespace backcomb::postprocess
@@ -13,6 +15,9 @@ namespace backcomb::postprocess
   {
     std::string folder;
     bool        quiet = false;
+    // Processes that solve this one case together (a sweep passes
+    // MPI_COMM_SELF so that each rank runs its own cases).
+    MPI_Comm    communicator = MPI_COMM_WORLD;
   };
 
   // Both return a process exit code (see geometry/input.h) and throw

@@ -1,0 +1,293 @@
+#include "postprocess/sweep_plot.h"
+
+#include <plplot/plstream.h>
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <fstream>
+#include <limits>
+#include <memory>
+#include <unistd.h>
+
+namespace backcomb::postprocess
+{
+  namespace
+  {
+    constexpr double nan = std::numeric_limits<double>::quiet_NaN();
+
+    // Colour map 0 slots: 0 background, 1 axes and text, 2 grid, 3 the
+    // shaded near-best range, 4 the best-point marker, 5... the lines.
+    constexpr int colour_grid = 2, colour_band = 3, colour_best = 4, first_line_colour = 5;
+    // A palette that stays distinguishable in print and for the common
+    // colour-vision deficiencies.
+    constexpr int palette[][3] = {{0, 114, 178},  {213, 94, 0},   {0, 158, 115}, {204, 121, 167},
+                                  {86, 180, 233}, {230, 159, 0},  {0, 0, 0},     {120, 120, 120}};
+    constexpr int n_palette = sizeof(palette) / sizeof(palette[0]);
+
+    // Markers are drawn as text glyphs, which the Cairo drivers render with
+    // the system fonts in both SVG and PNG.
+    const char *const point_glyph = "●";
+    const char *const best_glyph  = "★";
+
+    // PLplot interprets '#' as its escape character in text.
+    std::string
+    escaped(const std::string &text)
+    {
+      std::string out;
+      for (const char c : text)
+        out += c == '#' ? std::string("##") : std::string(1, c);
+      return out;
+    }
+
+    bool
+    device_available(const std::string &name)
+    {
+      // plgDevs fills arrays that the caller provides, up to n entries.
+      std::vector<const char *> menu_array(256, nullptr), name_array(256, nullptr);
+      const char **menu = menu_array.data(), **names = name_array.data();
+      int          n    = int(name_array.size());
+      plgDevs(&menu, &names, &n);
+      for (int i = 0; i < n; ++i)
+        if (names[i] && name == names[i])
+          return true;
+      return false;
+    }
+
+    // Axis range of finite values, padded by `pad` of the span on both
+    // sides; a single value gets a span of its own size (or 1).
+    std::pair<double, double>
+    padded_range(const std::vector<double> &v, double pad)
+    {
+      double lo = std::numeric_limits<double>::infinity(), hi = -lo;
+      for (const double x : v)
+        if (std::isfinite(x))
+          lo = std::min(lo, x), hi = std::max(hi, x);
+      if (!(lo <= hi))
+        return {0, 1};
+      double span = hi - lo;
+      if (span <= 1e-12 * std::max(std::abs(lo), std::abs(hi)))
+        span = lo != 0 ? std::abs(lo) : 1;
+      return {lo - pad * span, hi + pad * span};
+    }
+
+    struct Axes
+    {
+      bool   log_x;
+      double x_lo, x_hi;
+    };
+
+    double
+    to_axis(const Axes &a, double x)
+    {
+      return a.log_x ? std::log10(x) : x;
+    }
+
+    // One panel: frame, grid, optional shaded range and best marker, then
+    // one line with markers per series (broken where a case has no value).
+    void
+    draw_panel(plstream &pls, const SweepPlotData &d, const Axes &axes,
+               const std::vector<double> PlotSeries::*values, double y_bottom, double y_top,
+               const std::string &y_label, bool x_labels, bool mark_best)
+    {
+      std::vector<double> all;
+      for (const auto &s : d.series)
+        all.insert(all.end(), (s.*values).begin(), (s.*values).end());
+      const auto [y_lo, y_hi] = padded_range(all, 0.12);
+
+      pls.vpor(0.13, 0.66, y_bottom, y_top);
+      pls.wind(axes.x_lo, axes.x_hi, y_lo, y_hi);
+      const std::string x_options = axes.log_x ? "l" : "";
+
+      if (mark_best && d.range_from && d.range_to && *d.range_to > *d.range_from)
+        {
+          const double x0 = to_axis(axes, *d.range_from), x1 = to_axis(axes, *d.range_to);
+          const double px[] = {x0, x1, x1, x0}, py[] = {y_lo, y_lo, y_hi, y_hi};
+          pls.col0(colour_band);
+          pls.fill(4, px, py);
+        }
+      pls.col0(colour_grid);
+      pls.width(0.5);
+      pls.box(("g" + x_options).c_str(), 0, 0, "g", 0, 0);
+      pls.col0(1);
+      pls.width(1);
+      pls.box(("bcst" + x_options + (x_labels ? "n" : "")).c_str(), 0, 0, "bcnstv", 0, 0);
+      pls.mtex("l", 5.0, 0.5, 0.5, y_label.c_str());
+
+      for (std::size_t k = 0; k < d.series.size(); ++k)
+        {
+          const PlotSeries         &s = d.series[k];
+          const std::vector<double> &y = s.*values;
+          pls.col0(first_line_colour + int(k % n_palette));
+          pls.width(2);
+          std::vector<double> sx, sy; // the current unbroken segment
+          auto flush = [&]() {
+            if (sx.size() > 1)
+              pls.line(int(sx.size()), sx.data(), sy.data());
+            if (!sx.empty())
+              pls.string(int(sx.size()), sx.data(), sy.data(), point_glyph);
+            sx.clear(), sy.clear();
+          };
+          for (std::size_t i = 0; i < s.x.size(); ++i)
+            if (std::isfinite(y[i]) && std::isfinite(s.x[i]) && (!axes.log_x || s.x[i] > 0))
+              sx.push_back(to_axis(axes, s.x[i])), sy.push_back(y[i]);
+            else
+              flush();
+          flush();
+        }
+      if (mark_best && d.best_x && d.best_pce)
+        {
+          const double bx = to_axis(axes, *d.best_x), by = *d.best_pce;
+          pls.col0(colour_best);
+          pls.schr(0, 1.7);
+          pls.string(1, &bx, &by, best_glyph);
+          pls.schr(0, 0.85);
+        }
+      pls.col0(1);
+    }
+
+    void
+    draw_legend(plstream &pls, const SweepPlotData &d)
+    {
+      std::vector<std::string> text;
+      std::vector<PLINT>       opt, line_colour, line_style, symbol_colour, symbol_number, box_colour,
+        box_pattern;
+      std::vector<PLFLT>       line_width, symbol_scale, box_scale, box_line_width;
+      std::vector<const char *> symbol;
+      auto add = [&](const std::string &t, PLINT o, PLINT colour, const char *glyph, PLINT n_glyphs,
+                     PLFLT glyph_scale) {
+        text.push_back(escaped(t));
+        opt.push_back(o);
+        line_colour.push_back(colour);
+        line_style.push_back(1);
+        line_width.push_back(2);
+        symbol_colour.push_back(colour);
+        symbol_number.push_back(n_glyphs);
+        symbol_scale.push_back(glyph_scale);
+        symbol.push_back(glyph);
+        box_colour.push_back(colour);
+        box_pattern.push_back(0);
+        box_scale.push_back(0.8);
+        box_line_width.push_back(1);
+      };
+      for (std::size_t k = 0; k < d.series.size(); ++k)
+        add(d.series[k].label.empty() ? "computed cases" : d.series[k].label,
+            PL_LEGEND_LINE | PL_LEGEND_SYMBOL, first_line_colour + int(k % n_palette), point_glyph, 1,
+            1.0);
+      if (d.best_x)
+        add("highest PCE", PL_LEGEND_SYMBOL, colour_best, best_glyph, 1, 1.8);
+      if (d.range_from && d.range_to && *d.range_to > *d.range_from)
+        add(d.range_label, PL_LEGEND_COLOR_BOX, colour_band, point_glyph, 1, 1.0);
+
+      std::vector<const char *> text_ptr;
+      for (const auto &t : text)
+        text_ptr.push_back(t.c_str());
+      std::vector<PLINT> text_colour(text.size(), 1);
+      PLFLT width = 0, height = 0;
+      // In the right margin, level with the upper panel.
+      pls.vpor(0.68, 0.99, 0.55, 0.92);
+      pls.legend(&width, &height, 0, PL_POSITION_LEFT | PL_POSITION_TOP | PL_POSITION_INSIDE,
+                 0.0, 0.0, 0.06, 0, 1, 1, 0, 0, PLINT(text.size()), opt.data(), 0.8, 0.8, 2.0, 0.0,
+                 text_colour.data(), text_ptr.data(), box_colour.data(), box_pattern.data(),
+                 box_scale.data(), box_line_width.data(), line_colour.data(), line_style.data(),
+                 line_width.data(), symbol_colour.data(), symbol_scale.data(), symbol_number.data(),
+                 symbol.data());
+    }
+
+    void
+    draw(plstream &pls, const SweepPlotData &d, const Axes &axes)
+    {
+      // Labels written here use PLplot's escapes (#d...#u: subscript);
+      // text that comes from the user is escaped.
+      pls.adv(0);
+      pls.schr(0, 0.85);
+      draw_panel(pls, d, axes, &PlotSeries::pce, 0.55, 0.92, "PCE per footprint (%)", false, true);
+      pls.mtex("t", 1.5, 0.5, 0.5, ("Power conversion and collection efficiency vs. " + escaped(d.x_label)).c_str());
+      draw_panel(pls, d, axes, &PlotSeries::eta, 0.12, 0.49, "collection efficiency η#dc#u", true,
+                 false);
+      pls.mtex("b", 3.2, 0.5, 0.5, escaped(d.x_label).c_str());
+      draw_legend(pls, d);
+    }
+
+    // One file: a fresh PLplot stream, drawn and closed, then renamed.
+    bool
+    plot_file(const SweepPlotData &d, const Axes &axes, const std::string &device,
+              const std::string &path, std::vector<std::string> &warnings)
+    {
+      if (!device_available(device))
+        {
+          warnings.push_back("no plot " + path + ": the PLplot driver '" + device +
+                             "' is not installed (Debian package plplot-driver-cairo)");
+          return false;
+        }
+      const std::string tmp = path + ".tmp" + std::to_string(::getpid());
+      // PLplot ends the process when it cannot open its output file, so
+      // check that the file can be created first.
+      if (!std::ofstream(tmp))
+        {
+          warnings.push_back("no plot " + path + ": cannot write " + tmp);
+          return false;
+        }
+      {
+        auto pls = std::make_unique<plstream>();
+        pls->sdev(device.c_str());
+        pls->sfnam(tmp.c_str());
+        pls->spage(0, 0, 1100, 800, 0, 0);
+        pls->scmap0n(first_line_colour + n_palette);
+        pls->scol0(0, 255, 255, 255);
+        pls->scol0(1, 0, 0, 0);
+        pls->scol0(colour_grid, 215, 215, 215);
+        pls->scol0(colour_band, 200, 235, 200);
+        pls->scol0(colour_best, 200, 30, 30);
+        for (int k = 0; k < n_palette; ++k)
+          pls->scol0(first_line_colour + k, palette[k][0], palette[k][1], palette[k][2]);
+        pls->init();
+        draw(*pls, d, axes);
+      } // the destructor ends the stream and closes the file
+      std::error_code ec;
+      std::filesystem::rename(tmp, path, ec);
+      if (ec)
+        {
+          std::remove(tmp.c_str());
+          warnings.push_back("no plot " + path + ": " + ec.message());
+          return false;
+        }
+      return true;
+    }
+  } // namespace
+
+  std::vector<std::string>
+  write_sweep_plots(const SweepPlotData &data, const std::string &stem,
+                    std::vector<std::string> &warnings)
+  {
+    std::vector<double> xs;
+    for (const auto &s : data.series)
+      for (std::size_t i = 0; i < s.x.size(); ++i)
+        if (std::isfinite(s.x[i]) && (std::isfinite(s.pce[i]) || std::isfinite(s.eta[i])))
+          xs.push_back(s.x[i]);
+    if (xs.empty())
+      {
+        warnings.push_back("no plot: no case has metrics to plot");
+        return {};
+      }
+    const double lo = *std::min_element(xs.begin(), xs.end());
+    const double hi = *std::max_element(xs.begin(), xs.end());
+    Axes axes;
+    axes.log_x = lo > 0 && hi / lo > 10;
+    if (axes.log_x)
+      {
+        const double l = std::log10(lo), h = std::log10(hi);
+        axes.x_lo = l - 0.05 * (h - l), axes.x_hi = h + 0.05 * (h - l);
+      }
+    else
+      std::tie(axes.x_lo, axes.x_hi) = padded_range(xs, 0.05);
+
+    std::vector<std::string> written;
+    for (const auto &[device, suffix] : {std::pair<std::string, std::string>{"svgcairo", ".svg"},
+                                         {"pngcairo", ".png"}})
+      if (plot_file(data, axes, device, stem + suffix, warnings))
+        written.push_back(stem + suffix);
+    return written;
+  }
+} // namespace backcomb::postprocess
