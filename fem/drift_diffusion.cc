@@ -42,30 +42,6 @@ namespace backcomb::fem
         throw std::runtime_error(std::string("PETSc failed in ") + what);
     }
 
-    // Direct LU solve with MUMPS through PETSc: A x = b or A^T x = b.
-    // Returns false if the factorisation failed (e.g. a singular Jacobian).
-    bool
-    lu_solve(const Mat A, const Vec b, Vec x, const bool transpose, const MPI_Comm comm)
-    {
-      KSP ksp;
-      PC  pc;
-      check(KSPCreate(comm, &ksp), "KSPCreate");
-      check(KSPSetOperators(ksp, A, A), "KSPSetOperators");
-      check(KSPSetType(ksp, KSPPREONLY), "KSPSetType");
-      check(KSPGetPC(ksp, &pc), "KSPGetPC");
-      check(PCSetType(pc, PCLU), "PCSetType");
-      check(PCFactorSetMatSolverType(pc, MATSOLVERMUMPS), "PCFactorSetMatSolverType");
-      check(KSPSetErrorIfNotConverged(ksp, PETSC_FALSE), "KSPSetErrorIfNotConverged");
-      PetscErrorCode code = KSPSetUp(ksp);
-      if (code == 0)
-        code = transpose ? KSPSolveTranspose(ksp, b, x) : KSPSolve(ksp, b, x);
-      KSPConvergedReason reason = KSP_DIVERGED_BREAKDOWN;
-      if (code == 0)
-        KSPGetConvergedReason(ksp, &reason);
-      KSPDestroy(&ksp);
-      return code == 0 && reason >= 0;
-    }
-
     // Sum of the recombination channels of a region.
     Rate
     bulk_rate(const ScaledRegion &r, const double n, const double p)
@@ -91,6 +67,12 @@ namespace backcomb::fem
     , comm(MPI_COMM_SELF)
     , fe(FE_Q<2>(1), 3)
     , dofs(tria_)
+    , cell_quadrature(numerics_.quadrature)
+    , face_quadrature(numerics_.quadrature)
+    , fe_values(std::make_unique<FEValues<2>>(fe, cell_quadrature,
+                                              update_values | update_gradients | update_JxW_values))
+    , fe_face_values(std::make_unique<FEFaceValues<2>>(fe, face_quadrature,
+                                                       update_values | update_JxW_values))
   {
     if (const auto *p = dynamic_cast<const parallel::TriangulationBase<2> *>(&tria))
       comm = p->get_communicator();
@@ -103,6 +85,49 @@ namespace backcomb::fem
     width = xmax - xmin;
     setup_system();
     precompute_generation();
+  }
+
+  DriftDiffusionSolver::~DriftDiffusionSolver()
+  {
+    if (ksp)
+      KSPDestroy(&ksp);
+  }
+
+  // Direct LU solve with MUMPS through PETSc: J x = b or J^T x = b. The
+  // KSP object lives as long as the solver, so that the symbolic
+  // factorisation (ordering) is reused; PETSc refactorises numerically
+  // whenever the matrix values changed. Returns false if the factorisation
+  // failed (e.g. a singular Jacobian).
+  bool
+  DriftDiffusionSolver::lu_solve(const Vec b, Vec x, const bool transpose) const
+  {
+    if (!ksp)
+      {
+        PC pc;
+        check(KSPCreate(comm, &ksp), "KSPCreate");
+        check(KSPSetType(ksp, KSPPREONLY), "KSPSetType");
+        check(KSPGetPC(ksp, &pc), "KSPGetPC");
+        check(PCSetType(pc, PCLU), "PCSetType");
+        check(PCFactorSetMatSolverType(pc, MATSOLVERMUMPS), "PCFactorSetMatSolverType");
+        check(KSPSetErrorIfNotConverged(ksp, PETSC_FALSE), "KSPSetErrorIfNotConverged");
+      }
+    const Mat A = static_cast<Mat>(jacobian);
+    check(KSPSetOperators(ksp, A, A), "KSPSetOperators");
+    PetscErrorCode code = KSPSetUp(ksp);
+    if (code == 0)
+      code = transpose ? KSPSolveTranspose(ksp, b, x) : KSPSolve(ksp, b, x);
+    KSPConvergedReason reason = KSP_DIVERGED_BREAKDOWN;
+    if (code == 0)
+      KSPGetConvergedReason(ksp, &reason);
+    if (code != 0 || reason < 0)
+      {
+        // Start afresh next time: a failed factorisation leaves the PC in
+        // an error state.
+        KSPDestroy(&ksp);
+        ksp = nullptr;
+        return false;
+      }
+    return true;
   }
 
   std::vector<types::global_dof_index>
@@ -218,20 +243,10 @@ namespace backcomb::fem
                                       Vector<double> &F,
                                       const bool with_contacts) const
   {
-    const QGauss<2> quad(numerics.quadrature);
-    const QGauss<1> face_quad(numerics.quadrature);
-    // FEValues objects are reused between calls of the same thread.
-    thread_local std::unique_ptr<FEValues<2>>     fv_ptr;
-    thread_local std::unique_ptr<FEFaceValues<2>> ffv_ptr;
-    thread_local const void                      *owner = nullptr;
-    if (owner != this || !fv_ptr)
-      {
-        fv_ptr  = std::make_unique<FEValues<2>>(fe, quad, update_values | update_gradients | update_JxW_values);
-        ffv_ptr = std::make_unique<FEFaceValues<2>>(fe, face_quad, update_values | update_JxW_values);
-        owner   = this;
-      }
-    FEValues<2>     &fv  = *fv_ptr;
-    FEFaceValues<2> &ffv = *ffv_ptr;
+    const QGauss<2> &quad      = cell_quadrature;
+    const QGauss<1> &face_quad = face_quadrature;
+    FEValues<2>     &fv  = *fe_values;
+    FEFaceValues<2> &ffv = *fe_face_values;
 
     const unsigned dpc = fe.n_dofs_per_cell();
     const unsigned nq  = quad.size();
@@ -472,8 +487,7 @@ namespace backcomb::fem
     for (unsigned it = 0; it < numerics.max_iterations; ++it)
       {
         assemble_system(u, light);
-        const bool ok = lu_solve(static_cast<Mat>(jacobian), static_cast<const Vec &>(rhs),
-                                 static_cast<const Vec &>(delta_p), false, comm);
+        const bool ok = lu_solve(static_cast<const Vec &>(rhs), static_cast<const Vec &>(delta_p), false);
         // The update, complete on every process.
         Vector<double> delta(delta_p);
         zero_constraints.distribute(delta);
@@ -517,8 +531,7 @@ namespace backcomb::fem
     for (const auto i : owned)
       b_p[i] = b[i];
     b_p.compress(VectorOperation::insert);
-    if (!lu_solve(static_cast<Mat>(jacobian), static_cast<const Vec &>(b_p),
-                  static_cast<const Vec &>(y_p), true, comm))
+    if (!lu_solve(static_cast<const Vec &>(b_p), static_cast<const Vec &>(y_p), true))
       throw std::runtime_error("the transposed Jacobian could not be factorised");
     z = Vector<double>(y_p);
   }

@@ -13,6 +13,7 @@
 
 #include <deal.II/dofs/dof_handler.h>
 #include <deal.II/fe/fe_system.h>
+#include <deal.II/fe/fe_values.h>
 #include <deal.II/grid/tria.h>
 #include <deal.II/base/index_set.h>
 #include <deal.II/lac/affine_constraints.h>
@@ -21,8 +22,12 @@
 #include <deal.II/lac/petsc_vector.h>
 #include <deal.II/lac/vector.h>
 
-#include <mpi.h>
+#include <deal.II/base/quadrature_lib.h>
 
+#include <mpi.h>
+#include <petscksp.h>
+
+#include <memory>
 #include <string>
 #include <vector>
 
@@ -64,6 +69,10 @@ namespace backcomb::fem
 
     // Sets the initial guess (local charge neutrality, flat quasi-Fermi
     // levels) and solves thermal equilibrium in the dark at zero bias.
+    ~DriftDiffusionSolver();
+    DriftDiffusionSolver(const DriftDiffusionSolver &) = delete;
+    DriftDiffusionSolver &operator=(const DriftDiffusionSolver &) = delete;
+
     NewtonReport solve_equilibrium();
 
     // Solves at hole-contact voltage V (volts, electron contact grounded)
@@ -121,6 +130,7 @@ namespace backcomb::fem
     void assemble_residual(const dealii::Vector<double> &u, double light,
                            dealii::Vector<double> &r) const;
     NewtonReport newton(dealii::Vector<double> &u, double light) const;
+    bool lu_solve(Vec b, Vec x, bool transpose) const;
     // All DoFs of component c on boundary b, on every process.
     std::vector<dealii::types::global_dof_index> boundary_dofs(unsigned b, unsigned c) const;
 
@@ -131,6 +141,12 @@ namespace backcomb::fem
 
     dealii::FESystem<2>              fe;
     dealii::DoFHandler<2>            dofs;
+    dealii::QGauss<2>                cell_quadrature;
+    dealii::QGauss<1>                face_quadrature;
+    // Reused by assemble_cell (the solver is used by one thread).
+    std::unique_ptr<dealii::FEValues<2>>     fe_values;
+    std::unique_ptr<dealii::FEFaceValues<2>> fe_face_values;
+    mutable KSP                      ksp = nullptr; // MUMPS LU, kept between solves
     dealii::IndexSet                 owned, relevant;
     dealii::AffineConstraints<double> zero_constraints; // Dirichlet DoFs of the update
     mutable dealii::PETScWrappers::MPI::SparseMatrix jacobian;
