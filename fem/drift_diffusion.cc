@@ -2,6 +2,8 @@
 
 #include "geometry/ids.h"
 
+#include <deal.II/base/array_view.h>
+#include <deal.II/base/mpi.h>
 #include <deal.II/base/quadrature_lib.h>
 #include <deal.II/dofs/dof_tools.h>
 #include <deal.II/fe/fe_q.h>
@@ -534,6 +536,106 @@ namespace backcomb::fem
     if (!lu_solve(static_cast<const Vec &>(b_p), static_cast<const Vec &>(y_p), true))
       throw std::runtime_error("the transposed Jacobian could not be factorised");
     z = Vector<double>(y_p);
+  }
+
+  std::vector<double>
+  DriftDiffusionSolver::electron_collection_weights() const
+  {
+    // Electron particle current out of both contacts = sum of the electron
+    // rows of F at both contacts' nodes (see terminal_current()).
+    std::vector<double> w(dofs.n_dofs(), 0.0);
+    for (const auto i : hole_contact_dofs[c_phin])
+      w[i] = -1.0;
+    for (const auto i : electron_contact_dofs[c_phin])
+      w[i] = -1.0;
+    return w;
+  }
+
+  Vector<double>
+  DriftDiffusionSolver::collection_probability(const std::vector<double> *weights) const
+  {
+    // The functional I(u, G) = sum_i w_i (-F_i(u, G)) with F the residual
+    // without contact terms. At a solution of the full residual R(u, G) = 0,
+    // dI/dG = dI/dG|_u - lambda^T dR/dG with J^T lambda = (dI/du)^T.
+    std::vector<double> w(dofs.n_dofs(), 0.0);
+    if (weights)
+      w = *weights;
+    else
+      for (const unsigned c : {c_phin, c_phip})
+        for (const auto i : hole_contact_dofs[c])
+          w[i] = 1.0;
+
+    const unsigned     dpc = fe.n_dofs_per_cell();
+    FullMatrix<double> A(dpc, dpc);
+    Vector<double>     F(dpc), b(dofs.n_dofs());
+    std::vector<types::global_dof_index> idx(dpc);
+    for (const auto &cell : dofs.active_cell_iterators())
+      {
+        if (!cell->is_locally_owned())
+          continue;
+        assemble_cell(cell, solution, light_factor, &A, F, false);
+        cell->get_dof_indices(idx);
+        for (unsigned i = 0; i < dpc; ++i)
+          if (w[idx[i]] != 0)
+            for (unsigned j = 0; j < dpc; ++j)
+              b[idx[j]] -= w[idx[i]] * A(i, j);
+      }
+    {
+      const Vector<double> local = b;
+      Utilities::MPI::sum(ArrayView<const double>(local.begin(), local.size()), comm,
+                          ArrayView<double>(b.begin(), b.size()));
+    }
+    // Prescribed values do not change with G.
+    for (types::global_dof_index i = 0; i < b.size(); ++i)
+      if (zero_constraints.is_constrained(i))
+        b[i] = 0;
+    Vector<double> lambda;
+    solve_transposed(b, lambda);
+
+    // dR/dG: +phi_i in the electron rows, -phi_i in the hole rows; the
+    // explicit dI/dG|_u has the same form with -w_i.
+    Vector<double> fc(dofs.n_dofs());
+    for (const auto &cell : dofs.active_cell_iterators())
+      {
+        cell->get_dof_indices(idx);
+        for (unsigned v = 0; v < 4; ++v)
+          {
+            const auto in = idx[fe.component_to_system_index(c_phin, v)];
+            const auto ip = idx[fe.component_to_system_index(c_phip, v)];
+            const auto i0 = idx[fe.component_to_system_index(c_psi, v)];
+            const double an = -w[in] - (zero_constraints.is_constrained(in) ? 0.0 : lambda[in]);
+            const double ap = w[ip] + (zero_constraints.is_constrained(ip) ? 0.0 : lambda[ip]);
+            fc[in] = an;
+            fc[ip] = ap;
+            fc[i0] = an + ap;
+          }
+      }
+    return fc;
+  }
+
+  double
+  DriftDiffusionSolver::collected_current(const Vector<double> &fc) const
+  {
+    FEValues<2> &fv = *fe_values;
+    const unsigned nq = cell_quadrature.size();
+    std::vector<types::global_dof_index> idx(fe.n_dofs_per_cell());
+    double total = 0;
+    for (const auto &cell : dofs.active_cell_iterators())
+      {
+        if (!cell->is_locally_owned())
+          continue;
+        fv.reinit(cell);
+        cell->get_dof_indices(idx);
+        for (unsigned q = 0; q < nq; ++q)
+          {
+            double f = 0;
+            for (unsigned i = 0; i < idx.size(); ++i)
+              if (fe.system_to_component_index(i).first == c_psi)
+                f += fc[idx[i]] * fv.shape_value(i, q);
+            total += light_factor * generation_qp[cell->active_cell_index() * nq + q] * f * fv.JxW(q);
+          }
+      }
+    return Utilities::MPI::sum(total, comm) * device.scaling.J0 / width;
   }
 
   NewtonReport

@@ -102,6 +102,25 @@ namespace backcomb::fem
 
     unsigned n_dofs() const { return dofs.n_dofs(); }
 
+    // Local collection probability f_c = dI/dG (per generated pair; I the
+    // terminal current in generator convention) at the current state, from
+    // one adjoint solve with the transposed Jacobian (generalised
+    // reciprocity; C. Donolato, Appl. Phys. Lett. 46 (1985) 270 for the
+    // linear case). Returned as a nodal vector of the system: component 0
+    // holds f_c, components 1 and 2 its electron- and hole-equation parts.
+    // `weights` (optional, one per DoF) replaces the terminal current by
+    // the functional sum_i w_i (-F_i) of the contact-free residual F, e.g.
+    // the electron current out of both contacts.
+    dealii::Vector<double> collection_probability(const std::vector<double> *weights = nullptr) const;
+
+    // q * integral of G f_c over the domain per footprint width, mA/cm^2:
+    // equals the current when the problem is linear in G.
+    double collected_current(const dealii::Vector<double> &fc) const;
+
+    // The DoF weights of the electron particle current out of both
+    // contacts (for collection-probability checks on strips).
+    std::vector<double> electron_collection_weights() const;
+
     // Solves J^T z = b with the Jacobian of the current state (for the
     // adjoint collection probability). `b` and `z` are complete vectors.
     void solve_transposed(const dealii::Vector<double> &b, dealii::Vector<double> &z) const;
