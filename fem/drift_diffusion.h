@@ -97,8 +97,12 @@ namespace backcomb::fem
     void set_state(const dealii::Vector<double> &u, double voltage, double light);
     const DeviceModel &device_model() const { return device; }
 
-    // Writes ψ, quasi-Fermi levels, n, p, currents, G and R (VTK XML .vtu).
-    void write_fields(const std::string &vtu_file) const;
+    // Writes psi, quasi-Fermi levels, n, p, currents, |E|, G and R (VTK XML
+    // .vtu), and the collection probability with its dead-zone mask
+    // (f_c < threshold) when `fc` is given.
+    void write_fields(const std::string &vtu_file,
+                      const dealii::Vector<double> *fc = nullptr,
+                      double threshold = 0.5) const;
 
     unsigned n_dofs() const { return dofs.n_dofs(); }
 

@@ -90,16 +90,43 @@ namespace backcomb::fem
   } // namespace
 
   void
-  DriftDiffusionSolver::write_fields(const std::string &vtu_file) const
+  DriftDiffusionSolver::write_fields(const std::string &vtu_file, const Vector<double> *fc,
+                                     const double threshold) const
   {
     DerivedFields derived(device, light_factor);
     DataOut<2>    out;
     out.attach_dof_handler(dofs);
     out.add_data_vector(solution, derived);
-    Vector<float> region(tria.n_active_cells());
+    Vector<float> region(tria.n_active_cells()), absorber(tria.n_active_cells());
     for (const auto &cell : tria.active_cell_iterators())
-      region[cell->active_cell_index()] = cell->material_id();
+      {
+        region[cell->active_cell_index()]   = cell->material_id();
+        absorber[cell->active_cell_index()] = device.region(cell->material_id()).absorber ? 1 : 0;
+      }
     out.add_data_vector(region, "region_id");
+    out.add_data_vector(absorber, "absorber");
+    Vector<double> mask;
+    if (fc)
+      {
+        out.add_data_vector(*fc, std::vector<std::string>{"collection_probability",
+                                                          "collection_probability_electron_part",
+                                                          "collection_probability_hole_part"});
+        // Dead-zone mask: 1 where f_c is below the threshold (all three
+        // components carry the same nodal flag).
+        mask.reinit(fc->size());
+        std::vector<types::global_dof_index> idx(fe.n_dofs_per_cell());
+        for (const auto &cell : dofs.active_cell_iterators())
+          {
+            cell->get_dof_indices(idx);
+            for (unsigned v = 0; v < 4; ++v)
+              {
+                const double m = (*fc)[idx[fe.component_to_system_index(0, v)]] < threshold ? 1.0 : 0.0;
+                for (unsigned c = 0; c < 3; ++c)
+                  mask[idx[fe.component_to_system_index(c, v)]] = m;
+              }
+          }
+        out.add_data_vector(mask, std::vector<std::string>{"dead_zone_mask", "unused_mask_1", "unused_mask_2"});
+      }
     out.build_patches();
     // Atomic: all processes write one temporary file next to the target
     // (MPI I/O), then the first renames it.

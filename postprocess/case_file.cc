@@ -208,6 +208,9 @@ namespace backcomb::postprocess
     prm.declare_entry("Field biases", "0", dealii::Patterns::Anything(),
                       "Comma-separated biases in V at which the fields are written "
                       "(each must lie within the J-V sweep).");
+    declare_number(prm, "Dead zone threshold", "0.5",
+                   "Collection probability below which absorber is counted as dead "
+                   "zone (at short circuit), 0..1 exclusive.");
     prm.leave_subsection();
   }
 
@@ -341,6 +344,7 @@ namespace backcomb::postprocess
         if (c.output.folder.empty())
           throw InputError("Output/Folder", "", "must not be empty");
         c.output.fields       = prm.get_bool("Write fields");
+        c.output.dead_zone_threshold = get_in_range(prm, "Output", "Dead zone threshold", 1e-6, 1 - 1e-6);
         c.output.field_biases = parse_list("Output/Field biases", prm.get("Field biases"));
         for (const double v : c.output.field_biases)
           if (v < c.jv.start - 1e-12 || v > c.jv.stop + 1e-12)

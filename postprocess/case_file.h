@@ -39,6 +39,7 @@ namespace backcomb::postprocess
     std::string         folder = "backcomb-out";
     bool                fields = true;
     std::vector<double> field_biases{0.0}; // V at which fields are written
+    double              dead_zone_threshold = 0.5; // f_c below this is dead
   };
 
   struct Case

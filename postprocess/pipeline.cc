@@ -1,5 +1,7 @@
 #include "postprocess/pipeline.h"
 
+#include "postprocess/dead_zone.h"
+
 #include "fem/drift_diffusion.h"
 #include "fem/operating_points.h"
 #include "geometry/ids.h"
@@ -19,6 +21,7 @@
 #include <chrono>
 #include <cmath>
 #include <cstdio>
+#include <filesystem>
 #include <iomanip>
 #include <iostream>
 #include <map>
@@ -483,33 +486,96 @@ namespace backcomb::postprocess
       }
     const double t_l = seconds_since(t_light);
 
-    // Fields at the requested biases, from the stored states.
-    json fields = json::array();
-    if (c.output.fields && on.converged)
+    // Fields at the requested biases, from the stored states, with the
+    // adjoint collection probability under light; the dead zone at short
+    // circuit.
+    json   fields = json::array(), dead_zone_json = nullptr, collection_json = nullptr;
+    double adjoint_seconds = 0;
+    unsigned adjoint_solves = 0;
+    if (on.converged)
       {
         make_folder(o.folder + "/fields");
+        std::vector<double> biases = c.output.fields ? c.output.field_biases : std::vector<double>{};
+        const bool need_sc = lit && std::find_if(biases.begin(), biases.end(), [](double v) {
+                                      return std::abs(v) < 1e-9;
+                                    }) == biases.end();
+        if (need_sc)
+          biases.push_back(0.0);
         std::ostringstream pvd;
         pvd << "<?xml version=\"1.0\"?>\n<VTKFile type=\"Collection\" version=\"0.1\">\n<Collection>\n";
-        for (const double v : c.output.field_biases)
+        for (const double v : biases)
           for (const auto &p : light.points)
             if (p.jv.converged && std::abs(p.jv.voltage - v) < 1e-9)
               {
                 solver.set_state(p.state, v, lit ? 1.0 : 0.0);
-                const std::string name = "fields/" + std::string(lit ? "light" : "dark") + "_V" + bias_name(v) + ".vtu";
+                const bool        listed = !(need_sc && std::abs(v) < 1e-9);
+                const std::string name   = "fields/" + std::string(lit ? "light" : "dark") + "_V" +
+                                         bias_name(v) + (listed ? "" : "_collection") + ".vtu";
+                const std::string path   = o.folder + "/" + name;
+                dealii::Vector<double> fc;
+                if (lit)
+                  {
+                    const auto t0 = std::chrono::steady_clock::now();
+                    fc            = solver.collection_probability();
+                    adjoint_seconds += seconds_since(t0);
+                    ++adjoint_solves;
+                  }
                 try
                   {
-                    solver.write_fields(o.folder + "/" + name);
+                    solver.write_fields(path, lit ? &fc : nullptr, c.output.dead_zone_threshold);
                   }
                 catch (const std::exception &e)
                   {
                     throw OutputError(e.what());
                   }
-                pvd << "<DataSet timestep=\"" << number(v) << "\" file=\"" << name << "\"/>\n";
-                fields.push_back({{"bias_V", v}, {"file", name}});
+                if (lit && std::abs(v) < 1e-9)
+                  {
+                    const double collected = solver.collected_current(fc);
+                    collection_json = {{"bias_V", 0.0},
+                                       {"collected_current_mA_per_cm2", collected},
+                                       {"terminal_current_mA_per_cm2", p.jv.current},
+                                       {"relative_difference", p.jv.current != 0 ? (collected - p.jv.current) / p.jv.current : 0.0}};
+                    if (root)
+                      {
+                        try
+                          {
+                            const std::string contour = "fields/dead_zone_contour_V" + bias_name(v) + ".vtp";
+                            const DeadZone d = analyse_dead_zone(path, c.output.dead_zone_threshold,
+                                                                 o.folder + "/" + contour);
+                            dead_zone_json = {{"threshold", d.threshold},
+                                              {"area_fraction", d.area_fraction},
+                                              {"generated_fraction", d.generated_fraction},
+                                              {"absorber_area_um2", d.absorber_area_um2},
+                                              {"dead_area_um2", d.dead_area_um2},
+                                              {"present", d.present},
+                                              {"x_min_um", d.present ? json(d.x_min_um) : json(nullptr)},
+                                              {"x_max_um", d.present ? json(d.x_max_um) : json(nullptr)},
+                                              {"width_um", d.width_um()},
+                                              {"centre_um", d.present ? json(d.centre_um()) : json(nullptr)},
+                                              {"contour_file", contour}};
+                          }
+                        catch (const std::exception &e)
+                          {
+                            throw OutputError(e.what());
+                          }
+                      }
+                  }
+                if (listed)
+                  {
+                    pvd << "<DataSet timestep=\"" << number(v) << "\" file=\"" << name << "\"/>\n";
+                    fields.push_back({{"bias_V", v}, {"file", name}});
+                  }
+                else if (!c.output.fields && root)
+                  std::filesystem::remove(path);
               }
         pvd << "</Collection>\n</VTKFile>\n";
-        if (root)
+        if (root && c.output.fields)
           write_file_atomically(o.folder + "/fields.pvd", pvd.str());
+        if (!c.output.fields && root)
+          {
+            std::error_code ec;
+            std::filesystem::remove(o.folder + "/fields", ec); // only if empty
+          }
       }
 
     // Dark J-V over the same biases.
@@ -553,6 +619,12 @@ namespace backcomb::postprocess
     summary["timings_s"] = {{"mesh", t_m}, {"light", t_l}, {"dark", t_d},
                             {"total", seconds_since(t_start)}};
     summary["fields"]    = fields;
+    summary["collection_map"] = collection_json;
+    summary["dead_zone"]      = dead_zone_json;
+    summary["timings_s"]["adjoint_per_solve"] =
+      adjoint_solves > 0 ? json(adjoint_seconds / adjoint_solves) : json(nullptr);
+    summary["timings_s"]["newton_step_light"] =
+      light.newton > 0 ? json(t_l / light.newton) : json(nullptr);
 
     // jv.csv: light and dark currents on the union of biases.
     std::map<long, std::pair<std::string, std::string>> rows;
