@@ -124,6 +124,9 @@ namespace backcomb::fem
     ScaledContact                      electron_contact, hole_contact;
     ScaledSurface                      top_surface, gap_interface;
     std::function<double(double, double)> generation; // physical units
+    // Optional fixed space charge density in cm^-3 (positive like ionised
+    // donors), added to the doping; used for manufactured solutions.
+    std::function<double(double, double)> fixed_charge;
     std::map<unsigned, Material>       materials;      // physical units
 
     const ScaledRegion &region(unsigned material_id) const;

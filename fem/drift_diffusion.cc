@@ -113,6 +113,13 @@ namespace backcomb::fem
         check(PCFactorSetMatSolverType(pc, MATSOLVERMUMPS), "PCFactorSetMatSolverType");
         check(KSPSetErrorIfNotConverged(ksp, PETSC_FALSE), "KSPSetErrorIfNotConverged");
       }
+    const auto t0 = std::chrono::steady_clock::now();
+    struct Clock
+    {
+      std::chrono::steady_clock::time_point t0;
+      double                               &total;
+      ~Clock() { total += std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count(); }
+    } clock{t0, t_solve};
     const Mat A = static_cast<Mat>(jacobian);
     check(KSPSetOperators(ksp, A, A), "KSPSetOperators");
     PetscErrorCode code = KSPSetUp(ksp);
@@ -207,9 +214,16 @@ namespace backcomb::fem
         if (!cell->is_locally_owned())
           continue;
         const ScaledRegion &r = device.region(cell->material_id());
+        fv.reinit(cell);
+        if (device.fixed_charge)
+          {
+            fixed_charge_qp.resize(generation_qp.size());
+            for (unsigned q = 0; q < quad.size(); ++q)
+              fixed_charge_qp[cell->active_cell_index() * quad.size() + q] =
+                device.fixed_charge(fv.quadrature_point(q)[0], fv.quadrature_point(q)[1]) / device.scaling.N0;
+          }
         if (!r.absorber || !device.generation)
           continue;
-        fv.reinit(cell);
         for (unsigned q = 0; q < quad.size(); ++q)
           {
             const Point<2> &x = fv.quadrature_point(q);
@@ -276,6 +290,7 @@ namespace backcomb::fem
         const double p  = std::exp(v[c_phip] - v[c_psi] + r.a_p);
         const Rate   k  = bulk_rate(r, n, p);
         const double G  = light * generation_qp[cell->active_cell_index() * nq + q];
+        const double fixed = fixed_charge_qp.empty() ? 0.0 : fixed_charge_qp[cell->active_cell_index() * nq + q];
         const double dx = fv.JxW(q);
         // Derivatives of R with respect to (psi, phi_n, phi_p).
         const double dR[3]   = {k.dR_dn * n - k.dR_dp * p, -k.dR_dn * n, k.dR_dp * p};
@@ -287,7 +302,7 @@ namespace backcomb::fem
             switch (comp[i])
               {
                 case c_psi:
-                  F(i) += (r.eps * (g[c_psi] * gi) - (p - n + r.doping) * vi) * dx;
+                  F(i) += (r.eps * (g[c_psi] * gi) - (p - n + r.doping + fixed) * vi) * dx;
                   break;
                 case c_phin:
                   F(i) += (jn_coef * (g[c_phin] * gi) - (k.R - G) * vi) * dx;
@@ -427,6 +442,7 @@ namespace backcomb::fem
     FullMatrix<double> A(dpc, dpc);
     Vector<double>     F(dpc);
     std::vector<types::global_dof_index> idx(dpc);
+    const auto t0 = std::chrono::steady_clock::now();
     jacobian = 0;
     rhs      = 0;
     for (const auto &cell : dofs.active_cell_iterators())
@@ -439,6 +455,7 @@ namespace backcomb::fem
       }
     jacobian.compress(VectorOperation::add);
     rhs.compress(VectorOperation::add);
+    t_assembly += std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
     if (!scale_rows)
       return;
 

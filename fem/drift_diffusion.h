@@ -106,6 +106,10 @@ namespace backcomb::fem
 
     unsigned n_dofs() const { return dofs.n_dofs(); }
 
+    // Time spent so far in assembly and in the direct solver (s).
+    double assembly_seconds() const { return t_assembly; }
+    double linear_solve_seconds() const { return t_solve; }
+
     // Local collection probability f_c = dI/dG (per generated pair; I the
     // terminal current in generator convention) at the current state, from
     // one adjoint solve with the transposed Jacobian (generalised
@@ -176,8 +180,10 @@ namespace backcomb::fem
     mutable dealii::PETScWrappers::MPI::Vector       rhs;
     dealii::Vector<double>           solution;
     std::vector<double>              generation_qp; // scaled, per cell and quadrature point
+    std::vector<double>              fixed_charge_qp; // scaled, empty if none
     std::vector<dealii::types::global_dof_index> hole_contact_dofs[3], electron_contact_dofs[3];
     std::vector<dealii::Point<2>>    support_points;
     double                           bias = 0, light_factor = 0, width = 0;
+    mutable double                   t_assembly = 0, t_solve = 0;
   };
 } // namespace backcomb::fem

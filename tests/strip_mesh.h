@@ -45,21 +45,10 @@ namespace backcomb::test_support
     return h;
   }
 
+  // Region and boundary ids of a strip [0, L] x [0, t] (see above).
   inline void
-  make_strip(dealii::Triangulation<2> &tria, const double L, const double t, const double xj,
-             const double h_min, const double ratio = 1.15, const double h_max = 1e9)
+  set_strip_ids(dealii::Triangulation<2> &tria, const double L, const double t, const double xj)
   {
-    std::vector<double> dx;
-    if (xj > 0)
-      {
-        dx        = graded_segment(xj, h_min, ratio, h_max, true, true);
-        auto right = graded_segment(L - xj, h_min, ratio, h_max, true, true);
-        dx.insert(dx.end(), right.begin(), right.end());
-      }
-    else
-      dx = graded_segment(L, h_min, ratio, h_max, true, true);
-    dealii::GridGenerator::subdivided_hyper_rectangle(
-      tria, {dx, std::vector<double>{t}}, dealii::Point<2>(0, 0), dealii::Point<2>(L, t));
     namespace ids = backcomb::geometry::ids;
     for (const auto &cell : tria.active_cell_iterators())
       {
@@ -78,5 +67,33 @@ namespace backcomb::test_support
                 cell->face(f)->set_boundary_id(ids::top_surface);
             }
       }
+  }
+
+  // Uniform nx x ny strip (convergence studies).
+  inline void
+  make_uniform_strip(dealii::Triangulation<2> &tria, const double L, const double t, const unsigned nx,
+                     const unsigned ny)
+  {
+    dealii::GridGenerator::subdivided_hyper_rectangle(tria, {nx, ny}, dealii::Point<2>(0, 0),
+                                                      dealii::Point<2>(L, t));
+    set_strip_ids(tria, L, t, 0.0);
+  }
+
+  inline void
+  make_strip(dealii::Triangulation<2> &tria, const double L, const double t, const double xj,
+             const double h_min, const double ratio = 1.15, const double h_max = 1e9)
+  {
+    std::vector<double> dx;
+    if (xj > 0)
+      {
+        dx        = graded_segment(xj, h_min, ratio, h_max, true, true);
+        auto right = graded_segment(L - xj, h_min, ratio, h_max, true, true);
+        dx.insert(dx.end(), right.begin(), right.end());
+      }
+    else
+      dx = graded_segment(L, h_min, ratio, h_max, true, true);
+    dealii::GridGenerator::subdivided_hyper_rectangle(
+      tria, {dx, std::vector<double>{t}}, dealii::Point<2>(0, 0), dealii::Point<2>(L, t));
+    set_strip_ids(tria, L, t, xj);
   }
 } // namespace backcomb::test_support
