@@ -1,28 +1,40 @@
 #!/usr/bin/env bash
-# Example array job: one candidate gap of cases/demo.prm per task.
+# Example array job: the candidate gaps of cases/demo.prm as one sweep,
+# split into shares, one share per array task, then one merge.
 #
-# Submit it as an array of 6 tasks with indices 0..5 (one per entry of
-# GAPS below), or run a single task by hand:  bash cases/array-job.sh 3
+#   sbatch cases/array-job.sh                      # tasks 1..3 (SLURM)
+#   qsub cases/array-job.sh                        # tasks 1..3 (PBS/Torque)
+#   bash cases/array-job.sh 2                      # one task by hand
+#   bash cases/array-job.sh merge                  # table, plot, recommendation
 #
-# The task index comes from the first variable that is set of
-# SLURM_ARRAY_TASK_ID and PBS_ARRAYID, or from the first argument. The
-# directives below are examples; adapt queue, time and memory to your
-# cluster (one task needs one core and well under 2 GB).
+# Run the merge when every task has finished, for example as a dependent
+# job: sbatch --dependency=afterany:<array job id> cases/array-job.sh merge
+# A task that was killed (time limit) is simply submitted again: finished
+# cases are kept and only the missing ones are computed. The merge reports
+# cases that are still missing and leaves their rows empty.
+#
+# The task index (1-based) comes from the first variable that is set of
+# SLURM_ARRAY_TASK_ID and PBS_ARRAYID, or from the first argument; the
+# number of tasks from SLURM_ARRAY_TASK_COUNT or TASKS below. The directives
+# are examples; adapt queue, time and memory to your cluster (one case
+# needs one core and well under 2 GB).
 #
 #SBATCH --job-name=backcomb-gaps
-#SBATCH --array=0-5
+#SBATCH --array=1-3
 #SBATCH --ntasks=1
 #SBATCH --cpus-per-task=1
 #SBATCH --time=02:00:00
-#SBATCH --output=backcomb-gap-%a.log
+#SBATCH --output=backcomb-gaps-%a.log
 #
 #PBS -N backcomb-gaps
-#PBS -t 0-5
+#PBS -t 1-3
 #PBS -l nodes=1:ppn=1,walltime=02:00:00
 set -euo pipefail
 
-# The gaps in um, as in the "Candidate gaps" line of cases/demo.prm.
-GAPS=(5 10 20 50 100 200)
+# The swept gaps in um (as in the "Candidate gaps" line of cases/demo.prm)
+# and the number of array tasks they are shared among.
+GAPS="5,10,20,50,100,200"
+TASKS=3
 
 # Work in the repository root: the submission folder when the scheduler
 # names it (the script itself may run from a spool copy), else the current
@@ -30,13 +42,7 @@ GAPS=(5 10 20 50 100 200)
 root=${BACKCOMB_ROOT:-${SLURM_SUBMIT_DIR:-${PBS_O_WORKDIR:-$PWD}}}
 cd "$root"
 backcomb=${BACKCOMB:-build/app/backcomb}
-
-index=${SLURM_ARRAY_TASK_ID:-${PBS_ARRAYID:-${1:-}}}
-if [[ ! "$index" =~ ^[0-9]+$ ]] || ((index >= ${#GAPS[@]})); then
-  echo "array-job: task index '$index' is not in 0..$((${#GAPS[@]} - 1))" >&2
-  exit 1
-fi
-gap=${GAPS[$index]}
+out=${BACKCOMB_OUT:-results/gap-sweep}
 
 # deal.II initialises MPI; Open MPI refuses to run as root unless allowed
 # (harmless for ordinary users).
@@ -44,12 +50,23 @@ export OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1
 # One task, one core: keep threaded libraries from oversubscribing the node.
 export OMP_NUM_THREADS=1
 
-mkdir -p results
-echo "array-job: task $index, gap $gap um, on $(hostname)"
+index=${SLURM_ARRAY_TASK_ID:-${PBS_ARRAYID:-${1:-}}}
+tasks=${SLURM_ARRAY_TASK_COUNT:-$TASKS}
+
+if [[ "$index" == merge ]]; then
+  exec "$backcomb" merge "$out"
+fi
+if [[ ! "$index" =~ ^[0-9]+$ ]] || ((index < 1 || index > tasks)); then
+  echo "array-job: task index '$index' is not in 1..$tasks (or 'merge')" >&2
+  exit 1
+fi
+
+echo "array-job: task $index of $tasks on $(hostname)"
 status=0
-"$backcomb" solve cases/demo.prm --set "Geometry/Gap=$gap" --out "results/gap-$gap" --quiet \
-  || status=$?
-# Exit codes: 0 ok, 2 invalid input, 3 no convergence, 4 output error,
+"$backcomb" sweep cases/demo.prm --vary "Geometry/Gap=$GAPS" --out "$out" \
+  --task "$index" --of "$tasks" || status=$?
+# Exit codes: 0 every case of the share converged, 2 invalid input,
+# 3 a case failed (recorded in its folder; the others ran), 4 output error,
 # 5 internal error (see README.md). The scheduler records the status.
-echo "array-job: gap $gap um finished with exit code $status"
+echo "array-job: task $index finished with exit code $status"
 exit "$status"

@@ -485,6 +485,7 @@ namespace backcomb::postprocess
           refine(solver, light, c.jv.refine_to, c.numerics.max_halvings);
       }
     const double t_l = seconds_since(t_light);
+    const double light_assembly = solver.assembly_seconds(), light_solve = solver.linear_solve_seconds();
 
     // Fields at the requested biases, from the stored states, with the
     // adjoint collection probability under light; the dead zone at short
@@ -621,6 +622,9 @@ namespace backcomb::postprocess
     summary["fields"]    = fields;
     summary["collection_map"] = collection_json;
     summary["dead_zone"]      = dead_zone_json;
+    summary["timings_s"]["light_assembly"]     = light_assembly;
+    summary["timings_s"]["light_linear_solve"] = light_solve;
+    summary["light_points"] = light.points.size();
     summary["timings_s"]["adjoint_per_solve"] =
       adjoint_solves > 0 ? json(adjoint_seconds / adjoint_solves) : json(nullptr);
     summary["timings_s"]["newton_step_light"] =

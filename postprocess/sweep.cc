@@ -12,7 +12,6 @@
 #include <nlohmann/json.hpp>
 
 #include <algorithm>
-#include <atomic>
 #include <chrono>
 #include <cmath>
 #include <condition_variable>
@@ -411,7 +410,10 @@ namespace backcomb::postprocess
           if (r.status != "failed")
             {
               r.collection_efficiency = number_at(s, "collection_efficiency");
-              r.dead_zone_fraction    = number_at(s, "dead_zone_fraction");
+              // The dead-zone area fraction of the absorber, where the case
+              // computed one (it needs the fields at short circuit).
+              if (s.contains("dead_zone") && s["dead_zone"].is_object())
+                r.dead_zone_fraction = number_at(s["dead_zone"], "area_fraction");
               if (s.contains("metrics") && s["metrics"].is_object())
                 {
                   const json &m = s["metrics"];
@@ -545,22 +547,23 @@ namespace backcomb::postprocess
 
     // Progress of this process's share. On a terminal (one process, not
     // quiet) a line that is redrawn every second; otherwise one line per
-    // finished case, for batch logs. The counts are of the whole plan, read
-    // from the case folders, so they include the cases of other ranks and
-    // tasks.
+    // finished case, for batch logs. The count of finished cases is of the
+    // whole plan, read from the case folders, so it includes the cases of
+    // other ranks and tasks; the estimate of the time left is this
+    // process's: its mean time per case times its cases still to run.
     class SweepProgress
     {
     public:
-      SweepProgress(const std::string &folder, const SweepPlan &plan, bool quiet, int n_processes,
-                    int rank)
+      SweepProgress(const std::string &folder, const SweepPlan &plan, std::size_t to_run, bool quiet,
+                    int n_processes, int rank)
         : folder(folder)
         , plan(plan)
         , quiet(quiet)
         , rank_tag(n_processes > 1 ? "rank " + std::to_string(rank) + ": " : "")
         , terminal(!quiet && n_processes == 1 && ::isatty(2))
         , start(std::chrono::steady_clock::now())
-        , done_at_start(count_finished(folder, plan))
-        , done(done_at_start)
+        , to_run(to_run)
+        , done(count_finished(folder, plan))
       {
         if (terminal)
           {
@@ -598,6 +601,7 @@ namespace backcomb::postprocess
       {
         std::lock_guard<std::mutex> lock(mutex);
         done    = count_finished(folder, plan);
+        ++computed;
         running = "";
         if (quiet)
           return;
@@ -629,17 +633,18 @@ namespace backcomb::postprocess
         return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
       }
 
-      // "elapsed 2m10s, about 3m00s left" from the rate of this run.
+      // "elapsed 2m10s, about 3m00s left" from this process's rate.
       std::string
       estimate() const
       {
-        std::string text = "elapsed " + duration_text(elapsed());
-        const std::size_t computed = done - done_at_start, left = plan.cases.size() - done;
+        std::string       text = "elapsed " + duration_text(elapsed());
+        const std::size_t left = to_run - std::min(computed, to_run);
         if (left == 0)
           return text;
         if (computed == 0)
           return text + ", estimate after the first case";
-        return text + ", about " + duration_text(elapsed() / computed * left) + " left";
+        return text + ", about " + duration_text(elapsed() / computed * left) + " left" +
+               (rank_tag.empty() ? "" : " for this rank");
       }
 
       void
@@ -670,8 +675,9 @@ namespace backcomb::postprocess
       const std::string                     rank_tag;
       const bool                            terminal;
       const std::chrono::steady_clock::time_point start;
-      const std::size_t                     done_at_start;
-      std::size_t                           done;
+      const std::size_t                     to_run; // by this process in this run
+      std::size_t                           done;   // finished cases of the whole plan
+      std::size_t                           computed = 0;
       std::string                           running;
       std::chrono::steady_clock::time_point running_since;
       int                                   terminal_fd = -1;
@@ -775,8 +781,10 @@ namespace backcomb::postprocess
              "neighbouring fingers of the same polarity (twice the simulated period width)\n"
           << "# metrics per footprint (the whole period) unless named _active (per active area, "
              "Device/Active area); collection_efficiency = Jsc / (q * generation integrated over the absorber)\n"
-          << "# an empty cell means not available: a failed or missing case, or a quantity not "
-             "computed (dead_zone_fraction)\n";
+          << "# dead_zone_fraction: absorber area fraction with collection probability below the "
+             "case's threshold (summary.json dead_zone)\n"
+          << "# an empty cell means not available: a failed or missing case, or a quantity the case "
+             "did not compute\n";
       csv << "case";
       for (const auto &e : plan.entries)
         csv << ',' << csv_field(entry_header(e));
@@ -880,8 +888,9 @@ namespace backcomb::postprocess
       std::vector<std::string> header;
       for (const auto &e : plan.entries)
         header.push_back(last_component(e.path) + (e.unit.empty() ? "" : " (" + e.unit + ")"));
-      const std::vector<std::string> metrics = {"pitch (um)", "collection", "Jsc (mA/cm2)", "Voc (V)", "FF",
-                                                "PCE (%)",    "PCE act (%)", "status"};
+      const std::vector<std::string> metrics = {"pitch (um)", "collection", "dead zone", "Jsc (mA/cm2)",
+                                                "Voc (V)",    "FF",         "PCE (%)",   "PCE act (%)",
+                                                "status"};
       header.insert(header.end(), metrics.begin(), metrics.end());
       std::vector<std::vector<std::string>> cells;
       auto fixed = [](const std::optional<double> &v, int digits) {
@@ -896,6 +905,7 @@ namespace backcomb::postprocess
           std::vector<std::string> row = r.values;
           row.push_back(fixed(std::isfinite(r.pitch_um) ? std::optional<double>(r.pitch_um) : std::nullopt, 1));
           row.push_back(fixed(r.collection_efficiency, 4));
+          row.push_back(fixed(r.dead_zone_fraction, 3));
           row.push_back(fixed(r.Jsc, 3));
           row.push_back(fixed(r.Voc, 4));
           row.push_back(fixed(r.FF, 4));
@@ -1124,9 +1134,11 @@ namespace backcomb::postprocess
         return true;
       return o.retry_failed && read_case_result(o.folder, c).status == "failed";
     };
-    std::size_t to_run = 0;
+    std::size_t to_run = 0, mine_to_run = 0;
     for (const auto i : share)
       to_run += needs_run(i);
+    for (const auto i : mine)
+      mine_to_run += needs_run(i);
     if (rank == 0 && !o.quiet)
       {
         std::printf("sweep: %zu cases", plan.cases.size());
@@ -1143,7 +1155,7 @@ namespace backcomb::postprocess
     int                code = exit_ok;
     std::exception_ptr error;
     {
-      SweepProgress progress(o.folder, plan, o.quiet, size, rank);
+      SweepProgress progress(o.folder, plan, mine_to_run, o.quiet, size, rank);
       try
         {
           for (const auto i : mine)
@@ -1373,7 +1385,8 @@ namespace backcomb::postprocess
     if (!quiet)
       {
         std::printf("\nPCE is per footprint (the whole period); 'PCE act' per active area; collection "
-                    "efficiency = Jsc / (q * integrated generation); pitch = w_e + w_h + 2 gap.\n"
+                    "efficiency = Jsc / (q * integrated generation);\n'dead zone' = absorber area fraction "
+                    "with collection probability below the threshold; pitch = w_e + w_h + 2 gap.\n"
                     "Model estimates for comparing designs, only as good as the material parameters.\n");
         std::printf("\nFiles in %s:\n  sweep.csv, sweep.json: the table above (sweep.json with the "
                     "recommendation)\n",

@@ -98,7 +98,7 @@ namespace backcomb::postprocess
 
       pls.vpor(0.13, 0.66, y_bottom, y_top);
       pls.wind(axes.x_lo, axes.x_hi, y_lo, y_hi);
-      const std::string x_options = axes.log_x ? "l" : "";
+      const std::string x_options = axes.log_x ? "lf" : ""; // log axis, fixed-point labels
 
       if (mark_best && d.range_from && d.range_to && *d.range_to > *d.range_from)
         {

@@ -333,7 +333,9 @@ TEST(SweepRun, FailingCasesAreRecordedAndOthersComplete)
   for (const auto &row : csv_rows(dir / "out" / "sweep.csv"))
     {
       if (row.rfind("Newton_iterations=1,", 0) == 0)
-        EXPECT_NE(row.find(",,,,,,,,"), std::string::npos) << row;
+        {
+          EXPECT_NE(row.find(",,,,,,,,"), std::string::npos) << row;
+        }
     }
 
   // The recommendation is made from the finished cases.
