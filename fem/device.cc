@@ -8,17 +8,6 @@
 
 namespace backcomb::fem
 {
-  namespace
-  {
-    std::string
-    str(const double v)
-    {
-      std::ostringstream s;
-      s << v;
-      return s.str();
-    }
-  } // namespace
-
   void
   ContactParameters::declare_parameters(dealii::ParameterHandler &prm,
                                         const std::string &section,
@@ -30,13 +19,13 @@ namespace backcomb::fem
                       "selective: the potential is set by the work function and each "
                       "carrier leaves with flux S (c - c0) at its own velocity; ohmic: "
                       "both quasi-Fermi levels are pinned to the contact (infinite velocities).");
-    declare_number(prm, "Work function", str(d.work_function),
+    declare_number(prm, "Work function", default_text(d.work_function),
                    "Contact work function in eV, 0..10; sets the equilibrium potential "
                    "(Schottky-Mott, no pinning) and the equilibrium densities at the contact.");
-    declare_number(prm, "Electron recombination velocity", str(d.S_n),
+    declare_number(prm, "Electron recombination velocity", default_text(d.S_n),
                    "Electron surface velocity S_n at the contact in cm/s, >= 0 "
                    "(0 = blocks electrons). Ignored when Model = ohmic.");
-    declare_number(prm, "Hole recombination velocity", str(d.S_p),
+    declare_number(prm, "Hole recombination velocity", default_text(d.S_p),
                    "Hole surface velocity S_p at the contact in cm/s, >= 0 "
                    "(0 = blocks holes). Ignored when Model = ohmic.");
     prm.leave_subsection();
@@ -59,11 +48,11 @@ namespace backcomb::fem
                                         const SurfaceParameters &d)
   {
     prm.enter_subsection(section);
-    declare_number(prm, "Electron recombination velocity", str(d.S_n),
+    declare_number(prm, "Electron recombination velocity", default_text(d.S_n),
                    "SRH surface recombination velocity S_n in cm/s, >= 0.");
-    declare_number(prm, "Hole recombination velocity", str(d.S_p),
+    declare_number(prm, "Hole recombination velocity", default_text(d.S_p),
                    "SRH surface recombination velocity S_p in cm/s, >= 0.");
-    declare_number(prm, "Trap level", str(d.trap_level),
+    declare_number(prm, "Trap level", default_text(d.trap_level),
                    "Surface trap energy in eV from midgap of the adjacent material, "
                    "|value| < E_g/2.");
     prm.leave_subsection();
@@ -84,17 +73,17 @@ namespace backcomb::fem
   {
     const NumericsParameters d;
     prm.enter_subsection("Numerics");
-    declare_number(prm, "Newton tolerance", str(d.tolerance),
+    declare_number(prm, "Newton tolerance", default_text(d.tolerance),
                    "Converged when the largest Newton update is below this, in units "
                    "of kT/q; 1e-14..1e-2.");
-    declare_number(prm, "Newton iterations", str(d.max_iterations),
+    declare_number(prm, "Newton iterations", default_text(d.max_iterations),
                    "Largest number of Newton steps per operating point, 1..1000.");
-    declare_number(prm, "Update limit", str(d.max_update),
+    declare_number(prm, "Update limit", default_text(d.max_update),
                    "Largest change of any potential per Newton step, in kT/q; 0.1..100.");
-    declare_number(prm, "Step halvings", str(d.max_halvings),
+    declare_number(prm, "Step halvings", default_text(d.max_halvings),
                    "How often a continuation step (light or bias) may be halved "
                    "before the operating point is reported as failed; 0..30.");
-    declare_number(prm, "Quadrature points", str(d.quadrature),
+    declare_number(prm, "Quadrature points", default_text(d.quadrature),
                    "Gauss points per cell direction, 2..5.");
     prm.leave_subsection();
   }

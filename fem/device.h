@@ -54,7 +54,7 @@ namespace backcomb::fem
     unsigned max_iterations = 60;
     double   max_update     = 4.0;   // kT/q per Newton step and unknown
     unsigned max_halvings   = 8;
-    unsigned quadrature     = 3;     // Gauss points per direction
+    unsigned quadrature     = 2;     // Gauss points per direction
 
     static void declare_parameters(dealii::ParameterHandler &prm);
     void parse_parameters(dealii::ParameterHandler &prm);

@@ -8,52 +8,41 @@
 
 namespace backcomb::fem
 {
-  namespace
-  {
-    std::string
-    str(const double v)
-    {
-      std::ostringstream s;
-      s << v;
-      return s.str();
-    }
-  } // namespace
-
   void
   Material::declare_parameters(dealii::ParameterHandler &prm,
                                const std::string &section,
                                const Material &d)
   {
     prm.enter_subsection(section);
-    declare_number(prm, "Band gap", str(d.band_gap), "Band gap E_g in eV, > 0 and <= 10.");
-    declare_number(prm, "Electron affinity", str(d.electron_affinity),
+    declare_number(prm, "Band gap", default_text(d.band_gap), "Band gap E_g in eV, > 0 and <= 10.");
+    declare_number(prm, "Electron affinity", default_text(d.electron_affinity),
                    "Electron affinity chi in eV (vacuum level to conduction band edge), 0..10.");
-    declare_number(prm, "Relative permittivity", str(d.permittivity),
+    declare_number(prm, "Relative permittivity", default_text(d.permittivity),
                    "Static relative permittivity, >= 1.");
-    declare_number(prm, "Conduction band density of states", str(d.Nc),
+    declare_number(prm, "Conduction band density of states", default_text(d.Nc),
                    "Effective density of states N_c in cm^-3, > 0.");
-    declare_number(prm, "Valence band density of states", str(d.Nv),
+    declare_number(prm, "Valence band density of states", default_text(d.Nv),
                    "Effective density of states N_v in cm^-3, > 0.");
-    declare_number(prm, "Electron mobility", str(d.mu_n), "mu_n in cm^2/(V s), > 0.");
-    declare_number(prm, "Hole mobility", str(d.mu_p), "mu_p in cm^2/(V s), > 0.");
-    declare_number(prm, "Donor density", str(d.donors),
+    declare_number(prm, "Electron mobility", default_text(d.mu_n), "mu_n in cm^2/(V s), > 0.");
+    declare_number(prm, "Hole mobility", default_text(d.mu_p), "mu_p in cm^2/(V s), > 0.");
+    declare_number(prm, "Donor density", default_text(d.donors),
                    "Ionised donor density N_D in cm^-3, >= 0.");
-    declare_number(prm, "Acceptor density", str(d.acceptors),
+    declare_number(prm, "Acceptor density", default_text(d.acceptors),
                    "Ionised acceptor density N_A in cm^-3, >= 0.");
-    declare_number(prm, "Electron lifetime", str(d.tau_n),
+    declare_number(prm, "Electron lifetime", default_text(d.tau_n),
                    "SRH electron lifetime tau_n in s, > 0.");
-    declare_number(prm, "Hole lifetime", str(d.tau_p), "SRH hole lifetime tau_p in s, > 0.");
-    declare_number(prm, "Trap level", str(d.trap_level),
+    declare_number(prm, "Hole lifetime", default_text(d.tau_p), "SRH hole lifetime tau_p in s, > 0.");
+    declare_number(prm, "Trap level", default_text(d.trap_level),
                    "SRH trap energy in eV measured from midgap (positive towards the "
                    "conduction band), |value| < E_g/2.");
-    declare_number(prm, "Radiative coefficient", str(d.B_rad),
+    declare_number(prm, "Radiative coefficient", default_text(d.B_rad),
                    "Band-to-band radiative coefficient B in cm^3/s, >= 0.");
-    declare_number(prm, "Photon recycling probability", str(d.photon_recycling),
+    declare_number(prm, "Photon recycling probability", default_text(d.photon_recycling),
                    "Fraction of radiative events re-absorbed in the film, 0..1 "
                    "(the net radiative rate is (1 - P_r) B (np - n_i^2)).");
-    declare_number(prm, "Auger electron coefficient", str(d.C_n),
+    declare_number(prm, "Auger electron coefficient", default_text(d.C_n),
                    "Auger coefficient C_n (n n p process) in cm^6/s, >= 0.");
-    declare_number(prm, "Auger hole coefficient", str(d.C_p),
+    declare_number(prm, "Auger hole coefficient", default_text(d.C_p),
                    "Auger coefficient C_p (n p p process) in cm^6/s, >= 0.");
     prm.leave_subsection();
   }
@@ -81,7 +70,7 @@ namespace backcomb::fem
     if (!(std::abs(trap_level) < 0.5 * band_gap))
       throw InputError(section + "/Trap level", prm.get("Trap level"),
                        "must lie inside the gap: |level| < Band gap/2 = " +
-                         str(0.5 * band_gap) + " eV");
+                         default_text(0.5 * band_gap) + " eV");
     prm.leave_subsection();
   }
 

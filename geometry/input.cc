@@ -117,3 +117,14 @@ namespace backcomb
     return static_cast<unsigned>(v);
   }
 } // namespace backcomb
+
+namespace backcomb
+{
+  std::string
+  default_text(const double value)
+  {
+    std::ostringstream s;
+    s << value;
+    return s.str();
+  }
+} // namespace backcomb

@@ -71,6 +71,10 @@ namespace backcomb
                    unsigned lo,
                    unsigned hi);
 
+  // A number as the default text of a case-file entry.
+  std::string
+  default_text(double value);
+
   // Declares a double entry with a documentation string that states unit
   // and range; the pattern admits any finite number so that the semantic
   // checks above produce the error (with the entry's name and value).
