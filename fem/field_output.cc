@@ -31,7 +31,8 @@ namespace backcomb::fem
         return {"potential_V",    "quasi_fermi_n_eV", "quasi_fermi_p_eV", "n_per_cm3",
                 "p_per_cm3",      "J_n_mA_per_cm2",   "J_n_mA_per_cm2",   "J_p_mA_per_cm2",
                 "J_p_mA_per_cm2", "J_mA_per_cm2",     "J_mA_per_cm2",     "field_V_per_cm",
-                "G_per_cm3_s",    "R_per_cm3_s"};
+                "G_per_cm3_s",    "R_per_cm3_s",      "R_srh_per_cm3_s",  "R_radiative_per_cm3_s",
+                "R_auger_per_cm3_s"};
       }
 
       std::vector<DataComponentInterpretation::DataComponentInterpretation>
@@ -40,7 +41,7 @@ namespace backcomb::fem
         using I = DataComponentInterpretation::DataComponentInterpretation;
         const I s = DataComponentInterpretation::component_is_scalar;
         const I v = DataComponentInterpretation::component_is_part_of_vector;
-        return {s, s, s, s, s, v, v, v, v, v, v, s, s, s};
+        return {s, s, s, s, s, v, v, v, v, v, v, s, s, s, s, s, s};
       }
 
       UpdateFlags
@@ -62,9 +63,16 @@ namespace backcomb::fem
             const auto  &g = in.solution_gradients[q];
             const double n = std::exp(u[0] - u[1] + r.a_n);
             const double p = std::exp(u[2] - u[0] + r.a_p);
-            Rate         k;
+            // Total and per channel (a channel a region lacks reads 0).
+            Rate   k;
+            double channel[3] = {0, 0, 0};
             for (const auto &ch : r.channels)
-              k.R += ch->rate(n, p).R;
+              {
+                const double rate = ch->rate(n, p).R;
+                k.R += rate;
+                const std::string name = ch->name();
+                channel[name == "srh" ? 0 : name == "radiative" ? 1 : 2] += rate;
+              }
             const Tensor<1, 2> Jn = -r.mu_n * n * g[1] * s.J0;
             const Tensor<1, 2> Jp = -r.mu_p * p * g[2] * s.J0;
             auto &o = out[q];
@@ -80,6 +88,8 @@ namespace backcomb::fem
             const auto &x = in.evaluation_points[q];
             o(12) = (r.absorber && device.generation) ? light * device.generation(x[0], x[1]) : 0.0;
             o(13) = k.R * s.R0;
+            for (unsigned c = 0; c < 3; ++c)
+              o(14 + c) = channel[c] * s.R0;
           }
       }
 

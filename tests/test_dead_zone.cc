@@ -119,7 +119,8 @@ TEST(DeadZone, VtkAreaMatchesDirectQuadrature)
   vtkPointData *pd = reader->GetOutput()->GetPointData();
   for (const char *name : {"potential_V", "quasi_fermi_n_eV", "quasi_fermi_p_eV", "n_per_cm3", "p_per_cm3",
                            "J_n_mA_per_cm2", "J_p_mA_per_cm2", "J_mA_per_cm2", "field_V_per_cm",
-                           "G_per_cm3_s", "R_per_cm3_s", "collection_probability", "dead_zone_mask"})
+                           "G_per_cm3_s", "R_per_cm3_s", "R_srh_per_cm3_s", "R_radiative_per_cm3_s",
+                           "R_auger_per_cm3_s", "collection_probability", "dead_zone_mask"})
     ASSERT_NE(pd->GetArray(name), nullptr) << name;
   double range[2];
   pd->GetArray("collection_probability")->GetRange(range);
