@@ -30,12 +30,6 @@ namespace backcomb::fem
     // Component numbers of the unknowns.
     constexpr unsigned c_psi = 0, c_phin = 1, c_phip = 2;
 
-    ComponentMask
-    mask_of(const bool psi, const bool phin, const bool phip)
-    {
-      return ComponentMask(std::vector<bool>{psi, phin, phip});
-    }
-
     // PETSc error codes become exceptions (caught as failed solves).
     void
     check(const PetscErrorCode code, const char *what)

@@ -76,7 +76,9 @@ TEST(Pipeline, MeshPreviewReadsBack)
   vtkDataArray *region = grid->GetCellData()->GetArray("region_id");
   for (vtkIdType i = 0; i < grid->GetNumberOfCells(); ++i)
     if (grid->GetCellType(i) == 9)
-      ASSERT_EQ(region->GetTuple1(i), 1.0);
+      {
+        ASSERT_EQ(region->GetTuple1(i), 1.0);
+      }
   fs::remove_all(dir);
 }
 

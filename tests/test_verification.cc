@@ -136,7 +136,9 @@ TEST(Conservation, ContactCurrentsAgreeAndShortCircuitBound)
       std::printf("tau = %g s: Jsc = %.6f mA/cm2, q int G = %.6f mA/cm2\n", tau, Jsc, generated);
       EXPECT_LE(Jsc, generated * (1 + 1e-9));
       if (tau == 1.0)
-        EXPECT_NEAR(Jsc / generated, 1.0, 1e-3);
+        {
+          EXPECT_NEAR(Jsc / generated, 1.0, 1e-3);
+        }
       for (const double V : {0.0, 0.3, 0.6, 0.9, 1.1})
         {
           ASSERT_TRUE(move_to(solver, V, 1.0, 8).converged);
