@@ -5,6 +5,8 @@
 #pragma once
 
 #include "geometry/ids.h"
+#include "geometry/parameters.h"
+#include "geometry/period_mesh.h"
 
 #include <deal.II/grid/grid_generator.h>
 #include <deal.II/grid/tria.h>
@@ -95,5 +97,23 @@ namespace backcomb::test_support
     dealii::GridGenerator::subdivided_hyper_rectangle(
       tria, {dx, std::vector<double>{t}}, dealii::Point<2>(0, 0), dealii::Point<2>(L, t));
     set_strip_ids(tria, L, t, xj);
+  }
+
+  // A small comb period through the Gmsh stage: fingers 2 um, gap 4 um,
+  // film 0.4 um, coarse grading (5 nm cells, ratio 1.4).
+  inline void
+  make_small_period(dealii::Triangulation<2> &tria, const double largest_lateral_cell_um)
+  {
+    geometry::GeometryParameters g;
+    g.electron_finger_width_um = 2;
+    g.hole_finger_width_um     = 2;
+    g.gap_um                   = 4;
+    g.absorber_thickness_um    = 0.4;
+    geometry::MeshParameters mesh;
+    mesh.smallest_cell_nm         = 5;
+    mesh.growth_ratio             = 1.4;
+    mesh.largest_lateral_cell_um  = largest_lateral_cell_um;
+    mesh.largest_vertical_cell_nm = 40;
+    geometry::build_triangulation(g, mesh, tria);
   }
 } // namespace backcomb::test_support

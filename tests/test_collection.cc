@@ -102,17 +102,7 @@ namespace
     ContactParameters        e, h;
     PeriodCase()
     {
-      geometry::GeometryParameters g;
-      g.electron_finger_width_um = 2;
-      g.hole_finger_width_um     = 2;
-      g.gap_um                   = 4;
-      g.absorber_thickness_um    = 0.4;
-      geometry::MeshParameters mesh;
-      mesh.smallest_cell_nm         = 5;
-      mesh.growth_ratio             = 1.4;
-      mesh.largest_lateral_cell_um  = 0.25;
-      mesh.largest_vertical_cell_nm = 40;
-      geometry::build_triangulation(g, mesh, tria);
+      test_support::make_small_period(tria, 0.25);
       m.tau_n = m.tau_p = 2e-8;
       e.work_function = 4.0, e.S_n = 1e7, e.S_p = 10;
       h.work_function = 5.4, h.S_n = 10, h.S_p = 1e7;
@@ -149,10 +139,6 @@ TEST(CollectionProbability, AdjointMatchesFiniteDifferences)
   PeriodCase pc;
   const double bias = 0.3;
   pc.current(nullptr, 0.0, bias);
-  // f_c at a point: interpolate the nodal field (Q1) with FEFieldFunction-
-  // free code: the spot integral is evaluated by quadrature below instead.
-  DeviceModel dummy(300, {{ids::absorber, pc.m}}, {ids::absorber}, pc.e, pc.h, SurfaceParameters(),
-                    SurfaceParameters(), nullptr);
   const Spot spots[] = {{1.0 + 2.0, 0.2},  // gap centre
                         {1.05, 0.05},      // near the electron finger edge
                         {4.95, 0.05},      // near the hole finger edge
@@ -162,9 +148,8 @@ TEST(CollectionProbability, AdjointMatchesFiniteDifferences)
     {
       const double a  = 1e21;
       const double Ip = pc.current(&s, a, bias), Im = pc.current(&s, -a, bias);
-      // int (dG) dA per footprint width in the solver's current units:
-      // q * a * pi * w^2 / width (Gaussian, fully inside or cut by the
-      // bottom/top boundary: use quadrature of the actual mesh instead).
+      // int f_c dG dA by the solver's own quadrature: a solver whose
+      // generation is the spot alone, set to the unperturbed state.
       DeviceModel spot_only(300, {{ids::absorber, pc.m}}, {ids::absorber}, pc.e, pc.h,
                             SurfaceParameters(), SurfaceParameters(), [&](double x, double y) {
                               return a * std::exp(-((x - s.x) * (x - s.x) + (y - s.y) * (y - s.y)) / (0.15 * 0.15));

@@ -122,6 +122,26 @@ namespace
       m.B_rad    = B;
       return m;
     }
+    // Graded strip, junction at xj.
+    void mesh(dealii::Triangulation<2> &tria) const
+    {
+      test_support::make_strip(tria, L, 1.0, xj, 0.002, 1.1, 0.5);
+    }
+    // Ohmic contacts whose work functions match each side's Fermi level.
+    ContactParameters p_contact() const
+    {
+      const Material    m = p_side();
+      ContactParameters c = ohmic_contact();
+      c.work_function     = m.electron_affinity + m.band_gap - Vt * std::log(m.Nv / N);
+      return c;
+    }
+    ContactParameters n_contact() const
+    {
+      const Material    m = n_side();
+      ContactParameters c = ohmic_contact();
+      c.work_function     = m.electron_affinity + Vt * std::log(m.Nc / N);
+      return c;
+    }
   };
 } // namespace
 
@@ -134,14 +154,12 @@ TEST(PnJunction, BuiltInPotentialAndDepletionWidth)
 {
   const Junction j;
   dealii::Triangulation<2> tria;
-  test_support::make_strip(tria, j.L, 1.0, j.xj, 0.002, 1.1, 0.5);
+  j.mesh(tria);
   const Material mp = j.p_side(), mn = j.n_side();
   const double   ni = std::sqrt(mp.Nc * mp.Nv) * std::exp(-mp.band_gap / (2 * Vt));
   // Hole contact (right end) sits on the n side here: use ohmic contacts
   // whose work functions match each side's Fermi level.
-  ContactParameters left = ohmic_contact(), right = ohmic_contact();
-  left.work_function  = mp.electron_affinity + mp.band_gap - Vt * std::log(mp.Nv / j.N);
-  right.work_function = mn.electron_affinity + Vt * std::log(mn.Nc / j.N);
+  const ContactParameters left = j.p_contact(), right = j.n_contact();
   // Assign the left region p-type material.
   DeviceModel dev(T, {{ids::absorber, mp}, {ids::absorber_right, mn}}, {}, left, right,
                   SurfaceParameters(), SurfaceParameters(), nullptr);
@@ -198,11 +216,9 @@ TEST(PnJunction, IdealDiodeLaw)
 {
   const Junction j;
   dealii::Triangulation<2> tria;
-  test_support::make_strip(tria, j.L, 1.0, j.xj, 0.002, 1.1, 0.5);
+  j.mesh(tria);
   const Material mp = j.p_side(), mn = j.n_side();
-  ContactParameters left = ohmic_contact(), right = ohmic_contact();
-  left.work_function  = mp.electron_affinity + mp.band_gap - Vt * std::log(mp.Nv / j.N);
-  right.work_function = mn.electron_affinity + Vt * std::log(mn.Nc / j.N);
+  const ContactParameters left = j.p_contact(), right = j.n_contact();
   // The p side must be at the hole contact for forward bias V > 0:
   // mirror the strip so that acceptors are on the right.
   DeviceModel dev(T, {{ids::absorber, mn}, {ids::absorber_right, mp}}, {}, right, left,
@@ -365,11 +381,9 @@ TEST(SolarCell, IdealDiodeFillFactorFollowsGreen)
 {
   const Junction j;
   dealii::Triangulation<2> tria;
-  test_support::make_strip(tria, j.L, 1.0, j.xj, 0.002, 1.1, 0.5);
+  j.mesh(tria);
   const Material mp = j.p_side(), mn = j.n_side();
-  ContactParameters left = ohmic_contact(), right = ohmic_contact();
-  left.work_function  = mp.electron_affinity + mp.band_gap - Vt * std::log(mp.Nv / j.N);
-  right.work_function = mn.electron_affinity + Vt * std::log(mn.Nc / j.N);
+  const ContactParameters left = j.p_contact(), right = j.n_contact();
   const double G = 1e20; // cm^-3 s^-1: V_oc ~ 0.4 V, low injection
   DeviceModel dev(T, {{ids::absorber, mn}, {ids::absorber_right, mp}}, {ids::absorber, ids::absorber_right},
                   right, left, SurfaceParameters(), SurfaceParameters(), [G](double, double) { return G; });

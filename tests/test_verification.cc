@@ -90,26 +90,6 @@ TEST(ManufacturedSolution, PoissonConvergesWithSecondOrder)
     }
 }
 
-namespace
-{
-  // A small comb period with selective contacts (as in the demo, smaller).
-  void
-  small_period(dealii::Triangulation<2> &tria)
-  {
-    geometry::GeometryParameters g;
-    g.electron_finger_width_um = 2;
-    g.hole_finger_width_um     = 2;
-    g.gap_um                   = 4;
-    g.absorber_thickness_um    = 0.4;
-    geometry::MeshParameters mesh;
-    mesh.smallest_cell_nm         = 5;
-    mesh.growth_ratio             = 1.4;
-    mesh.largest_lateral_cell_um  = 0.5;
-    mesh.largest_vertical_cell_nm = 40;
-    geometry::build_triangulation(g, mesh, tria);
-  }
-} // namespace
-
 // Charge conservation: the currents through both contacts agree at every
 // bias (steady state, no other current path); at short circuit J_sc <=
 // q int G, and J_sc -> q int G for very long lifetimes with contacts that
@@ -117,7 +97,7 @@ namespace
 TEST(Conservation, ContactCurrentsAgreeAndShortCircuitBound)
 {
   dealii::Triangulation<2> tria;
-  small_period(tria);
+  test_support::make_small_period(tria, 0.5);
   for (const double tau : {1e-7, 1.0})
     {
       Material m;
