@@ -27,6 +27,7 @@
 #include <mpi.h>
 #include <petscksp.h>
 
+#include <map>
 #include <memory>
 #include <string>
 #include <vector>
@@ -58,6 +59,44 @@ namespace backcomb::fem
     double electron_contact_hole     = 0;
   };
 
+  // Free-energy balance of one operating point (R. Brendel,
+  // S. Dreissigacker, N.-P. Harder, P. P. Altermatt, Appl. Phys. Lett. 93
+  // (2008) 173503), in mW/cm^2 of the footprint. Multiplying the discrete
+  // electron and hole equations by the nodal quasi-Fermi potentials and
+  // adding them gives, exactly for the Galerkin solution,
+  //   q int G dmu = P_out + q int R dmu + q oint U_s dmu + Joule_n + Joule_p
+  //                 + contact terms,
+  // with dmu = E_Fn - E_Fp the quasi-Fermi-level splitting, Joule_n =
+  // int |J_n|^2 / (q mu_n n), and for selective contacts the free energy
+  // that each carrier gives up crossing the contact, (E_F,carrier -
+  // E_F,metal) times its particle flux. At an ohmic contact both
+  // quasi-Fermi levels equal the metal's, so these terms vanish there and
+  // the minority carriers' loss appears as Joule heat next to the contact.
+  struct PowerBalance
+  {
+    double bias_V  = 0;
+    double current = 0;                // mA/cm^2, generator convention
+    double input   = 0;                // q int G dmu
+    double band_edge_input = 0;        // q int G E_g: what dmu could be at most
+    double output  = 0;                // V J
+    std::map<std::string, double> bulk_recombination; // per channel, all regions
+    double top_surface   = 0;          // q oint U_s dmu
+    double gap_interface = 0;
+    double joule_electrons = 0;        // in the absorber
+    double joule_holes     = 0;
+    double joule_interlayers = 0;      // both carriers, all interlayers
+    // contact[k][c]: k = 0 electron contact, 1 hole contact; c = 0
+    // electrons, 1 holes.
+    double contact[2][2] = {{0, 0}, {0, 0}};
+
+    double recombination() const;      // bulk + surfaces
+    double joule() const { return joule_electrons + joule_holes + joule_interlayers; }
+    double contacts() const { return contact[0][0] + contact[0][1] + contact[1][0] + contact[1][1]; }
+    double losses() const { return recombination() + joule() + contacts(); }
+    // What the terms leave unexplained: input - output - losses.
+    double residual() const { return input - output - losses(); }
+  };
+
   class DriftDiffusionSolver
   {
   public:
@@ -86,6 +125,9 @@ namespace backcomb::fem
     // total generation and total recombination (bulk + surfaces + contacts
     // for minority carriers).
     double generation_current() const;
+
+    // Free-energy balance of the current state (see PowerBalance).
+    PowerBalance power_balance() const;
 
     double voltage() const { return bias; }
     double light() const { return light_factor; }

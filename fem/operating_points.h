@@ -30,6 +30,24 @@ namespace backcomb::fem
   // ..., 1) times `light`, at zero bias.
   StepReport illuminate(DriftDiffusionSolver &solver, double light, unsigned max_halvings);
 
+  // The voltage where the terminal current vanishes at light factor
+  // `light`, found by the secant method from the solver's current state
+  // (best near open circuit at a neighbouring light level) and a second
+  // guess `v_guess`, to `tolerance_V`. Leaves the solver there when it
+  // converges.
+  struct OpenCircuit
+  {
+    bool        converged = false;
+    double      voltage   = 0;
+    unsigned    newton_iterations = 0;
+    std::string diagnostic;
+  };
+  OpenCircuit find_open_circuit(DriftDiffusionSolver &solver,
+                                double light,
+                                double v_guess,
+                                unsigned max_halvings,
+                                double tolerance_V = 1e-5);
+
   struct JVPoint
   {
     double   voltage   = 0; // V

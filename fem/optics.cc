@@ -582,6 +582,24 @@ namespace backcomb::fem
            (1 - optics.front_reflectance) * integrate_trapezoid(w, integrand);
   }
 
+  double
+  beer_lambert_absorbed_power(const AboveGapSpectrum &above_gap,
+                              const BeerLambert      &optics)
+  {
+    const auto         &w = above_gap.wavelength_nm;
+    const double        t = 1e-4 * optics.thickness_um;
+    std::vector<double> integrand(w.size());
+    for (std::size_t i = 0; i < w.size(); ++i)
+      {
+        const double transmitted = std::exp(-above_gap.alpha_per_cm[i] * t);
+        integrand[i] = photon_energy_eV(w[i]) * above_gap.photon_flux[i] *
+                       (1 - transmitted) *
+                       (1 + optics.back_reflectance * transmitted);
+      }
+    return 1e3 * constants::q * optics.intensity_suns *
+           (1 - optics.front_reflectance) * integrate_trapezoid(w, integrand);
+  }
+
   // ----------------------------------------------------------- case file
 
   IlluminationParameters::IlluminationParameters()
@@ -752,6 +770,15 @@ namespace backcomb::fem
                                      parameters.back_reflectance};
             photon_current_  = suns * photon_current_mA_per_cm2(above);
             absorbed_current_ = beer_lambert_absorbed_current(above, optics);
+            OpticalBudget b;
+            // W/m^2 to mW/cm^2: 0.1.
+            b.incident  = 0.1 * suns *
+                         integrate_trapezoid(spectrum.wavelength_nm,
+                                             spectrum.irradiance);
+            b.reflected = parameters.front_reflectance * b.incident;
+            b.absorbed  = beer_lambert_absorbed_power(above, optics);
+            b.absorbed_current = absorbed_current_;
+            column_budget_     = b;
 
             // Linear interpolation of e^{-alpha d} on a step h errs by at
             // most (alpha h)^2 / 8 relative; alpha h <= 0.02 keeps every
@@ -836,6 +863,20 @@ namespace backcomb::fem
     // the bottom y = 0, through the fingers where there are fingers.
     const double depth = from_substrate_ ? y_um : thickness_um_ - y_um;
     return finger_factor(x_um) * rate_at_depth(depth);
+  }
+
+  std::optional<OpticalBudget>
+  Generation::optical_budget() const
+  {
+    if (!column_budget_)
+      return std::nullopt;
+    // The fingers take their share of what enters the substrate side.
+    OpticalBudget b     = *column_budget_;
+    const double  T     = period_average_transmittance();
+    b.shaded            = (1 - T) * (b.incident - b.reflected);
+    b.absorbed         *= T;
+    b.absorbed_current *= T;
+    return b;
   }
 
   double

@@ -145,6 +145,25 @@ namespace backcomb::fem
   beer_lambert_absorbed_current(const AboveGapSpectrum &above_gap,
                                 const BeerLambert      &optics);
 
+  // Absorbed power in mW/cm^2 (photon energy times absorbed photon flux,
+  // same passes as beer_lambert_absorbed_current).
+  double
+  beer_lambert_absorbed_power(const AboveGapSpectrum &above_gap,
+                              const BeerLambert      &optics);
+
+  // Where the incident power goes before it becomes electron-hole pairs,
+  // averaged over the period footprint, in mW/cm^2.
+  struct OpticalBudget
+  {
+    double incident  = 0; // the whole spectrum times the intensity
+    double reflected = 0; // front reflectance
+    double shaded    = 0; // absorbed or reflected by the fingers
+    double absorbed  = 0; // in the absorber, photon energy included
+    double absorbed_current = 0; // mA/cm^2
+    // Below-gap light, and above-gap light leaving unabsorbed.
+    double not_absorbed() const { return incident - reflected - shaded - absorbed; }
+  };
+
   // --------------------------------------------------------- case file
 
   // Section "Illumination" of the case file.
@@ -258,6 +277,11 @@ namespace backcomb::fem
     double
     period_average_transmittance() const;
 
+    // The optical side of the power balance; only the spectrum model knows
+    // the incident power.
+    std::optional<OpticalBudget>
+    optical_budget() const;
+
   private:
     double
     finger_factor(double x_um) const;
@@ -270,5 +294,7 @@ namespace backcomb::fem
     std::vector<double>   profile_;
     double                absorbed_current_ = 0;
     std::optional<double> photon_current_;
+    // Per unshadowed column (spectrum model).
+    std::optional<OpticalBudget> column_budget_;
   };
 } // namespace backcomb::fem

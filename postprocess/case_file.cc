@@ -197,6 +197,10 @@ namespace backcomb::postprocess
     declare_number(prm, "Maximum power point resolution", "0.002",
                    "Bias step in V to which the sweep is refined around the maximum power "
                    "point, 1e-5..1.");
+    prm.declare_entry("Suns-Voc intensities", "1, 0.3, 0.1, 0.03, 0.01", dealii::Patterns::Anything(),
+                      "Comma-separated light levels, as fractions of the Illumination "
+                      "intensity in (0, 1], at which the open-circuit voltage is found for "
+                      "the suns-Voc pseudo J-V and the series resistance; empty: none.");
     prm.leave_subsection();
 
     prm.enter_subsection("Output");
@@ -211,6 +215,10 @@ namespace backcomb::postprocess
     declare_number(prm, "Dead zone threshold", "0.5",
                    "Collection probability below which absorber is counted as dead "
                    "zone (at short circuit), 0..1 exclusive.");
+    prm.declare_entry("Loss biases", "", dealii::Patterns::Anything(),
+                      "Comma-separated biases in V (within the J-V sweep) at which the power "
+                      "balance is reported besides short circuit, maximum power point and "
+                      "open circuit; empty: none.");
     prm.leave_subsection();
   }
 
@@ -334,6 +342,14 @@ namespace backcomb::postprocess
         if (!(c.jv.stop > c.jv.start))
           throw InputError("J-V sweep/Stop voltage", prm.get("Stop voltage"),
                            "must be larger than Start voltage = " + prm.get("Start voltage"));
+        c.jv.suns_voc = parse_list("J-V sweep/Suns-Voc intensities", prm.get("Suns-Voc intensities"));
+        for (const double v : c.jv.suns_voc)
+          if (!(v > 0 && v <= 1))
+            throw InputError("J-V sweep/Suns-Voc intensities", prm.get("Suns-Voc intensities"),
+                             "every light level must lie in (0, 1]");
+        if (c.jv.suns_voc.size() > 50)
+          throw InputError("J-V sweep/Suns-Voc intensities", prm.get("Suns-Voc intensities"),
+                           "at most 50 light levels");
         if ((c.jv.stop - c.jv.start) / c.jv.step > 20000)
           throw InputError("J-V sweep/Voltage step", prm.get("Voltage step"),
                            "gives more than 20000 biases");
@@ -349,6 +365,11 @@ namespace backcomb::postprocess
         for (const double v : c.output.field_biases)
           if (v < c.jv.start - 1e-12 || v > c.jv.stop + 1e-12)
             throw InputError("Output/Field biases", prm.get("Field biases"),
+                             "every bias must lie within the J-V sweep [Start, Stop voltage]");
+        c.output.loss_biases = parse_list("Output/Loss biases", prm.get("Loss biases"));
+        for (const double v : c.output.loss_biases)
+          if (v < c.jv.start - 1e-12 || v > c.jv.stop + 1e-12)
+            throw InputError("Output/Loss biases", prm.get("Loss biases"),
                              "every bias must lie within the J-V sweep [Start, Stop voltage]");
         prm.leave_subsection();
 

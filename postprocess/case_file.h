@@ -31,6 +31,9 @@ namespace backcomb::postprocess
     bool   reverse      = false;  // sweep from stop to start
     bool   dark         = true;   // also a dark J-V
     double refine_to    = 0.002;  // V, step near the maximum power point
+    // Light factors (of the case's intensity) at which V_oc is found for
+    // the suns-V_oc pseudo J-V; empty: none.
+    std::vector<double> suns_voc{1.0, 0.3, 0.1, 0.03, 0.01};
   };
 
   // Section "Output".
@@ -40,6 +43,7 @@ namespace backcomb::postprocess
     bool                fields = true;
     std::vector<double> field_biases{0.0}; // V at which fields are written
     double              dead_zone_threshold = 0.5; // f_c below this is dead
+    std::vector<double> loss_biases;       // V, power balance besides SC, MPP, OC
   };
 
   struct Case

@@ -1,6 +1,7 @@
 #include "postprocess/pipeline.h"
 
 #include "postprocess/dead_zone.h"
+#include "postprocess/losses.h"
 
 #include "fem/drift_diffusion.h"
 #include "fem/operating_points.h"
@@ -579,6 +580,68 @@ namespace backcomb::postprocess
           }
       }
 
+    // Where the power goes: the balance at short circuit, the maximum power
+    // point, open circuit and the requested biases, from the stored states
+    // (or a solve from the nearest one).
+    std::vector<LossPoint> loss_points;
+    std::vector<std::pair<double, double>> suns_voc; // (light factor, V_oc)
+    const auto t_losses = std::chrono::steady_clock::now();
+    if (lit && on.converged)
+      {
+        const fem::JVMetrics m0 = fem::jv_metrics(converged_curve(light));
+        auto balance_at = [&](const std::string &name, const double v) {
+          const auto stored = std::find_if(light.points.begin(), light.points.end(), [v](const Point &p) {
+            return p.jv.converged && std::abs(p.jv.voltage - v) < 1e-9;
+          });
+          if (stored != light.points.end())
+            solver.set_state(stored->state, v, 1.0);
+          else if (!solve_near(solver, light, v, 1.0, c.numerics.max_halvings))
+            {
+              light.failures.push_back("power balance at " + name + " (" + bias_name(v) +
+                                       " V): no converged state");
+              return;
+            }
+          loss_points.push_back({name, solver.power_balance()});
+        };
+        if (m0.valid)
+          {
+            const auto curve = converged_curve(light);
+            const auto best  = std::max_element(curve.begin(), curve.end(), [](const auto &a, const auto &b) {
+              return a.voltage * a.current < b.voltage * b.current;
+            });
+            balance_at("short_circuit", 0.0);
+            balance_at("max_power", best->voltage);
+            balance_at("open_circuit", m0.Voc);
+          }
+        for (const double v : c.output.loss_biases)
+          balance_at("bias_" + bias_name(v), v);
+
+        // Suns-V_oc: open circuit at decreasing light, each from the last.
+        std::vector<double> levels = c.jv.suns_voc;
+        std::sort(levels.rbegin(), levels.rend());
+        if (m0.valid && !levels.empty() && solve_near(solver, light, m0.Voc, 1.0, c.numerics.max_halvings))
+          {
+            double previous = 1.0;
+            for (const double s : levels)
+              {
+                // Ideal-diode guess for the next V_oc: kT/q ln of the light ratio.
+                const double guess = solver.voltage() + device.scaling.Vt * std::log(s / previous) +
+                                     (s == previous ? 1e-3 : 0.0);
+                const fem::OpenCircuit oc =
+                  fem::find_open_circuit(solver, s, guess, c.numerics.max_halvings);
+                light.newton += oc.newton_iterations;
+                if (!oc.converged)
+                  {
+                    light.failures.push_back("suns-Voc at light factor " + number(s) + ": " + oc.diagnostic);
+                    break;
+                  }
+                suns_voc.emplace_back(s, oc.voltage);
+                previous = s;
+              }
+          }
+      }
+    const double t_loss = seconds_since(t_losses);
+
     // Dark J-V over the same biases.
     Sweep      dark;
     const auto t_dark = std::chrono::steady_clock::now();
@@ -643,10 +706,30 @@ namespace backcomb::postprocess
     csv << "voltage_V,J_light_mA_per_cm2,J_dark_mA_per_cm2\n";
     for (const auto &[k, r] : rows)
       csv << number(k * 1e-7) << ',' << r.first << ',' << r.second << '\n';
+    const std::optional<fem::OpticalBudget> optics = generation.optical_budget();
+    summary["losses"] = loss_points.empty() ? json(nullptr) : losses_json(loss_points, optics);
+    summary["suns_voc"] = json::array();
+    for (const auto &[s, v] : suns_voc)
+      summary["suns_voc"].push_back({{"light_factor", s}, {"Voc_V", v}});
+    summary["timings_s"]["losses_and_suns_voc"] = t_loss;
     summary["processes"] = dealii::Utilities::MPI::n_mpi_processes(o.communicator);
     const int code = status == "failed" ? exit_no_convergence : exit_ok;
     if (!root)
       return code;
+    std::vector<std::string> plot_warnings;
+    if (!loss_points.empty())
+      {
+        write_file_atomically(o.folder + "/losses.csv", losses_csv(loss_points, optics, width));
+        const auto mpp = std::find_if(loss_points.begin(), loss_points.end(),
+                                      [](const LossPoint &p) { return p.name == "max_power"; });
+        if (mpp != loss_points.end())
+          write_loss_chart(*mpp, optics,
+                           "Where the power goes at the maximum power point (" + bias_name(mpp->balance.bias_V) +
+                             " V)",
+                           o.folder + "/losses", plot_warnings);
+      }
+    for (const auto &w : plot_warnings)
+      std::fprintf(stderr, "backcomb: %s\n", w.c_str());
     write_file_atomically(o.folder + "/jv.csv", csv.str());
     write_file_atomically(o.folder + "/summary.json", summary.dump(2) + "\n");
 
@@ -658,6 +741,15 @@ namespace backcomb::postprocess
                   generated > 0 ? m.Jsc / generated : 0.0);
     else if (lit)
       std::printf("J-V metrics not available: the light J-V did not converge where they are needed\n");
+    for (const auto &p : loss_points)
+      if (p.name == "max_power")
+        {
+          const LossSplit ls = loss_split(p.balance);
+          std::printf("at the maximum power point (mW/cm2): recombination %.3f, film Joule %.3f, contacts %.3f, "
+                      "output %.3f; balance residual %.1e of the input\n",
+                      ls.recombination, ls.film_joule, ls.contacts, p.balance.output,
+                      p.balance.input != 0 ? p.balance.residual() / p.balance.input : 0.0);
+        }
     for (const auto &f : summary["failures"])
       std::fprintf(stderr, "backcomb: %s\n", f.get<std::string>().c_str());
     std::printf("status %s; wrote %s/jv.csv, %s/summary.json%s\n", status.c_str(), o.folder.c_str(),

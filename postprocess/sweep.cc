@@ -414,6 +414,14 @@ namespace backcomb::postprocess
               // computed one (it needs the fields at short circuit).
               if (s.contains("dead_zone") && s["dead_zone"].is_object())
                 r.dead_zone_fraction = number_at(s["dead_zone"], "area_fraction");
+              if (s.contains("losses") && s["losses"].is_object() && s["losses"].contains("points") &&
+                  s["losses"]["points"].contains("max_power"))
+                {
+                  const json &split = s["losses"]["points"]["max_power"]["split"];
+                  r.loss_recombination = number_at(split, "recombination");
+                  r.loss_film_joule    = number_at(split, "film_joule");
+                  r.loss_contacts      = number_at(split, "contacts");
+                }
               if (s.contains("metrics") && s["metrics"].is_object())
                 {
                   const json &m = s["metrics"];
@@ -783,13 +791,17 @@ namespace backcomb::postprocess
              "Device/Active area); collection_efficiency = Jsc / (q * generation integrated over the absorber)\n"
           << "# dead_zone_fraction: absorber area fraction with collection probability below the "
              "case's threshold (summary.json dead_zone)\n"
+          << "# loss_*: power lost at the maximum power point in mW/cm^2 of footprint (losses.csv of the case "
+             "has every term): recombination = bulk + surfaces + minority carriers at the combs, film_joule = "
+             "Joule heat of both carriers, contacts = majority carriers crossing the combs\n"
           << "# an empty cell means not available: a failed or missing case, or a quantity the case "
              "did not compute\n";
       csv << "case";
       for (const auto &e : plan.entries)
         csv << ',' << csv_field(entry_header(e));
       csv << ",pitch_um,footprint_width_um,active_width_um,collection_efficiency,Jsc_mA_per_cm2,Voc_V,FF,"
-             "PCE_percent,Jsc_active_mA_per_cm2,PCE_active_percent,dead_zone_fraction,newton_iterations,"
+             "PCE_percent,Jsc_active_mA_per_cm2,PCE_active_percent,dead_zone_fraction,"
+             "loss_recombination_mW_per_cm2,loss_film_joule_mW_per_cm2,loss_contacts_mW_per_cm2,newton_iterations,"
              "step_halvings,status,reason\n";
       for (const auto &r : rows)
         {
@@ -801,7 +813,8 @@ namespace backcomb::postprocess
               << csv_number(r.collection_efficiency) << ',' << csv_number(r.Jsc) << ',' << csv_number(r.Voc)
               << ',' << csv_number(r.FF) << ',' << csv_number(r.PCE) << ',' << csv_number(r.Jsc_active)
               << ',' << csv_number(r.PCE_active) << ',' << csv_number(r.dead_zone_fraction) << ','
-              << csv_number(r.newton_iterations) << ',' << csv_number(r.step_halvings) << ','
+              << csv_number(r.loss_recombination) << ',' << csv_number(r.loss_film_joule) << ','
+              << csv_number(r.loss_contacts) << ',' << csv_number(r.newton_iterations) << ',' << csv_number(r.step_halvings) << ','
               << r.status << ',' << csv_field(r.reason) << '\n';
         }
       write_file_atomically(folder + "/sweep.csv", csv.str());
@@ -827,6 +840,10 @@ namespace backcomb::postprocess
               {"per_active_area",
                {{"Jsc_mA_per_cm2", json_number(r.Jsc_active)}, {"PCE_percent", json_number(r.PCE_active)}}},
               {"dead_zone_fraction", json_number(r.dead_zone_fraction)},
+              {"losses_at_max_power_mW_per_cm2",
+               {{"recombination", json_number(r.loss_recombination)},
+                {"film_joule", json_number(r.loss_film_joule)},
+                {"contacts", json_number(r.loss_contacts)}}},
               {"newton_iterations", json_number(r.newton_iterations)},
               {"step_halvings", json_number(r.step_halvings)},
               {"seconds", json_number(r.seconds)},
@@ -890,7 +907,7 @@ namespace backcomb::postprocess
         header.push_back(last_component(e.path) + (e.unit.empty() ? "" : " (" + e.unit + ")"));
       const std::vector<std::string> metrics = {"pitch (um)", "collection", "dead zone", "Jsc (mA/cm2)",
                                                 "Voc (V)",    "FF",         "PCE (%)",   "PCE act (%)",
-                                                "status"};
+                                                "recomb.",    "Joule",      "contacts",  "status"};
       header.insert(header.end(), metrics.begin(), metrics.end());
       std::vector<std::vector<std::string>> cells;
       auto fixed = [](const std::optional<double> &v, int digits) {
@@ -911,6 +928,9 @@ namespace backcomb::postprocess
           row.push_back(fixed(r.FF, 4));
           row.push_back(fixed(r.PCE, 3));
           row.push_back(fixed(r.PCE_active, 3));
+          row.push_back(fixed(r.loss_recombination, 3));
+          row.push_back(fixed(r.loss_film_joule, 3));
+          row.push_back(fixed(r.loss_contacts, 3));
           row.push_back(r.status);
           cells.push_back(row);
         }
@@ -1387,6 +1407,9 @@ namespace backcomb::postprocess
         std::printf("\nPCE is per footprint (the whole period); 'PCE act' per active area; collection "
                     "efficiency = Jsc / (q * integrated generation);\n'dead zone' = absorber area fraction "
                     "with collection probability below the threshold; pitch = w_e + w_h + 2 gap.\n"
+                    "recomb., Joule, contacts: power lost at the maximum power point (mW/cm2 of footprint) to "
+                    "recombination,\nto the film's resistance and to carriers crossing the combs; each case's "
+                    "losses.csv and losses.svg have every term.\n"
                     "Model estimates for comparing designs, only as good as the material parameters.\n");
         std::printf("\nFiles in %s:\n  sweep.csv, sweep.json: the table above (sweep.json with the "
                     "recommendation)\n",

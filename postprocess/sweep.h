@@ -110,6 +110,11 @@ namespace backcomb::postprocess
     std::string                reason; // first failure diagnostic ("" if none)
     std::optional<double>      footprint_width_um, active_width_um, collection_efficiency,
       Jsc, Voc, FF, PCE, Jsc_active, PCE_active, dead_zone_fraction, seconds;
+    // Power lost at the maximum power point, mW/cm^2 of footprint
+    // (summary.json losses): recombination (bulk, surfaces, minority
+    // carriers at the combs), Joule heat in the film, majority carriers
+    // crossing the combs.
+    std::optional<double>      loss_recombination, loss_film_joule, loss_contacts;
     std::optional<unsigned>    newton_iterations, step_halvings;
   };
 

@@ -6,6 +6,7 @@
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
+#include <functional>
 #include <fstream>
 #include <limits>
 #include <memory>
@@ -212,7 +213,7 @@ namespace backcomb::postprocess
 
     // One file: a fresh PLplot stream, drawn and closed, then renamed.
     bool
-    plot_file(const SweepPlotData &d, const Axes &axes, const std::string &device,
+    plot_file(const std::function<void(plstream &)> &draw_page, const std::string &device,
               const std::string &path, std::vector<std::string> &warnings)
     {
       if (!device_available(device))
@@ -243,7 +244,7 @@ namespace backcomb::postprocess
         for (int k = 0; k < n_palette; ++k)
           pls->scol0(first_line_colour + k, palette[k][0], palette[k][1], palette[k][2]);
         pls->init();
-        draw(*pls, d, axes);
+        draw_page(*pls);
       } // the destructor ends the stream and closes the file
       std::error_code ec;
       std::filesystem::rename(tmp, path, ec);
@@ -286,7 +287,73 @@ namespace backcomb::postprocess
     std::vector<std::string> written;
     for (const auto &[device, suffix] : {std::pair<std::string, std::string>{"svgcairo", ".svg"},
                                          {"pngcairo", ".png"}})
-      if (plot_file(data, axes, device, stem + suffix, warnings))
+      if (plot_file([&](plstream &pls) { draw(pls, data, axes); }, device, stem + suffix, warnings))
+        written.push_back(stem + suffix);
+    return written;
+  }
+
+  std::vector<std::string>
+  write_bar_chart(const BarChart &chart, const std::string &stem, std::vector<std::string> &warnings)
+  {
+    const std::size_t n = chart.values.size();
+    if (n == 0 || chart.labels.size() != n || chart.category.size() != n)
+      {
+        warnings.push_back("no chart " + stem + ": nothing to draw");
+        return {};
+      }
+    double lo = 0, hi = 0;
+    for (const double v : chart.values)
+      if (std::isfinite(v))
+        lo = std::min(lo, v), hi = std::max(hi, v);
+    const double span = hi > lo ? hi - lo : 1;
+    // Room for the value written beside each bar.
+    const double x_lo = lo < 0 ? lo - 0.15 * span : 0, x_hi = hi + 0.18 * span;
+
+    auto draw_page = [&](plstream &pls) {
+      pls.adv(0);
+      pls.schr(0, 0.8);
+      pls.vpor(0.34, 0.80, 0.08, 0.90);
+      // Bar k (from the top) occupies y in [n-1-k, n-k].
+      pls.wind(x_lo, x_hi, 0, double(n));
+      pls.col0(colour_grid);
+      pls.width(0.5);
+      pls.box("g", 0, 0, "", 0, 0);
+      for (std::size_t k = 0; k < n; ++k)
+        {
+          const double v = chart.values[k];
+          const double y0 = double(n - 1 - k) + 0.15, y1 = double(n - k) - 0.15;
+          const double pos = (double(n - k) - 0.5) / double(n);
+          pls.col0(1);
+          pls.mtex("lv", 0.8, pos, 1.0, escaped(chart.labels[k]).c_str());
+          if (!std::isfinite(v))
+            continue;
+          const double px[] = {0, v, v, 0}, py[] = {y0, y0, y1, y1};
+          pls.col0(first_line_colour + chart.category[k] % n_palette);
+          pls.fill(4, px, py);
+          char text[32];
+          std::snprintf(text, sizeof text, chart.value_format.c_str(), v);
+          pls.col0(1);
+          const double tx = v >= 0 ? v + 0.01 * span : v - 0.01 * span;
+          pls.ptex(tx, 0.5 * (y0 + y1), 1, 0, v >= 0 ? 0.0 : 1.0, text);
+        }
+      pls.col0(1);
+      pls.width(1);
+      pls.box("bcnst", 0, 0, "bc", 0, 0);
+      pls.mtex("b", 3.0, 0.5, 0.5, escaped(chart.x_label).c_str());
+      pls.mtex("t", 1.5, 0.5, 0.5, escaped(chart.title).c_str());
+      // Legend of the categories in the right margin.
+      for (std::size_t c = 0; c < chart.category_names.size(); ++c)
+        {
+          pls.col0(first_line_colour + int(c) % n_palette);
+          pls.mtex("rv", 1.0, 0.95 - 0.05 * double(c), 0.0,
+                   ("■ " + escaped(chart.category_names[c])).c_str());
+        }
+      pls.col0(1);
+    };
+    std::vector<std::string> written;
+    for (const auto &[device, suffix] : {std::pair<std::string, std::string>{"svgcairo", ".svg"},
+                                         {"pngcairo", ".png"}})
+      if (plot_file(draw_page, device, stem + suffix, warnings))
         written.push_back(stem + suffix);
     return written;
   }

@@ -33,4 +33,20 @@ namespace backcomb::postprocess
   std::vector<std::string> write_sweep_plots(const SweepPlotData     &data,
                                              const std::string       &stem,
                                              std::vector<std::string> &warnings);
+
+  // Horizontal bars, one per label from the top down, coloured by category
+  // (an index into category_names, shown as the legend).
+  struct BarChart
+  {
+    std::string              title, x_label;
+    std::vector<std::string> labels;
+    std::vector<double>      values;
+    std::vector<int>         category;
+    std::vector<std::string> category_names;
+    std::string              value_format = "%.2f";
+  };
+
+  // `stem`.svg and `stem`.png, like write_sweep_plots.
+  std::vector<std::string> write_bar_chart(const BarChart &chart, const std::string &stem,
+                                           std::vector<std::string> &warnings);
 } // namespace backcomb::postprocess

@@ -1,0 +1,155 @@
+#include "postprocess/losses.h"
+
+#include "postprocess/sweep_plot.h"
+
+#include <algorithm>
+#include <cmath>
+#include <iomanip>
+#include <sstream>
+
+namespace backcomb::postprocess
+{
+  using json = nlohmann::json;
+
+  namespace
+  {
+    const std::vector<std::string> categories = {"optical", "generation", "recombination", "contact",
+                                                 "transport", "output", "check"};
+
+    std::string
+    number(double v)
+    {
+      std::ostringstream s;
+      s << std::setprecision(8) << v;
+      return s.str();
+    }
+  } // namespace
+
+  std::vector<LossTerm>
+  loss_terms(const LossPoint &p, const std::optional<fem::OpticalBudget> &optics)
+  {
+    const fem::PowerBalance &b = p.balance;
+    std::vector<LossTerm>    t;
+    if (optics)
+      {
+        t.push_back({"reflected", "optical", optics->reflected});
+        t.push_back({"shaded_by_fingers", "optical", optics->shaded});
+        t.push_back({"not_absorbed", "optical", optics->not_absorbed()});
+        // Photon energy above the gap, given up as heat as the pairs relax
+        // to the band edges.
+        t.push_back({"thermalisation", "optical", optics->absorbed - b.band_edge_input});
+      }
+    // E_g - dmu per generated pair: the entropy of the pairs at the
+    // operating point's splitting.
+    t.push_back({"splitting_below_gap", "generation", b.band_edge_input - b.input});
+    for (const auto &[name, value] : b.bulk_recombination)
+      t.push_back({"bulk_" + name, "recombination", value});
+    t.push_back({"top_surface", "recombination", b.top_surface});
+    t.push_back({"gap_interface", "recombination", b.gap_interface});
+    t.push_back({"holes_at_electron_comb", "recombination", b.contact[0][1]});
+    t.push_back({"electrons_at_hole_comb", "recombination", b.contact[1][0]});
+    t.push_back({"electron_comb_extraction", "contact", b.contact[0][0]});
+    t.push_back({"hole_comb_extraction", "contact", b.contact[1][1]});
+    t.push_back({"joule_electrons_film", "transport", b.joule_electrons});
+    t.push_back({"joule_holes_film", "transport", b.joule_holes});
+    t.push_back({"joule_interlayers", "transport", b.joule_interlayers});
+    t.push_back({"output", "output", b.output});
+    t.push_back({"residual", "check", b.residual()});
+    return t;
+  }
+
+  LossSplit
+  loss_split(const fem::PowerBalance &b)
+  {
+    // Minority carriers lost at a comb count as recombination; the
+    // majority carriers' crossing as the contact's loss.
+    LossSplit s;
+    s.recombination = b.recombination() + b.contact[0][1] + b.contact[1][0];
+    s.film_joule    = b.joule();
+    s.contacts      = b.contact[0][0] + b.contact[1][1];
+    return s;
+  }
+
+  std::string
+  losses_csv(const std::vector<LossPoint> &points, const std::optional<fem::OpticalBudget> &optics,
+             const double footprint_um)
+  {
+    std::ostringstream csv;
+    csv << "# backcomb power balance (free-energy loss analysis), mW/cm^2 of footprint (period width "
+        << footprint_um << " um).\n"
+        << "# The terms of one point add up to the incident power"
+        << (optics ? "" : " (here: to the band-edge input q*G*E_g, no optical side known)")
+        << "; 'residual' is what the balance leaves unexplained.\n"
+        << "point,bias_V,current_mA_per_cm2,term,category,power_mW_per_cm2,percent_of_incident\n";
+    for (const auto &p : points)
+      {
+        std::vector<LossTerm> terms = loss_terms(p, optics);
+        if (optics)
+          terms.insert(terms.begin(), {"incident", "optical", optics->incident});
+        for (const auto &t : terms)
+          csv << p.name << ',' << number(p.balance.bias_V) << ',' << number(p.balance.current) << ',' << t.name
+              << ',' << t.category << ',' << number(t.value) << ','
+              << (optics && optics->incident > 0 ? number(100 * t.value / optics->incident) : "") << '\n';
+      }
+    return csv.str();
+  }
+
+  json
+  losses_json(const std::vector<LossPoint> &points, const std::optional<fem::OpticalBudget> &optics)
+  {
+    json j;
+    j["unit"] = "mW/cm^2 of footprint";
+    if (optics)
+      j["optical"] = {{"incident", optics->incident},
+                      {"reflected", optics->reflected},
+                      {"shaded_by_fingers", optics->shaded},
+                      {"not_absorbed", optics->not_absorbed()},
+                      {"absorbed", optics->absorbed},
+                      {"absorbed_current_mA_per_cm2", optics->absorbed_current}};
+    else
+      j["optical"] = nullptr;
+    json pts = json::object();
+    for (const auto &p : points)
+      {
+        const fem::PowerBalance &b = p.balance;
+        json terms = json::object();
+        for (const auto &t : loss_terms(p, optics))
+          terms[t.name] = t.value;
+        const LossSplit s = loss_split(b);
+        pts[p.name]       = {{"bias_V", b.bias_V},
+                             {"current_mA_per_cm2", b.current},
+                             {"band_edge_input", b.band_edge_input},
+                             {"free_energy_input", b.input},
+                             {"output", b.output},
+                             {"terms", terms},
+                             {"split", {{"recombination", s.recombination},
+                                        {"film_joule", s.film_joule},
+                                        {"contacts", s.contacts}}},
+                             {"residual_relative_to_input", b.input != 0 ? json(b.residual() / b.input) : json(nullptr)}};
+      }
+    j["points"] = pts;
+    return j;
+  }
+
+  std::vector<std::string>
+  write_loss_chart(const LossPoint &p, const std::optional<fem::OpticalBudget> &optics, const std::string &title,
+                   const std::string &stem, std::vector<std::string> &warnings)
+  {
+    BarChart chart;
+    chart.title          = title;
+    chart.category_names = categories;
+    const double scale   = optics && optics->incident > 0 ? 100 / optics->incident : 1;
+    chart.x_label        = optics ? "share of the incident power (%)" : "power (mW/cm²)";
+    for (const auto &t : loss_terms(p, optics))
+      {
+        if (t.category == "check")
+          continue;
+        chart.labels.push_back(t.name);
+        chart.values.push_back(t.value * scale);
+        chart.category.push_back(int(std::find(categories.begin(), categories.end(), t.category) -
+                                     categories.begin()));
+      }
+    chart.value_format = "%.3g";
+    return write_bar_chart(chart, stem, warnings);
+  }
+} // namespace backcomb::postprocess
