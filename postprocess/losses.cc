@@ -137,7 +137,7 @@ namespace backcomb::postprocess
   {
     BarChart chart;
     chart.title          = title;
-    chart.category_names = categories;
+    chart.category_names.assign(categories.begin(), categories.end() - 1); // no bar for the check
     const double scale   = optics && optics->incident > 0 ? 100 / optics->incident : 1;
     chart.x_label        = optics ? "share of the incident power (%)" : "power (mW/cm²)";
     for (const auto &t : loss_terms(p, optics))
