@@ -379,14 +379,15 @@ namespace backcomb::fem
 
         // Backtracking: halve the step until the residual decreases (the
         // finger problem is monotone, so the full step is taken near the
-        // solution).
+        // solution). Steps below 1e-10 V are taken as they are: there the
+        // residual is at round-off level and need not decrease.
         double step = 1;
         for (unsigned halving = 0;; ++halving)
           {
             for (unsigned k = 0; k < n; ++k)
               trial[k] = u[k] - step * delta[k];
             const double trial_norm = residual(terminal_voltage, trial, r_trial);
-            if (trial_norm < norm || halving == 30 || largest * step < 1e-13)
+            if (trial_norm < norm || halving == 30 || largest * step < 1e-10)
               {
                 u.swap(trial);
                 r.swap(r_trial);
