@@ -251,3 +251,35 @@ TEST(CombElectrodes, RefusesToExtrapolateThePeriodJV)
       EXPECT_NE(std::string(x.what()).find("outside the period J-V table"), std::string::npos) << x.what();
     }
 }
+
+// Fritsch and Carlson's limiter (F. N. Fritsch, R. E. Carlson, SIAM J.
+// Numer. Anal. 17 (1980) 238, theorem 2 with the region alpha^2 + beta^2
+// <= 9) keeps the interpolant monotone where the data are: a J-V with a
+// sharp knee, on which an unlimited cubic overshoots, is interpolated
+// without overshoot, through the table points, with a derivative that is
+// continuous across them.
+TEST(CombElectrodes, InterpolationIsMonotoneAndContinuouslyDifferentiable)
+{
+  const std::vector<JVPoint> knee{{0.0, 20, true, 0},  {0.1, 20, true, 0},  {0.2, 19.9, true, 0},
+                                  {0.25, 15, true, 0}, {0.3, 0, true, 0},   {0.32, -20, true, 0},
+                                  {0.5, -21, true, 0}};
+  const JVInterpolant        f(knee);
+  double                     previous = f.current(0);
+  for (double v = 0; v <= 0.5; v += 1e-4)
+    {
+      const double J = f.current(v);
+      EXPECT_LE(J, previous + 1e-12) << "rises at " << v << " V";
+      EXPECT_LE(f.slope(v), 1e-12) << "positive slope at " << v << " V";
+      previous = J;
+    }
+  for (std::size_t k = 0; k < knee.size(); ++k)
+    {
+      EXPECT_NEAR(f.current(knee[k].voltage), knee[k].current, 1e-12);
+      if (k > 0 && k + 1 < knee.size())
+        {
+          EXPECT_NEAR(f.slope(knee[k].voltage - 1e-11), f.slope(knee[k].voltage + 1e-11),
+                      1e-5 * (1 + std::abs(f.slope(knee[k].voltage))))
+            << "slope jumps at " << knee[k].voltage << " V";
+        }
+    }
+}
