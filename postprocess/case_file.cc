@@ -178,6 +178,7 @@ namespace backcomb::postprocess
     fem::SurfaceParameters::declare_parameters(prm, "Gap interface", fem::SurfaceParameters());
     fem::IlluminationParameters::declare_parameters(prm);
     fem::NumericsParameters::declare_parameters(prm);
+    fem::ElectrodeParameters::declare_parameters(prm);
 
     prm.enter_subsection("Device");
     declare_number(prm, "Temperature", "300", "Device temperature in K, 100..1000.");
@@ -325,6 +326,7 @@ namespace backcomb::postprocess
         c.gap_interface.parse_parameters(prm, "Gap interface");
         c.illumination.parse_parameters(prm, std::filesystem::path(file).parent_path());
         c.numerics.parse_parameters(prm);
+        c.electrodes.parse_parameters(prm);
 
         prm.enter_subsection("Device");
         c.device.temperature = get_in_range(prm, "Device", "Temperature", 100, 1000);

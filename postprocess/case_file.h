@@ -4,6 +4,7 @@
 // appears in the file), the entry and the value.
 #pragma once
 
+#include "fem/comb_electrodes.h"
 #include "fem/device.h"
 #include "fem/material.h"
 #include "fem/optics.h"
@@ -57,6 +58,7 @@ namespace backcomb::postprocess
     fem::SurfaceParameters       top_surface, gap_interface;
     fem::IlluminationParameters  illumination;
     fem::NumericsParameters      numerics;
+    fem::ElectrodeParameters     electrodes;
     DeviceSettings               device;
     JVSettings                   jv;
     OutputSettings               output;
