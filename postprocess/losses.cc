@@ -13,8 +13,8 @@ namespace backcomb::postprocess
 
   namespace
   {
-    const std::vector<std::string> categories = {"optical", "generation", "recombination", "contact",
-                                                 "transport", "output", "check"};
+    const std::vector<std::string> categories = {"optical",   "generation", "recombination", "contact",
+                                                 "transport", "electrode",  "output",        "check"};
 
     std::string
     number(double v)
@@ -58,6 +58,16 @@ namespace backcomb::postprocess
     return t;
   }
 
+  std::vector<LossTerm>
+  ElectrodeLoss::terms() const
+  {
+    return {{"hole_fingers", "electrode", hole_fingers},
+            {"electron_fingers", "electrode", electron_fingers},
+            {"hole_comb_contact_resistance", "electrode", hole_contact},
+            {"electron_comb_contact_resistance", "electrode", electron_contact},
+            {"output", "output", output}};
+  }
+
   LossSplit
   loss_split(const fem::PowerBalance &b)
   {
@@ -72,7 +82,7 @@ namespace backcomb::postprocess
 
   std::string
   losses_csv(const std::vector<LossPoint> &points, const std::optional<fem::OpticalBudget> &optics,
-             const double footprint_um)
+             const double footprint_um, const std::optional<ElectrodeLoss> &electrodes)
   {
     std::ostringstream csv;
     csv << "# backcomb power balance (free-energy loss analysis), mW/cm^2 of footprint (period width "
@@ -91,6 +101,13 @@ namespace backcomb::postprocess
               << ',' << t.category << ',' << number(t.value) << ','
               << (optics && optics->incident > 0 ? number(100 * t.value / optics->incident) : "") << '\n';
       }
+    // The whole cell at its own maximum power point: only the electrode
+    // terms and its output (the film's terms vary along the fingers).
+    if (electrodes)
+      for (const auto &t : electrodes->terms())
+        csv << "cell_max_power," << number(electrodes->bias_V) << ',' << number(electrodes->current) << ','
+            << t.name << ',' << t.category << ',' << number(t.value) << ','
+            << (optics && optics->incident > 0 ? number(100 * t.value / optics->incident) : "") << '\n';
     return csv.str();
   }
 
@@ -132,7 +149,8 @@ namespace backcomb::postprocess
   }
 
   std::vector<std::string>
-  write_loss_chart(const LossPoint &p, const std::optional<fem::OpticalBudget> &optics, const std::string &title,
+  write_loss_chart(const LossPoint &p, const std::optional<fem::OpticalBudget> &optics,
+                   const std::optional<ElectrodeLoss> &electrodes, const std::string &title,
                    const std::string &stem, std::vector<std::string> &warnings)
   {
     BarChart chart;
@@ -140,7 +158,11 @@ namespace backcomb::postprocess
     chart.category_names.assign(categories.begin(), categories.end() - 1); // no bar for the check
     const double scale   = optics && optics->incident > 0 ? 100 / optics->incident : 1;
     chart.x_label        = optics ? "share of the incident power (%)" : "power (mW/cm²)";
-    for (const auto &t : loss_terms(p, optics))
+    std::vector<LossTerm> terms = loss_terms(p, optics);
+    if (electrodes)
+      for (const auto &t : electrodes->terms())
+        terms.push_back({t.name + (t.category == "output" ? " (cell)" : ""), t.category, t.value});
+    for (const auto &t : terms)
       {
         if (t.category == "check")
           continue;

@@ -37,6 +37,15 @@ namespace backcomb::postprocess
   // no optical side, to the band-edge input).
   std::vector<LossTerm> loss_terms(const LossPoint &p, const std::optional<fem::OpticalBudget> &optics);
 
+  // Losses in the electrodes of the whole comb cell at its own maximum
+  // power point (fem::CombCell), mW/cm^2 of footprint.
+  struct ElectrodeLoss
+  {
+    double bias_V = 0, current = 0, output = 0;
+    double hole_fingers = 0, electron_fingers = 0, hole_contact = 0, electron_contact = 0;
+    std::vector<LossTerm> terms() const;
+  };
+
   // Recombination, film transport (Joule), contacts, for the sweep table.
   struct LossSplit
   {
@@ -46,7 +55,7 @@ namespace backcomb::postprocess
 
   // Tidy table, one row per point and term.
   std::string losses_csv(const std::vector<LossPoint> &points, const std::optional<fem::OpticalBudget> &optics,
-                         double footprint_um);
+                         double footprint_um, const std::optional<ElectrodeLoss> &electrodes = std::nullopt);
 
   nlohmann::json losses_json(const std::vector<LossPoint> &points,
                              const std::optional<fem::OpticalBudget> &optics);
@@ -54,7 +63,9 @@ namespace backcomb::postprocess
   // Horizontal bars of the terms at one point (percent of the incident
   // power when known, else mW/cm^2), `stem`.svg and .png; returns the files
   // written, problems go to `warnings`.
+  // The electrodes' terms, when given, are added as bars of their own.
   std::vector<std::string> write_loss_chart(const LossPoint &p, const std::optional<fem::OpticalBudget> &optics,
+                                            const std::optional<ElectrodeLoss> &electrodes,
                                             const std::string &title, const std::string &stem,
                                             std::vector<std::string> &warnings);
 } // namespace backcomb::postprocess

@@ -26,6 +26,7 @@
 #include <iomanip>
 #include <iostream>
 #include <map>
+#include <optional>
 #include <sstream>
 #include <unistd.h>
 
@@ -661,6 +662,76 @@ namespace backcomb::postprocess
     const fem::JVMetrics m = lit ? fem::jv_metrics(converged_curve(light)) : fem::JVMetrics();
     if (lit && !m.valid)
       status = "failed";
+
+    // The whole comb cell (fingers and contact resistance, Electrodes
+    // section) and the series resistance from suns-Voc, both from the
+    // period's light J-V.
+    json             cell_json = nullptr, rs_json = nullptr;
+    fem::JVMetrics   cell_metrics;
+    std::optional<fem::CombOperatingPoint> cell_mpp;
+    if (m.valid && !strip)
+      {
+        std::vector<fem::JVPoint> curve;
+        for (const auto &p : converged_curve(light))
+          if (curve.empty() || p.voltage > curve.back().voltage + 1e-9)
+            curve.push_back(p);
+        const fem::CombWidths widths{c.geometry.electron_finger_width_um, c.geometry.hole_finger_width_um,
+                                     2 * width};
+        try
+          {
+            if (!c.electrodes.ideal())
+              {
+                // Terminal voltages: the period's biases from 0 to the first
+                // one past open circuit.
+                std::vector<double> v;
+                for (const auto &p : curve)
+                  if (p.voltage >= -1e-12)
+                    {
+                      v.push_back(p.voltage);
+                      if (p.current < 0)
+                        break;
+                    }
+                const fem::CombCell cell(curve, widths, c.electrodes);
+                cell_metrics = fem::jv_metrics(cell.jv(v));
+                if (cell_metrics.valid)
+                  cell_mpp = cell.solve(cell_metrics.Vmp);
+                cell_json = {{"finger_length_mm", c.electrodes.finger_length_mm},
+                             {"metrics", metrics_json(cell_metrics, width / active, input_power)}};
+                if (cell_mpp)
+                  cell_json["at_max_power"] = {
+                    {"bias_V", cell_mpp->terminal_voltage},
+                    {"current_mA_per_cm2", cell_mpp->current},
+                    {"output", cell_mpp->output_power},
+                    {"hole_fingers", cell_mpp->hole_finger_loss},
+                    {"electron_fingers", cell_mpp->electron_finger_loss},
+                    {"hole_comb_contact_resistance", cell_mpp->hole_contact_loss},
+                    {"electron_comb_contact_resistance", cell_mpp->electron_contact_loss},
+                    {"largest_finger_drop_V", std::max(cell_mpp->hole_finger_drop, cell_mpp->electron_finger_drop)}};
+              }
+            if (suns_voc.size() >= 2)
+              {
+                std::vector<fem::SunsVocPoint> pts;
+                for (const auto &[s, v] : suns_voc)
+                  pts.push_back({s, v});
+                const fem::PseudoJV               pseudo(pts, m.Jsc);
+                const fem::SeriesResistance      film = fem::series_resistance(pseudo, curve, input_power);
+                const fem::SeriesResistanceSplit split =
+                  fem::split_series_resistance(pseudo, curve, widths, c.electrodes);
+                rs_json = {{"total_ohm_cm2", split.total},
+                           {"film_ohm_cm2", split.film},
+                           {"contacts_ohm_cm2", split.contacts},
+                           {"fingers_ohm_cm2", split.fingers},
+                           {"pseudo_voltage_at_Jmp_V", film.pseudo_voltage_at_jmp},
+                           {"pseudo_metrics", metrics_json(film.pseudo, width / active, input_power)}};
+              }
+          }
+        catch (const std::exception &e)
+          {
+            light.failures.push_back(std::string("comb cell and series resistance: ") + e.what());
+            if (status == "converged")
+              status = "partial";
+          }
+      }
     for (const auto &p : light.points)
       if (!p.jv.converged)
         status = (status == "converged" && m.valid) ? "partial" : status;
@@ -712,6 +783,12 @@ namespace backcomb::postprocess
     for (const auto &[s, v] : suns_voc)
       summary["suns_voc"].push_back({{"light_factor", s}, {"Voc_V", v}});
     summary["timings_s"]["losses_and_suns_voc"] = t_loss;
+    summary["cell"]              = cell_json;
+    summary["series_resistance"] = rs_json;
+    if (cell_mpp && summary["losses"].is_object())
+      summary["losses"]["electrodes_at_cell_max_power"] = {
+        {"fingers", cell_mpp->hole_finger_loss + cell_mpp->electron_finger_loss},
+        {"contact_resistance", cell_mpp->hole_contact_loss + cell_mpp->electron_contact_loss}};
     summary["processes"] = dealii::Utilities::MPI::n_mpi_processes(o.communicator);
     const int code = status == "failed" ? exit_no_convergence : exit_ok;
     if (!root)
@@ -719,11 +796,17 @@ namespace backcomb::postprocess
     std::vector<std::string> plot_warnings;
     if (!loss_points.empty())
       {
-        write_file_atomically(o.folder + "/losses.csv", losses_csv(loss_points, optics, width));
+        std::optional<ElectrodeLoss> electrode_loss;
+        if (cell_mpp)
+          electrode_loss = ElectrodeLoss{cell_mpp->terminal_voltage,    cell_mpp->current,
+                                         cell_mpp->output_power,        cell_mpp->hole_finger_loss,
+                                         cell_mpp->electron_finger_loss, cell_mpp->hole_contact_loss,
+                                         cell_mpp->electron_contact_loss};
+        write_file_atomically(o.folder + "/losses.csv", losses_csv(loss_points, optics, width, electrode_loss));
         const auto mpp = std::find_if(loss_points.begin(), loss_points.end(),
                                       [](const LossPoint &p) { return p.name == "max_power"; });
         if (mpp != loss_points.end())
-          write_loss_chart(*mpp, optics,
+          write_loss_chart(*mpp, optics, electrode_loss,
                            "Where the power goes at the maximum power point (" + bias_name(mpp->balance.bias_V) +
                              " V)",
                            o.folder + "/losses", plot_warnings);
@@ -741,6 +824,18 @@ namespace backcomb::postprocess
                   generated > 0 ? m.Jsc / generated : 0.0);
     else if (lit)
       std::printf("J-V metrics not available: the light J-V did not converge where they are needed\n");
+    if (cell_metrics.valid)
+      std::printf("comb cell with %.3g mm fingers: FF %.4f  PCE %.3f %% (footprint); electrodes take %.3f mW/cm2 "
+                  "at its maximum power point\n",
+                  c.electrodes.finger_length_mm, cell_metrics.FF,
+                  input_power > 0 ? 100 * cell_metrics.Pmax / input_power : 0.0,
+                  cell_mpp ? cell_mpp->hole_finger_loss + cell_mpp->electron_finger_loss + cell_mpp->hole_contact_loss +
+                               cell_mpp->electron_contact_loss
+                           : 0.0);
+    if (rs_json.is_object())
+      std::printf("series resistance (suns-Voc) %.4g ohm cm2: film %.4g, contacts %.4g, fingers %.4g\n",
+                  rs_json["total_ohm_cm2"].get<double>(), rs_json["film_ohm_cm2"].get<double>(),
+                  rs_json["contacts_ohm_cm2"].get<double>(), rs_json["fingers_ohm_cm2"].get<double>());
     for (const auto &p : loss_points)
       if (p.name == "max_power")
         {

@@ -421,7 +421,19 @@ namespace backcomb::postprocess
                   r.loss_recombination = number_at(split, "recombination");
                   r.loss_film_joule    = number_at(split, "film_joule");
                   r.loss_contacts      = number_at(split, "contacts");
+                  if (s["losses"].contains("electrodes_at_cell_max_power"))
+                    {
+                      const json &e = s["losses"]["electrodes_at_cell_max_power"];
+                      const auto  f = number_at(e, "fingers"), k = number_at(e, "contact_resistance");
+                      if (f && k)
+                        r.loss_electrodes = *f + *k;
+                    }
                 }
+              if (s.contains("cell") && s["cell"].is_object() && s["cell"].contains("metrics") &&
+                  s["cell"]["metrics"].is_object())
+                r.PCE_cell = number_at(s["cell"]["metrics"], "PCE_percent");
+              if (s.contains("series_resistance") && s["series_resistance"].is_object())
+                r.series_resistance = number_at(s["series_resistance"], "total_ohm_cm2");
               if (s.contains("metrics") && s["metrics"].is_object())
                 {
                   const json &m = s["metrics"];
@@ -793,7 +805,10 @@ namespace backcomb::postprocess
              "case's threshold (summary.json dead_zone)\n"
           << "# loss_*: power lost at the maximum power point in mW/cm^2 of footprint (losses.csv of the case "
              "has every term): recombination = bulk + surfaces + minority carriers at the combs, film_joule = "
-             "Joule heat of both carriers, contacts = majority carriers crossing the combs\n"
+             "Joule heat of both carriers, contacts = majority carriers crossing the combs; electrodes = "
+             "finger and contact resistance of the whole comb cell (Electrodes section) at its maximum power point\n"
+          << "# PCE_cell_percent: the whole comb cell with its fingers; series_resistance_ohm_cm2: from suns-Voc "
+             "against the light J-V at the maximum power point (summary.json series_resistance has the split)\n"
           << "# an empty cell means not available: a failed or missing case, or a quantity the case "
              "did not compute\n";
       csv << "case";
@@ -801,7 +816,8 @@ namespace backcomb::postprocess
         csv << ',' << csv_field(entry_header(e));
       csv << ",pitch_um,footprint_width_um,active_width_um,collection_efficiency,Jsc_mA_per_cm2,Voc_V,FF,"
              "PCE_percent,Jsc_active_mA_per_cm2,PCE_active_percent,dead_zone_fraction,"
-             "loss_recombination_mW_per_cm2,loss_film_joule_mW_per_cm2,loss_contacts_mW_per_cm2,newton_iterations,"
+             "loss_recombination_mW_per_cm2,loss_film_joule_mW_per_cm2,loss_contacts_mW_per_cm2,"
+             "loss_electrodes_mW_per_cm2,PCE_cell_percent,series_resistance_ohm_cm2,newton_iterations,"
              "step_halvings,status,reason\n";
       for (const auto &r : rows)
         {
@@ -814,7 +830,9 @@ namespace backcomb::postprocess
               << ',' << csv_number(r.FF) << ',' << csv_number(r.PCE) << ',' << csv_number(r.Jsc_active)
               << ',' << csv_number(r.PCE_active) << ',' << csv_number(r.dead_zone_fraction) << ','
               << csv_number(r.loss_recombination) << ',' << csv_number(r.loss_film_joule) << ','
-              << csv_number(r.loss_contacts) << ',' << csv_number(r.newton_iterations) << ',' << csv_number(r.step_halvings) << ','
+              << csv_number(r.loss_contacts) << ',' << csv_number(r.loss_electrodes) << ','
+              << csv_number(r.PCE_cell) << ',' << csv_number(r.series_resistance) << ','
+              << csv_number(r.newton_iterations) << ',' << csv_number(r.step_halvings) << ','
               << r.status << ',' << csv_field(r.reason) << '\n';
         }
       write_file_atomically(folder + "/sweep.csv", csv.str());
@@ -843,7 +861,10 @@ namespace backcomb::postprocess
               {"losses_at_max_power_mW_per_cm2",
                {{"recombination", json_number(r.loss_recombination)},
                 {"film_joule", json_number(r.loss_film_joule)},
-                {"contacts", json_number(r.loss_contacts)}}},
+                {"contacts", json_number(r.loss_contacts)},
+                {"electrodes", json_number(r.loss_electrodes)}}},
+              {"PCE_cell_percent", json_number(r.PCE_cell)},
+              {"series_resistance_ohm_cm2", json_number(r.series_resistance)},
               {"newton_iterations", json_number(r.newton_iterations)},
               {"step_halvings", json_number(r.step_halvings)},
               {"seconds", json_number(r.seconds)},
@@ -907,7 +928,8 @@ namespace backcomb::postprocess
         header.push_back(last_component(e.path) + (e.unit.empty() ? "" : " (" + e.unit + ")"));
       const std::vector<std::string> metrics = {"pitch (um)", "collection", "dead zone", "Jsc (mA/cm2)",
                                                 "Voc (V)",    "FF",         "PCE (%)",   "PCE act (%)",
-                                                "recomb.",    "Joule",      "contacts",  "status"};
+                                                "recomb.",    "Joule",      "contacts",  "electr.",
+                                                "PCE cell",   "Rs",         "status"};
       header.insert(header.end(), metrics.begin(), metrics.end());
       std::vector<std::vector<std::string>> cells;
       auto fixed = [](const std::optional<double> &v, int digits) {
@@ -931,6 +953,9 @@ namespace backcomb::postprocess
           row.push_back(fixed(r.loss_recombination, 3));
           row.push_back(fixed(r.loss_film_joule, 3));
           row.push_back(fixed(r.loss_contacts, 3));
+          row.push_back(fixed(r.loss_electrodes, 3));
+          row.push_back(fixed(r.PCE_cell, 3));
+          row.push_back(fixed(r.series_resistance, 3));
           row.push_back(r.status);
           cells.push_back(row);
         }
@@ -1408,7 +1433,9 @@ namespace backcomb::postprocess
                     "efficiency = Jsc / (q * integrated generation);\n'dead zone' = absorber area fraction "
                     "with collection probability below the threshold; pitch = w_e + w_h + 2 gap.\n"
                     "recomb., Joule, contacts: power lost at the maximum power point (mW/cm2 of footprint) to "
-                    "recombination,\nto the film's resistance and to carriers crossing the combs; each case's "
+                    "recombination,\nto the film's resistance and to carriers crossing the combs; electr.: "
+                    "fingers and contact resistance of the whole comb cell at its own maximum power point;\n"
+                    "PCE cell: that cell's PCE; Rs: series resistance (ohm cm2) from suns-Voc. Each case's "
                     "losses.csv and losses.svg have every term.\n"
                     "Model estimates for comparing designs, only as good as the material parameters.\n");
         std::printf("\nFiles in %s:\n  sweep.csv, sweep.json: the table above (sweep.json with the "

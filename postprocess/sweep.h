@@ -115,6 +115,10 @@ namespace backcomb::postprocess
     // carriers at the combs), Joule heat in the film, majority carriers
     // crossing the combs.
     std::optional<double>      loss_recombination, loss_film_joule, loss_contacts;
+    // The whole comb cell (Electrodes section): fingers plus contact
+    // resistance at its maximum power point, its PCE per footprint, and
+    // the series resistance from suns-Voc (ohm cm^2).
+    std::optional<double>      loss_electrodes, PCE_cell, series_resistance;
     std::optional<unsigned>    newton_iterations, step_halvings;
   };
 
