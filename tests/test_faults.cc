@@ -154,7 +154,9 @@ TEST(Checkpoint, ResumedRunEqualsUninterruptedRun)
   for (const auto &[k, v] : ref["metrics"].items())
     {
       if (v.is_number())
-        EXPECT_NEAR(double(s["metrics"][k]), double(v), 1e-6 * std::abs(double(v))) << k;
+        {
+          EXPECT_NEAR(double(s["metrics"][k]), double(v), 1e-6 * std::abs(double(v))) << k;
+        }
     }
   ASSERT_EQ(s["points"].size(), ref["points"].size());
   for (std::size_t i = 0; i < s["points"].size(); ++i)
