@@ -117,12 +117,16 @@ def jv_table(path):
     return [(float(r[0]), r[1], r[2]) for r in rows]
 
 
+LEFTOVERS = set()
+
+
 def check_solve_folder(folder):
     """Every file complete; summary.json consistent with jv.csv and fields."""
     for path in result_files(folder):
         name = os.path.basename(path)
         if TEMPORARY.search(name):
-            continue  # a temporary of the killed run: recognisable, ignored
+            LEFTOVERS.add(path)  # a temporary of a killed run: recognisable, ignored
+            continue
         if name.endswith(".json"):
             json.loads(read_text(path))
         elif name.endswith(".csv"):
@@ -308,11 +312,16 @@ def main():
                     resumed.append(stored)
                 print(f"{kind} trial {i}: {'killed' if killed else 'finished'} after {moment:.2f} s"
                       f"{f', resumed from {stored} points' if stored else ''}: ok")
-            except Failure as e:
+            except (Failure, ValueError, KeyError, StopIteration) as e:
+                # ValueError covers JSON that does not parse and numbers
+                # that do not read; KeyError and StopIteration a summary or
+                # table without what it must hold.
                 failures += 1
-                print(f"{kind} trial {i}: after {moment:.2f} s: FAIL: {e}")
+                print(f"{kind} trial {i}: after {moment:.2f} s: FAIL: {type(e).__name__}: {e}")
         print(f"{len(trials)} trials, {killed_count} killed mid-run, {len(resumed)} resumed a J-V "
-              f"({sum(resumed)} points in all), {failures} failed")
+              f"({sum(resumed)} points in all), {len(LEFTOVERS)} leftover temporary files seen "
+              f"({', '.join(sorted(set(re.sub(r'[0-9]+', 'N', os.path.basename(p)) for p in LEFTOVERS)))}), "
+              f"{failures} failed")
         if not resumed:
             print("FAIL: no trial resumed from a checkpoint")
             failures += 1
