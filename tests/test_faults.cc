@@ -275,7 +275,8 @@ TEST(GuardRails, DebyeLength)
 }
 
 // Diffusion length L = sqrt(D tau), D = mu kT/q (Einstein relation; Sze &
-// Ng 2007, ch. 1). By hand: mu = 1000 cm^2/Vs, 300 K: D = 25.8520 cm^2/s;
+// Ng 2007, ch. 1, chapter from memory). By hand: mu = 1000 cm^2/Vs, 300 K:
+// D = 25.8520 cm^2/s;
 // tau = 1 us: L = sqrt(2.58520e-5) cm = 50.8449 um.
 TEST(GuardRails, DiffusionLengthAndLifetime)
 {
