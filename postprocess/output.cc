@@ -1,6 +1,8 @@
 #include "postprocess/output.h"
 
+#include <cerrno>
 #include <cstdio>
+#include <cstring>
 #include <filesystem>
 #include <fstream>
 #include <system_error>
@@ -28,16 +30,24 @@ namespace backcomb::postprocess
     ::gethostname(host, sizeof host - 1);
     const std::string tmp = path + ".tmp." + host + "." + std::to_string(::getpid());
     {
+      errno = 0;
       std::ofstream f(tmp, std::ios::binary | std::ios::trunc);
       if (!f)
-        throw OutputError("cannot write '" + path + "' (opening '" + tmp + "' failed)");
+        throw OutputError("cannot write '" + path + "' (opening '" + tmp + "' failed" +
+                          (errno ? std::string(": ") + std::strerror(errno) : std::string()) + ")");
       f << text;
       f.flush();
+      // close() reports what a network file system only finds out then.
+      if (f)
+        f.close();
       if (!f)
         {
+          const int error = errno;
           f.close();
           std::remove(tmp.c_str());
-          throw OutputError("cannot write '" + path + "' (disk full or I/O error)");
+          throw OutputError("cannot write '" + path + "' (" +
+                            (error ? std::string(std::strerror(error)) : std::string("disk full or I/O error")) +
+                            "); the previous version, if any, is unchanged");
         }
     }
     std::error_code ec;

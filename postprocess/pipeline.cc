@@ -1,6 +1,8 @@
 #include "postprocess/pipeline.h"
 
+#include "postprocess/checkpoint.h"
 #include "postprocess/dead_zone.h"
+#include "postprocess/guard_rails.h"
 #include "postprocess/losses.h"
 
 #include "fem/drift_diffusion.h"
@@ -131,6 +133,7 @@ namespace backcomb::postprocess
     struct Point
     {
       fem::JVPoint           jv;
+      unsigned               halvings = 0;
       dealii::Vector<double> state;
     };
 
@@ -140,6 +143,41 @@ namespace backcomb::postprocess
       std::vector<std::string> failures; // diagnostics
       unsigned newton = 0, halvings = 0;
       double   seconds = 0;
+    };
+
+    // The checkpoint of this run (where converged points go) and the points
+    // of an earlier, interrupted run of the same case, which the sweeps
+    // replay instead of solving them again.
+    struct Resume
+    {
+      Checkpoint              *checkpoint = nullptr;
+      std::vector<StoredPoint> stored;
+
+      const StoredPoint *
+      find(const std::string &sweep, double v) const
+      {
+        for (const auto &p : stored)
+          if (p.sweep == sweep && std::abs(p.voltage - v) < 1e-9)
+            return &p;
+        return nullptr;
+      }
+
+      void
+      save(const std::string &sweep, const Point &p) const
+      {
+        if (checkpoint)
+          checkpoint->save({sweep, p.jv.voltage, p.jv.current, p.jv.newton_iterations, p.halvings, p.state});
+      }
+
+      static Point
+      point(const StoredPoint &q)
+      {
+        Point p;
+        p.jv       = {q.voltage, q.current, true, q.newton};
+        p.halvings = q.halvings;
+        p.state    = q.state;
+        return p;
+      }
     };
 
     std::string
@@ -152,11 +190,14 @@ namespace backcomb::postprocess
 
     // Sweeps the biases in the given order from the solver's current state.
     // Stops at the first failure: later points would start from a state
-    // that is not a solution.
+    // that is not a solution. Points stored by an interrupted run are taken
+    // as they are (with their Newton counts), so that a resumed sweep
+    // continues from its outermost converged point exactly as the
+    // uninterrupted sweep would have.
     void
     sweep(fem::DriftDiffusionSolver &solver, const std::vector<double> &biases, double light,
           unsigned halvings, Sweep &out, const Progress &progress, const std::string &label,
-          bool extend_to_voc = false, double step = 0.02)
+          const Resume &resume, bool extend_to_voc = false, double step = 0.02)
     {
       const auto t0 = std::chrono::steady_clock::now();
       // The two previous solutions of this sweep, for a linear predictor.
@@ -168,51 +209,63 @@ namespace backcomb::postprocess
         {
           const double v = todo.back();
           todo.pop_back();
-          fem::StepReport r;
-          if (older.size() > 0 && std::abs(v_old - v_older) > 0)
+          Point p;
+          if (const StoredPoint *q = resume.find(label, v))
             {
-              // First try from the extrapolated solution; on failure fall
-              // back to the last converged state and step halving.
-              dealii::Vector<double> guess = old;
-              guess.sadd(1.0 + (v - v_old) / (v_old - v_older), -(v - v_old) / (v_old - v_older), older);
-              solver.set_state(guess, v, light);
-              const fem::NewtonReport n = solver.solve(v, light);
-              r.newton_iterations       = n.iterations;
-              r.converged               = n.converged;
-              if (!r.converged)
-                {
-                  solver.set_state(old, v_old, light);
-                  const fem::StepReport again = fem::move_to(solver, v, light, halvings);
-                  r.converged  = again.converged;
-                  r.halvings   = again.halvings;
-                  r.diagnostic = again.diagnostic;
-                  r.newton_iterations += again.newton_iterations;
-                }
+              p = Resume::point(*q);
+              solver.set_state(p.state, v, light);
             }
           else
-            r = fem::move_to(solver, v, light, halvings);
-          out.newton += r.newton_iterations;
-          out.halvings += r.halvings;
-          Point p;
-          p.jv.voltage           = v;
-          p.jv.converged         = r.converged;
-          p.jv.newton_iterations = r.newton_iterations;
-          if (!r.converged)
             {
-              out.failures.push_back(label + ": " + r.diagnostic);
-              out.points.push_back(p);
-              break;
+              fem::StepReport r;
+              if (older.size() > 0 && std::abs(v_old - v_older) > 0)
+                {
+                  // First try from the extrapolated solution; on failure fall
+                  // back to the last converged state and step halving.
+                  dealii::Vector<double> guess = old;
+                  guess.sadd(1.0 + (v - v_old) / (v_old - v_older), -(v - v_old) / (v_old - v_older), older);
+                  solver.set_state(guess, v, light);
+                  const fem::NewtonReport n = solver.solve(v, light);
+                  r.newton_iterations       = n.iterations;
+                  r.converged               = n.converged;
+                  if (!r.converged)
+                    {
+                      solver.set_state(old, v_old, light);
+                      const fem::StepReport again = fem::move_to(solver, v, light, halvings);
+                      r.converged  = again.converged;
+                      r.halvings   = again.halvings;
+                      r.diagnostic = again.diagnostic;
+                      r.newton_iterations += again.newton_iterations;
+                    }
+                }
+              else
+                r = fem::move_to(solver, v, light, halvings);
+              p.jv.voltage           = v;
+              p.jv.converged         = r.converged;
+              p.jv.newton_iterations = r.newton_iterations;
+              p.halvings             = r.halvings;
+              if (!r.converged)
+                {
+                  out.newton += r.newton_iterations;
+                  out.halvings += r.halvings;
+                  out.failures.push_back(label + ": " + r.diagnostic);
+                  out.points.push_back(p);
+                  break;
+                }
+              p.jv.current = solver.terminal_current().total();
+              p.state      = solver.state();
+              resume.save(label, p);
             }
-          p.jv.current = solver.terminal_current().total();
-          p.state      = solver.state();
-          older        = old;
-          v_older      = v_old;
-          old          = p.state;
-          v_old        = v;
+          out.newton += p.jv.newton_iterations;
+          out.halvings += p.halvings;
+          older   = old;
+          v_older = v_old;
+          old     = p.state;
+          v_old   = v;
           out.points.push_back(p);
           std::ostringstream s;
           s << label << ": V = " << std::fixed << std::setprecision(3) << v << " V, J = "
-            << std::setprecision(3) << p.jv.current << " mA/cm2, " << r.newton_iterations
+            << std::setprecision(3) << p.jv.current << " mA/cm2, " << p.jv.newton_iterations
             << " Newton steps";
           progress.line(s.str());
           // Under light, go on past the last bias until the current changes
@@ -226,10 +279,24 @@ namespace backcomb::postprocess
       out.seconds += seconds_since(t0);
     }
 
-    // Solves at V starting from the stored point nearest to it.
+    // Solves at V starting from the stored point nearest to it (or takes
+    // the point from the checkpoint of an interrupted run).
     bool
-    solve_near(fem::DriftDiffusionSolver &solver, Sweep &s, double v, double light, unsigned halvings)
+    solve_near(fem::DriftDiffusionSolver &solver, Sweep &s, double v, double light, unsigned halvings,
+               const Resume &resume)
     {
+      auto insert = [&s](Point p) {
+        s.newton += p.jv.newton_iterations;
+        s.halvings += p.halvings;
+        s.points.push_back(std::move(p));
+        std::sort(s.points.begin(), s.points.end(),
+                  [](const Point &a, const Point &b) { return a.jv.voltage < b.jv.voltage; });
+      };
+      if (const StoredPoint *q = resume.find("light", v))
+        {
+          insert(Resume::point(*q));
+          return true;
+        }
       const Point *best = nullptr;
       for (const auto &p : s.points)
         if (p.jv.converged && (!best || std::abs(p.jv.voltage - v) < std::abs(best->jv.voltage - v)))
@@ -238,37 +305,50 @@ namespace backcomb::postprocess
         return false;
       solver.set_state(best->state, best->jv.voltage, light);
       const fem::StepReport r = fem::move_to(solver, v, light, halvings);
-      s.newton += r.newton_iterations;
-      s.halvings += r.halvings;
       if (!r.converged)
-        return false;
+        {
+          s.newton += r.newton_iterations;
+          s.halvings += r.halvings;
+          return false;
+        }
       Point p;
-      p.jv = {v, solver.terminal_current().total(), true, r.newton_iterations};
-      p.state = solver.state();
-      s.points.push_back(std::move(p));
-      std::sort(s.points.begin(), s.points.end(),
-                [](const Point &a, const Point &b) { return a.jv.voltage < b.jv.voltage; });
+      p.jv       = {v, solver.terminal_current().total(), true, r.newton_iterations};
+      p.halvings = r.halvings;
+      p.state    = solver.state();
+      resume.save("light", p);
+      insert(std::move(p));
       return true;
     }
 
-    // The contiguous converged J-V points from the lowest bias up.
+    // The contiguous run of converged J-V points (sorted by voltage) that
+    // holds the point nearest to short circuit: a failed point beyond it on
+    // either side cuts the curve there, so no metric is taken across it.
     std::vector<fem::JVPoint>
     converged_curve(const Sweep &s)
     {
+      std::size_t k = s.points.size();
+      for (std::size_t i = 0; i < s.points.size(); ++i)
+        if (s.points[i].jv.converged &&
+            (k == s.points.size() || std::abs(s.points[i].jv.voltage) < std::abs(s.points[k].jv.voltage)))
+          k = i;
+      if (k == s.points.size())
+        return {};
+      std::size_t first = k, last = k;
+      while (first > 0 && s.points[first - 1].jv.converged)
+        --first;
+      while (last + 1 < s.points.size() && s.points[last + 1].jv.converged)
+        ++last;
       std::vector<fem::JVPoint> c;
-      for (const auto &p : s.points)
-        {
-          if (!p.jv.converged)
-            break;
-          c.push_back(p.jv);
-        }
+      for (std::size_t i = first; i <= last; ++i)
+        c.push_back(s.points[i].jv);
       return c;
     }
 
     // Refines around the maximum power point down to `resolution` and finds
     // V_oc by regula falsi to 1e-4 V.
     void
-    refine(fem::DriftDiffusionSolver &solver, Sweep &s, double resolution, unsigned halvings)
+    refine(fem::DriftDiffusionSolver &solver, Sweep &s, double resolution, unsigned halvings,
+           const Resume &resume)
     {
       const auto t0 = std::chrono::steady_clock::now();
       for (int pass = 0; pass < 40; ++pass)
@@ -286,7 +366,7 @@ namespace backcomb::postprocess
           if (std::max(left, right) <= resolution)
             break;
           const double v = left > right ? c[b].voltage - 0.5 * left : c[b].voltage + 0.5 * right;
-          if (!solve_near(solver, s, v, 1.0, halvings))
+          if (!solve_near(solver, s, v, 1.0, halvings, resume))
             break;
         }
       for (int it = 0; it < 30; ++it)
@@ -303,10 +383,37 @@ namespace backcomb::postprocess
           // Keep away from the bracket ends so that the bracket shrinks.
           const double w = c[k + 1].voltage - c[k].voltage;
           v = std::clamp(v, c[k].voltage + 0.05 * w, c[k + 1].voltage - 0.05 * w);
-          if (!solve_near(solver, s, v, 1.0, halvings))
+          if (!solve_near(solver, s, v, 1.0, halvings, resume))
             break;
         }
       s.seconds += seconds_since(t0);
+    }
+
+    // The state a sweep starts from at 0 V: equilibrium and the light ramp
+    // (fem::illuminate), or that state from the checkpoint.
+    fem::StepReport
+    start_state(fem::DriftDiffusionSolver &solver, double light, unsigned halvings, const std::string &label,
+                const Resume &resume)
+    {
+      if (const StoredPoint *q = resume.find(label + "-start", 0.0))
+        {
+          solver.set_state(q->state, 0.0, light);
+          fem::StepReport r;
+          r.converged         = true;
+          r.newton_iterations = q->newton;
+          r.halvings          = q->halvings;
+          return r;
+        }
+      const fem::StepReport r = fem::illuminate(solver, light, halvings);
+      if (r.converged)
+        {
+          Point p;
+          p.jv       = {0.0, 0.0, true, r.newton_iterations};
+          p.halvings = r.halvings;
+          p.state    = solver.state();
+          resume.save(label + "-start", p);
+        }
+      return r;
     }
 
     std::vector<double>
@@ -333,7 +440,7 @@ namespace backcomb::postprocess
     // start; "reverse" does the negative side first.
     void
     run_sweep(fem::DriftDiffusionSolver &solver, const Case &c, double light, Sweep &s,
-              const Progress &progress, const std::string &label)
+              const Progress &progress, const std::string &label, const Resume &resume)
     {
       const std::vector<double> grid = bias_grid(c);
       std::vector<double>       up, down;
@@ -345,7 +452,7 @@ namespace backcomb::postprocess
       auto run = [&](const std::vector<double> &b) {
         solver.set_state(start, v0, light);
         const bool up_side = !b.empty() && b.back() >= 0;
-        sweep(solver, b, light, c.numerics.max_halvings, s, progress, label,
+        sweep(solver, b, light, c.numerics.max_halvings, s, progress, label, resume,
               light > 0 && up_side, c.jv.step);
       };
       if (c.jv.reverse)
@@ -369,11 +476,38 @@ namespace backcomb::postprocess
       return m;
     }
 
+    // J at 0 V interpolated on a converged curve, if the curve reaches it.
+    std::optional<double>
+    short_circuit_current(const std::vector<fem::JVPoint> &c)
+    {
+      for (std::size_t i = 0; i + 1 < c.size(); ++i)
+        if (c[i].voltage <= 0 && c[i + 1].voltage >= 0)
+          return c[i].current + (0 - c[i].voltage) / (c[i + 1].voltage - c[i].voltage) *
+                                  (c[i + 1].current - c[i].current);
+      if (c.size() == 1 && std::abs(c[0].voltage) < 1e-9)
+        return c[0].current;
+      return std::nullopt;
+    }
+
+    // The metrics; when the curve does not bracket them (a failed point cut
+    // it off), null in place of every number that needs the missing part:
+    // only Jsc can then remain.
     json
-    metrics_json(const fem::JVMetrics &m, double active_scale, double input_power)
+    metrics_json(const fem::JVMetrics &m, const std::optional<double> &jsc, double active_scale,
+                 double input_power)
     {
       if (!m.valid)
-        return nullptr;
+        return {{"Jsc_mA_per_cm2", jsc ? json(*jsc) : json(nullptr)},
+                {"Voc_V", nullptr},
+                {"FF", nullptr},
+                {"Pmax_mW_per_cm2", nullptr},
+                {"Vmp_V", nullptr},
+                {"Jmp_mA_per_cm2", nullptr},
+                {"PCE_percent", nullptr},
+                {"per_active_area",
+                 {{"Jsc_mA_per_cm2", jsc ? json(*jsc * active_scale) : json(nullptr)},
+                  {"Pmax_mW_per_cm2", nullptr},
+                  {"PCE_percent", nullptr}}}};
       json j = {{"Jsc_mA_per_cm2", m.Jsc},   {"Voc_V", m.Voc},  {"FF", m.FF},
                 {"Pmax_mW_per_cm2", m.Pmax}, {"Vmp_V", m.Vmp},  {"Jmp_mA_per_cm2", m.Jmp}};
       j["PCE_percent"] = input_power > 0 ? json(100 * m.Pmax / input_power) : json(nullptr);
@@ -382,6 +516,26 @@ namespace backcomb::postprocess
                               {"PCE_percent", input_power > 0 ? json(100 * m.Pmax * active_scale / input_power)
                                                               : json(nullptr)}};
       return j;
+    }
+
+    // Every bias of a sweep with its status: "converged" with its current,
+    // "failed", or "not computed" (beyond a failure, or when the sweep
+    // could not start), the last two with a null current.
+    void
+    add_points(json &list, const std::string &label, const Sweep &s, const std::vector<double> &grid)
+    {
+      std::map<long, json> rows;
+      auto                 key = [](double v) { return std::lround(v * 1e7); };
+      for (const double v : grid)
+        rows[key(v)] = {{"sweep", label}, {"voltage_V", v}, {"current_mA_per_cm2", nullptr},
+                        {"status", "not computed"}};
+      for (const auto &p : s.points)
+        rows[key(p.jv.voltage)] = {{"sweep", label},
+                                   {"voltage_V", p.jv.voltage},
+                                   {"current_mA_per_cm2", p.jv.converged ? json(p.jv.current) : json(nullptr)},
+                                   {"status", p.jv.converged ? "converged" : "failed"}};
+      for (auto &[k, r] : rows)
+        list.push_back(std::move(r));
     }
 
     std::string
@@ -443,6 +597,14 @@ namespace backcomb::postprocess
 
     const bool root = dealii::Utilities::MPI::this_mpi_process(o.communicator) == 0;
     make_folder(o.folder);
+    // summary.json marks a finished run and describes the files beside it:
+    // remove the previous one before any of them is replaced, so that a
+    // killed run never leaves a summary next to files of another run.
+    if (root)
+      {
+        std::error_code ec;
+        std::filesystem::remove(o.folder + "/summary.json", ec);
+      }
     const auto t_mesh = std::chrono::steady_clock::now();
     dealii::parallel::shared::Triangulation<2> tria(o.communicator);
     build_shared_mesh(c, o.folder + "/mesh.msh", tria, o.communicator);
@@ -459,6 +621,23 @@ namespace backcomb::postprocess
     fem::DriftDiffusionSolver solver(tria, device, c.numerics);
     summary["unknowns"] = solver.n_dofs();
 
+    // Meshes that cannot resolve the physics are reported before the solve.
+    summary["warnings"] = guard_rail_warnings(c, tria);
+    if (root)
+      for (const auto &w : summary["warnings"])
+        std::fprintf(stderr, "backcomb: warning: %s\n", w.get<std::string>().c_str());
+
+    // Converged points go to a checkpoint; those of an interrupted run of
+    // the same case are taken from it.
+    Checkpoint checkpoint(o.folder,
+                          checkpoint_fingerprint(c.echo, c.overrides, o.folder + "/mesh.msh", solver.n_dofs(),
+                                                 dealii::Utilities::MPI::n_mpi_processes(o.communicator)),
+                          o.communicator);
+    Resume resume;
+    resume.stored     = checkpoint.load(o.quiet);
+    resume.checkpoint = &checkpoint;
+    summary["resumed_points"] = resume.stored.size();
+
     const double width  = solver.width_um();
     const double active = (!strip && c.device.active_area == DeviceSettings::ActiveArea::gap)
                             ? c.geometry.gap_um
@@ -469,7 +648,8 @@ namespace backcomb::postprocess
     // Light: equilibrium, light ramp, J-V.
     Sweep      light;
     const auto t_light = std::chrono::steady_clock::now();
-    const fem::StepReport on = fem::illuminate(solver, lit ? 1.0 : 0.0, c.numerics.max_halvings);
+    const fem::StepReport on =
+      start_state(solver, lit ? 1.0 : 0.0, c.numerics.max_halvings, lit ? "light" : "dark", resume);
     light.newton += on.newton_iterations;
     light.halvings += on.halvings;
     double generated = 0;
@@ -482,9 +662,9 @@ namespace backcomb::postprocess
     else
       {
         generated = solver.generation_current();
-        run_sweep(solver, c, lit ? 1.0 : 0.0, light, progress, lit ? "light" : "dark");
+        run_sweep(solver, c, lit ? 1.0 : 0.0, light, progress, lit ? "light" : "dark", resume);
         if (lit)
-          refine(solver, light, c.jv.refine_to, c.numerics.max_halvings);
+          refine(solver, light, c.jv.refine_to, c.numerics.max_halvings, resume);
       }
     const double t_l = seconds_since(t_light);
     const double light_assembly = solver.assembly_seconds(), light_solve = solver.linear_solve_seconds();
@@ -596,7 +776,7 @@ namespace backcomb::postprocess
           });
           if (stored != light.points.end())
             solver.set_state(stored->state, v, 1.0);
-          else if (!solve_near(solver, light, v, 1.0, c.numerics.max_halvings))
+          else if (!solve_near(solver, light, v, 1.0, c.numerics.max_halvings, resume))
             {
               light.failures.push_back("power balance at " + name + " (" + bias_name(v) +
                                        " V): no converged state");
@@ -620,7 +800,7 @@ namespace backcomb::postprocess
         // Suns-V_oc: open circuit at decreasing light, each from the last.
         std::vector<double> levels = c.jv.suns_voc;
         std::sort(levels.rbegin(), levels.rend());
-        if (m0.valid && !levels.empty() && solve_near(solver, light, m0.Voc, 1.0, c.numerics.max_halvings))
+        if (m0.valid && !levels.empty() && solve_near(solver, light, m0.Voc, 1.0, c.numerics.max_halvings, resume))
           {
             double previous = 1.0;
             for (const double s : levels)
@@ -648,10 +828,10 @@ namespace backcomb::postprocess
     const auto t_dark = std::chrono::steady_clock::now();
     if (lit && c.jv.dark)
       {
-        const fem::StepReport eq = fem::illuminate(solver, 0.0, c.numerics.max_halvings);
+        const fem::StepReport eq = start_state(solver, 0.0, c.numerics.max_halvings, "dark", resume);
         dark.newton += eq.newton_iterations;
         if (eq.converged)
-          run_sweep(solver, c, 0.0, dark, progress, "dark");
+          run_sweep(solver, c, 0.0, dark, progress, "dark", resume);
         else
           dark.failures.push_back(eq.diagnostic);
       }
@@ -696,7 +876,7 @@ namespace backcomb::postprocess
                 if (cell_metrics.valid)
                   cell_mpp = cell.solve(cell_metrics.Vmp);
                 cell_json = {{"finger_length_mm", c.electrodes.finger_length_mm},
-                             {"metrics", metrics_json(cell_metrics, width / active, input_power)}};
+                             {"metrics", metrics_json(cell_metrics, cell_metrics.valid ? std::optional<double>(cell_metrics.Jsc) : std::nullopt, width / active, input_power)}};
                 if (cell_mpp)
                   cell_json["at_max_power"] = {
                     {"bias_V", cell_mpp->terminal_voltage},
@@ -722,7 +902,7 @@ namespace backcomb::postprocess
                            {"contacts_ohm_cm2", split.contacts},
                            {"fingers_ohm_cm2", split.fingers},
                            {"pseudo_voltage_at_Jmp_V", film.pseudo_voltage_at_jmp},
-                           {"pseudo_metrics", metrics_json(film.pseudo, width / active, input_power)}};
+                           {"pseudo_metrics", metrics_json(film.pseudo, film.pseudo.Jsc, width / active, input_power)}};
               }
           }
         catch (const std::exception &e)
@@ -743,12 +923,16 @@ namespace backcomb::postprocess
     summary["failures"]     = light.failures;
     for (const auto &f : dark.failures)
       summary["failures"].push_back(f);
-    summary["metrics"]      = lit ? metrics_json(m, width / active, input_power) : json(nullptr);
+    const std::optional<double> jsc = lit ? short_circuit_current(converged_curve(light)) : std::nullopt;
+    summary["metrics"] = lit ? metrics_json(m, jsc, width / active, input_power) : json(nullptr);
+    summary["points"]  = json::array();
+    add_points(summary["points"], lit ? "light" : "dark", light, bias_grid(c));
+    if (lit && c.jv.dark)
+      add_points(summary["points"], "dark", dark, bias_grid(c));
     summary["footprint_width_um"] = width;
     summary["active_width_um"]    = active;
     summary["generation_current_mA_per_cm2"] = generated;
-    summary["collection_efficiency"] =
-      (m.valid && generated > 0) ? json(m.Jsc / generated) : json(nullptr);
+    summary["collection_efficiency"] = (jsc && generated > 0) ? json(*jsc / generated) : json(nullptr);
     summary["newton"] = {{"light_iterations", light.newton}, {"light_halvings", light.halvings},
                          {"dark_iterations", dark.newton}, {"dark_halvings", dark.halvings}};
     summary["timings_s"] = {{"mesh", t_m}, {"light", t_l}, {"dark", t_d},
@@ -815,6 +999,7 @@ namespace backcomb::postprocess
       std::fprintf(stderr, "backcomb: %s\n", w.c_str());
     write_file_atomically(o.folder + "/jv.csv", csv.str());
     write_file_atomically(o.folder + "/summary.json", summary.dump(2) + "\n");
+    checkpoint.remove();
 
     if (m.valid)
       std::printf("Jsc %.3f mA/cm2  Voc %.4f V  FF %.4f  PCE %.3f %% (footprint), %.3f %% (active)  "

@@ -496,8 +496,21 @@ namespace backcomb::postprocess
     run_case(const SweepPlan &plan, const SweepCase &c, const std::string &folder)
     {
       const std::string dir = case_folder(folder, c);
-      std::error_code   ec;
-      fs::remove_all(dir, ec); // leftovers of an interrupted run
+      // Leftovers of an interrupted run go, except the J-V checkpoint, from
+      // which the solve continues where it stopped (it carries its own
+      // fingerprint and is discarded if it belongs to other input).
+      std::error_code ec;
+      if (fs::is_directory(dir, ec))
+        {
+          std::vector<fs::path> old;
+          for (const auto &e : fs::directory_iterator(dir, ec))
+            if (e.path().filename() != "checkpoint")
+              old.push_back(e.path());
+          for (const auto &f : old)
+            fs::remove_all(f, ec);
+        }
+      else
+        fs::remove_all(dir, ec);
       make_folder(dir);
       const auto  t0   = std::chrono::steady_clock::now();
       int         code = exit_internal;

@@ -50,7 +50,7 @@ main(int argc, char **argv)
               double(s["timings_s"]["adjoint_per_solve"]), double(s["timings_s"]["newton_step_light"]),
               double(s["timings_s"]["adjoint_per_solve"]) / double(s["timings_s"]["newton_step_light"]));
   std::printf("  peak resident memory %.1f MB\n", ru.ru_maxrss / 1024.0);
-  if (s["metrics"].is_object())
+  if (s["metrics"].is_object() && s["metrics"]["Voc_V"].is_number())
     std::printf("  Jsc %.3f mA/cm2, Voc %.4f V, FF %.4f, PCE %.3f %%\n", double(s["metrics"]["Jsc_mA_per_cm2"]),
                 double(s["metrics"]["Voc_V"]), double(s["metrics"]["FF"]), double(s["metrics"]["PCE_percent"]));
   std::filesystem::remove_all(out);
