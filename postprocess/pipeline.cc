@@ -294,7 +294,9 @@ namespace backcomb::postprocess
       };
       if (const StoredPoint *q = resume.find("light", v))
         {
-          insert(Resume::point(*q));
+          Point p = Resume::point(*q);
+          solver.set_state(p.state, v, light);
+          insert(std::move(p));
           return true;
         }
       const Point *best = nullptr;
@@ -770,13 +772,21 @@ namespace backcomb::postprocess
     if (lit && on.converged)
       {
         const fem::JVMetrics m0 = fem::jv_metrics(converged_curve(light));
-        auto balance_at = [&](const std::string &name, const double v) {
+        // Puts the solver at bias v under full light: the stored state, or
+        // a solve from the nearest one.
+        auto go_to = [&](const double v) {
           const auto stored = std::find_if(light.points.begin(), light.points.end(), [v](const Point &p) {
             return p.jv.converged && std::abs(p.jv.voltage - v) < 1e-9;
           });
           if (stored != light.points.end())
-            solver.set_state(stored->state, v, 1.0);
-          else if (!solve_near(solver, light, v, 1.0, c.numerics.max_halvings, resume))
+            {
+              solver.set_state(stored->state, v, 1.0);
+              return true;
+            }
+          return solve_near(solver, light, v, 1.0, c.numerics.max_halvings, resume);
+        };
+        auto balance_at = [&](const std::string &name, const double v) {
+          if (!go_to(v))
             {
               light.failures.push_back("power balance at " + name + " (" + bias_name(v) +
                                        " V): no converged state");
@@ -800,7 +810,7 @@ namespace backcomb::postprocess
         // Suns-V_oc: open circuit at decreasing light, each from the last.
         std::vector<double> levels = c.jv.suns_voc;
         std::sort(levels.rbegin(), levels.rend());
-        if (m0.valid && !levels.empty() && solve_near(solver, light, m0.Voc, 1.0, c.numerics.max_halvings, resume))
+        if (m0.valid && !levels.empty() && go_to(m0.Voc))
           {
             double previous = 1.0;
             for (const double s : levels)
