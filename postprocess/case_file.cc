@@ -239,18 +239,24 @@ namespace backcomb::postprocess
   Case
   read_case(const std::string &file, const std::vector<std::string> &overrides)
   {
+    std::error_code ec;
+    if (!std::filesystem::is_regular_file(file, ec))
+      throw InputError(file + ": not a readable case file (missing, or not a regular file)");
+    std::ifstream in(file);
+    if (!in)
+      throw InputError(file + ": cannot open the case file for reading");
+    return read_case(in, file, overrides);
+  }
+
+  Case
+  read_case(std::istream &case_text, const std::string &file, const std::vector<std::string> &overrides)
+  {
     Case c;
     c.file      = file;
     c.overrides = overrides;
     {
-      std::error_code ec;
-      if (!std::filesystem::is_regular_file(file, ec))
-        throw InputError(file + ": not a readable case file (missing, or not a regular file)");
-      std::ifstream in(file);
-      if (!in)
-        throw InputError(file + ": cannot open the case file for reading");
       std::ostringstream s;
-      s << in.rdbuf();
+      s << case_text.rdbuf();
       c.echo = s.str();
     }
     dealii::ParameterHandler prm;
