@@ -50,16 +50,24 @@ namespace backcomb::fem
     }
 
     std::vector<std::string>
-    read_lines(const std::filesystem::path &path, const std::string &what)
+    read_lines(std::istream &in)
+    {
+      std::vector<std::string> lines;
+      for (std::string line; std::getline(in, line);)
+        lines.push_back(line);
+      return lines;
+    }
+
+    // Opens a data file; the readers then take the stream, so that tests and
+    // fuzz targets can feed them text without a file.
+    std::ifstream
+    open_data_file(const std::filesystem::path &path, const std::string &what)
     {
       std::ifstream in(path);
       if (!in)
         throw InputError("cannot open the " + what + " file '" +
                          path.string() + "'");
-      std::vector<std::string> lines;
-      for (std::string line; std::getline(in, line);)
-        lines.push_back(line);
-      return lines;
+      return in;
     }
 
     std::vector<std::string>
@@ -142,12 +150,11 @@ namespace backcomb::fem
     // Reads the two-column CSV layout of our own tables: '#' comments and
     // blank lines anywhere, then the header line, then data rows.
     std::vector<Row>
-    read_two_column_csv(const std::filesystem::path &path,
-                        const std::string           &what,
-                        const std::string           &header)
+    read_two_column_csv(std::istream      &in,
+                        const std::string &file,
+                        const std::string &header)
     {
-      const std::string file  = path.string();
-      const auto        lines = read_lines(path, what);
+      const auto        lines = read_lines(in);
       std::vector<Row>  rows;
       bool              header_seen = false;
       for (std::size_t i = 0; i < lines.size(); ++i)
@@ -247,10 +254,9 @@ namespace backcomb::fem
     // "- type: tabulated nk" and its block "data: |"; the block ends at the
     // first non-blank line indented no deeper than the "data:" key.
     std::vector<Row>
-    read_nk_yaml(const std::filesystem::path &path)
+    read_nk_yaml(std::istream &in, const std::string &file)
     {
-      const std::string file  = path.string();
-      const auto        lines = read_lines(path, "optical constants");
+      const auto        lines = read_lines(in);
       const std::string layout = "wavelength_um n k";
 
       std::size_t i = 0;
@@ -310,10 +316,17 @@ namespace backcomb::fem
   Spectrum
   read_spectrum(const std::filesystem::path &path)
   {
+    auto in = open_data_file(path, "spectrum");
+    return read_spectrum(in, path.string());
+  }
+
+  Spectrum
+  read_spectrum(std::istream &in, const std::string &file_name)
+  {
     Spectrum spectrum;
-    spectrum.file     = path.string();
+    spectrum.file     = file_name;
     const auto &file  = spectrum.file;
-    const auto  lines = read_lines(path, "spectrum");
+    const auto  lines = read_lines(in);
 
     std::vector<Row> rows;
     std::size_t      columns = 0;
@@ -357,17 +370,24 @@ namespace backcomb::fem
   OpticalConstants
   read_optical_constants(const std::filesystem::path &path)
   {
+    auto in = open_data_file(path, "optical constants");
+    return read_optical_constants(in, path.string());
+  }
+
+  OpticalConstants
+  read_optical_constants(std::istream &in, const std::string &file_name)
+  {
     OpticalConstants constants;
-    constants.file    = path.string();
+    constants.file    = file_name;
     const auto &file  = constants.file;
-    std::string ext   = path.extension().string();
+    std::string ext   = std::filesystem::path(file_name).extension().string();
     std::transform(ext.begin(), ext.end(), ext.begin(), [](unsigned char c) {
       return std::tolower(c);
     });
 
     if (ext == ".yml" || ext == ".yaml")
       {
-        const auto rows = read_nk_yaml(path);
+        const auto rows = read_nk_yaml(in, file);
         require_rows(file, rows, 2);
         require_increasing(file, rows, "wavelength");
         constants.kind = OpticalConstants::Kind::nk;
@@ -384,7 +404,7 @@ namespace backcomb::fem
     else
       {
         const auto rows =
-          read_two_column_csv(path, "optical constants", "wavelength_nm,alpha_per_cm");
+          read_two_column_csv(in, file, "wavelength_nm,alpha_per_cm");
         require_rows(file, rows, 2);
         require_increasing(file, rows, "wavelength");
         constants.kind = OpticalConstants::Kind::alpha;
@@ -435,8 +455,9 @@ namespace backcomb::fem
   {
     DepthTable table;
     table.file       = path.string();
-    const auto  rows = read_two_column_csv(path,
-                                          "depth table",
+    auto        in   = open_data_file(path, "depth table");
+    const auto  rows = read_two_column_csv(in,
+                                          table.file,
                                           "depth_nm,generation_per_cm3_s");
     require_rows(table.file, rows, 2);
     require_increasing(table.file, rows, "depth");

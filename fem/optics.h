@@ -10,6 +10,7 @@
 #include <deal.II/base/parameter_handler.h>
 
 #include <filesystem>
+#include <istream>
 #include <optional>
 #include <string>
 #include <vector>
@@ -33,6 +34,9 @@ namespace backcomb::fem
   // (AM1.5G) column is used. Throws InputError naming file, line and text.
   Spectrum
   read_spectrum(const std::filesystem::path &path);
+  // The same from a stream; `file` names it in messages.
+  Spectrum
+  read_spectrum(std::istream &in, const std::string &file);
 
   // Absorption data of the absorber, either as complex refractive index
   // (n, k) or directly as absorption coefficient.
@@ -62,6 +66,10 @@ namespace backcomb::fem
   // Throws InputError naming file, line and the offending text.
   OpticalConstants
   read_optical_constants(const std::filesystem::path &path);
+  // The same from a stream; the extension of `file` selects the format and
+  // `file` names the stream in messages.
+  OpticalConstants
+  read_optical_constants(std::istream &in, const std::string &file);
 
   // Throws InputError (naming the file, the needed and the available range)
   // unless the table covers [lo_nm, hi_nm].

@@ -2,6 +2,7 @@
 
 #include "geometry/input.h"
 
+#include <cctype>
 #include <cmath>
 #include <filesystem>
 #include <iomanip>
@@ -101,6 +102,54 @@ namespace backcomb::postprocess
         }
       return 0;
     }
+    // deal.II's ParameterHandler reads a line "include <file>" by parsing
+    // that file in place, recursively and without a limit: a case file that
+    // includes itself overflows the stack, and an include of /dev/zero or
+    // /dev/stdin never ends. backcomb neither uses nor documents the
+    // directive, so it is refused before deal.II sees the text. The test
+    // errs on the safe side: each physical line, and each line joined with
+    // its backslash continuations, is checked after removing the comment.
+    void
+    refuse_include(const std::string &text, const std::string &file)
+    {
+      const auto is_include = [](std::string line) {
+        line = line.substr(0, line.find('#'));
+        const auto first = line.find_first_not_of(" \t\r");
+        if (first == std::string::npos)
+          return false;
+        line.erase(0, first);
+        std::string word = line.substr(0, 8);
+        for (char &ch : word)
+          ch = static_cast<char>(std::tolower(static_cast<unsigned char>(ch)));
+        return word == "include " || word == "include\t";
+      };
+      const auto check = [&](const std::string &line, const unsigned no) {
+        if (is_include(line))
+          throw InputError(file + ":" + std::to_string(no) + ": '" +
+                           line.substr(0, line.find_last_not_of(" \t\r") + 1) +
+                           "': 'include' lines are not supported (an included file is read "
+                           "without a depth limit); put every entry into the case file itself");
+      };
+      std::istringstream in(text);
+      std::string        joined;
+      unsigned           no = 0, joined_from = 1;
+      for (std::string line; std::getline(in, line);)
+        {
+          ++no;
+          const auto last      = line.find_last_not_of(" \t\r");
+          const bool continued = last != std::string::npos && line[last] == '\\';
+          joined += continued ? line.substr(0, last) : line;
+          check(line, no);
+          if (!continued)
+            {
+              check(joined, joined_from);
+              joined.clear();
+              joined_from = no + 1;
+            }
+        }
+      check(joined, joined_from);
+    }
+
     // Checks that need entries of several sections.
     void
     check_consistency(const Case &c, dealii::ParameterHandler &prm)
@@ -248,20 +297,27 @@ namespace backcomb::postprocess
   Case
   read_case(const std::string &file, const std::vector<std::string> &overrides)
   {
+    std::error_code ec;
+    if (!std::filesystem::is_regular_file(file, ec))
+      throw InputError(file + ": not a readable case file (missing, or not a regular file)");
+    std::ifstream in(file);
+    if (!in)
+      throw InputError(file + ": cannot open the case file for reading");
+    return read_case(in, file, overrides);
+  }
+
+  Case
+  read_case(std::istream &case_text, const std::string &file, const std::vector<std::string> &overrides)
+  {
     Case c;
     c.file      = file;
     c.overrides = overrides;
     {
-      std::error_code ec;
-      if (!std::filesystem::is_regular_file(file, ec))
-        throw InputError(file + ": not a readable case file (missing, or not a regular file)");
-      std::ifstream in(file);
-      if (!in)
-        throw InputError(file + ": cannot open the case file for reading");
       std::ostringstream s;
-      s << in.rdbuf();
+      s << case_text.rdbuf();
       c.echo = s.str();
     }
+    refuse_include(c.echo, file);
     dealii::ParameterHandler prm;
     declare_case(prm);
     try

@@ -12,6 +12,7 @@
 
 #include <deal.II/base/parameter_handler.h>
 
+#include <istream>
 #include <string>
 #include <vector>
 
@@ -74,6 +75,11 @@ namespace backcomb::postprocess
   // Reads `file`, applies the overrides in order and checks everything.
   // Throws InputError with a message "file:line: Section/Name = value: why".
   Case read_case(const std::string &file, const std::vector<std::string> &overrides);
+
+  // The same with the case text from a stream; `file` names it in messages
+  // and relative data-file paths are resolved against its folder.
+  Case read_case(std::istream &case_text, const std::string &file,
+                 const std::vector<std::string> &overrides);
 
   // Splits "Section/Sub/Name=value" into path and value; throws InputError.
   std::pair<std::string, std::string> split_override(const std::string &text);
