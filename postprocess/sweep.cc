@@ -1289,11 +1289,15 @@ namespace backcomb::postprocess
   recommend(const SweepPlan &plan, const std::vector<SweepRow> &rows)
   {
     Recommendation rec;
+    // With electrodes specified the whole comb cell's PCE decides (a wider
+    // pitch loads each finger with more current); otherwise the period's.
+    const bool cell = std::any_of(rows.begin(), rows.end(), [](const SweepRow &r) { return bool(r.PCE_cell); });
+    auto       pce  = [cell](const SweepRow &r) { return cell ? r.PCE_cell : r.PCE; };
     for (std::size_t i = 0; i < rows.size(); ++i)
-      if (rows[i].PCE && (!rec.valid || *rows[i].PCE > *rows[rec.best].PCE))
+      if (pce(rows[i]) && (!rec.valid || *pce(rows[i]) > *pce(rows[rec.best])))
         rec.best = i, rec.valid = true;
     const SweptEntry &first = plan.entries.front();
-    if (!rec.valid || !(*rows[rec.best].PCE > 0))
+    if (!rec.valid || !(*pce(rows[rec.best]) > 0))
       {
         rec.valid = false;
         rec.text  = "No recommendation: no case delivered power (see the status column).";
@@ -1309,8 +1313,8 @@ namespace backcomb::postprocess
       if (std::find(l.begin(), l.end(), rec.best) != l.end())
         line = l;
     const auto   at    = std::size_t(std::find(line.begin(), line.end(), rec.best) - line.begin());
-    const double limit = (1 - near_best_tolerance) * *best.PCE;
-    auto         near  = [&](std::size_t k) { return rows[line[k]].PCE && *rows[line[k]].PCE >= limit; };
+    const double limit = (1 - near_best_tolerance) * *pce(best);
+    auto         near  = [&](std::size_t k) { return pce(rows[line[k]]) && *pce(rows[line[k]]) >= limit; };
     std::size_t  lo = at, hi = at;
     while (lo > 0 && near(lo - 1))
       --lo;
@@ -1324,7 +1328,7 @@ namespace backcomb::postprocess
     text << "Best " << first.path << ": " << with_unit(best.values[0], first.unit);
     if (!others.empty())
       text << " (with " << others << ")";
-    text << ", PCE " << format_number(*best.PCE, 4) << " % per footprint";
+    text << ", PCE " << format_number(*pce(best), 4) << (cell ? " % of the whole comb cell" : " % per footprint");
     if (best.collection_efficiency)
       text << ", collection efficiency " << format_number(*best.collection_efficiency, 4);
     text << ". ";
@@ -1363,6 +1367,10 @@ namespace backcomb::postprocess
     if (all_numeric(plan.entries[0].values))
       {
         SweepPlotData data;
+        // The same figure of merit as the recommendation.
+        const bool cell = std::any_of(rows.begin(), rows.end(), [](const SweepRow &r) { return bool(r.PCE_cell); });
+        if (cell)
+          data.pce_label = "PCE of the comb cell (%)";
         std::string   unit = plan.entries[0].unit == "um" ? "µm" : plan.entries[0].unit;
         data.x_label       = plan.entries[0].path + (unit.empty() ? "" : " (" + unit + ")");
         for (const auto &line : lines_of(plan, rows))
@@ -1375,7 +1383,7 @@ namespace backcomb::postprocess
             for (const auto i : line)
               {
                 s.x.push_back(*to_number(rows[i].values[0]));
-                s.pce.push_back(rows[i].PCE.value_or(nan));
+                s.pce.push_back((cell ? rows[i].PCE_cell : rows[i].PCE).value_or(nan));
                 s.eta.push_back(rows[i].collection_efficiency.value_or(nan));
               }
             data.series.push_back(std::move(s));
@@ -1383,7 +1391,7 @@ namespace backcomb::postprocess
         if (rec.valid)
           {
             data.best_x      = to_number(rows[rec.best].values[0]);
-            data.best_pce    = rows[rec.best].PCE;
+            data.best_pce    = cell ? rows[rec.best].PCE_cell : rows[rec.best].PCE;
             data.range_from  = to_number(rows[rec.near_best.front()].values[0]);
             data.range_to    = to_number(rows[rec.near_best.back()].values[0]);
             data.range_label = "within " + format_number(100 * near_best_tolerance, 3) + " % of the highest PCE";
@@ -1421,6 +1429,7 @@ namespace backcomb::postprocess
                                {"best_case", rows[rec.best].id},
                                {"best_values", best_values},
                                {"PCE_percent", json_number(rows[rec.best].PCE)},
+                               {"PCE_cell_percent", json_number(rows[rec.best].PCE_cell)},
                                {"collection_efficiency", json_number(rows[rec.best].collection_efficiency)},
                                {"criterion", "highest PCE per footprint"},
                                {"tolerance_relative", near_best_tolerance},

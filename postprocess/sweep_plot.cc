@@ -203,7 +203,7 @@ namespace backcomb::postprocess
       // text that comes from the user is escaped.
       pls.adv(0);
       pls.schr(0, 0.85);
-      draw_panel(pls, d, axes, &PlotSeries::pce, 0.55, 0.92, "PCE per footprint (%)", false, true);
+      draw_panel(pls, d, axes, &PlotSeries::pce, 0.55, 0.92, d.pce_label, false, true);
       pls.mtex("t", 1.5, 0.5, 0.5, ("Power conversion and collection efficiency vs. " + escaped(d.x_label)).c_str());
       draw_panel(pls, d, axes, &PlotSeries::eta, 0.12, 0.49, "collection efficiency η#dc#u", true,
                  false);

@@ -19,6 +19,7 @@ namespace backcomb::postprocess
   struct SweepPlotData
   {
     std::string             x_label; // entry and unit
+    std::string             pce_label = "PCE per footprint (%)"; // y label of the upper panel
     std::vector<PlotSeries> series;
     // Best point and the range within the tolerance of the best PCE.
     std::optional<double> best_x, best_pce, range_from, range_to;

@@ -227,6 +227,31 @@ TEST(SweepRecommendation, BestAndNearBestRange)
   EXPECT_FALSE(recommend(plan, rows).valid);
 }
 
+// With the whole comb cell computed, its PCE decides: the fingers'
+// resistance moves the best gap to a narrower pitch (numbers constructed).
+TEST(SweepRecommendation, WholeCellPceDecidesWhenPresent)
+{
+  SweepPlan plan;
+  plan.entries = {{"Geometry/Gap", {"5", "10", "20"}, "um"}};
+  std::vector<SweepRow> rows;
+  const std::vector<double> period = {9.0, 9.5, 10.0}, cell = {9.1, 9.2, 8.0};
+  for (std::size_t i = 0; i < period.size(); ++i)
+    {
+      SweepRow r;
+      r.id       = "Gap=" + plan.entries[0].values[i];
+      r.values   = {plan.entries[0].values[i]};
+      r.status   = "converged";
+      r.PCE      = period[i];
+      r.PCE_cell = cell[i];
+      rows.push_back(r);
+    }
+  const Recommendation rec = recommend(plan, rows);
+  ASSERT_TRUE(rec.valid);
+  EXPECT_EQ(rec.best, 1u);
+  EXPECT_EQ(rec.near_best, (std::vector<std::size_t>{0, 1}));
+  EXPECT_NE(rec.text.find("whole comb cell"), std::string::npos) << rec.text;
+}
+
 // A sweep killed part-way resumes without recomputing finished cases, and
 // the final table equals that of an uninterrupted run.
 TEST(SweepRun, ResumeRecomputesOnlyUnfinishedCases)
