@@ -247,7 +247,7 @@ namespace backcomb::postprocess
     declare_number(prm, "Maximum power point resolution", "0.002",
                    "Bias step in V to which the sweep is refined around the maximum power "
                    "point, 1e-5..1.");
-    prm.declare_entry("Suns-Voc intensities", "1, 0.3, 0.1, 0.03, 0.01", dealii::Patterns::Anything(),
+    prm.declare_entry("Suns-Voc intensities", "1, 0.3, 0.1, 0.03, 0.01, 0.003, 0.001", dealii::Patterns::Anything(),
                       "Comma-separated light levels, as fractions of the Illumination "
                       "intensity in (0, 1], at which the open-circuit voltage is found for "
                       "the suns-Voc pseudo J-V and the series resistance; empty: none.");

@@ -35,7 +35,7 @@ namespace backcomb::postprocess
     double refine_to    = 0.002;  // V, step near the maximum power point
     // Light factors (of the case's intensity) at which V_oc is found for
     // the suns-V_oc pseudo J-V; empty: none.
-    std::vector<double> suns_voc{1.0, 0.3, 0.1, 0.03, 0.01};
+    std::vector<double> suns_voc{1.0, 0.3, 0.1, 0.03, 0.01, 0.003, 0.001};
   };
 
   // Section "Output".

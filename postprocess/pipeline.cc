@@ -30,6 +30,7 @@
 #include <map>
 #include <optional>
 #include <sstream>
+#include <stdexcept>
 #include <unistd.h>
 
 namespace backcomb::postprocess
@@ -917,7 +918,11 @@ namespace backcomb::postprocess
           }
         catch (const std::exception &e)
           {
-            light.failures.push_back(std::string("comb cell and series resistance: ") + e.what());
+            light.failures.push_back(std::string("comb cell and series resistance: ") + e.what() +
+                                     (dynamic_cast<const std::domain_error *>(&e)
+                                        ? " (extend J-V sweep/Suns-Voc intensities to lower light, or the J-V "
+                                          "sweep to higher voltage)"
+                                        : ""));
             if (status == "converged")
               status = "partial";
           }

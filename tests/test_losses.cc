@@ -229,7 +229,7 @@ TEST(PowerBalance, DemoClosesAtThreeGaps)
             }
         }
       EXPECT_TRUE(fs::exists(folder / "losses.csv"));
-      EXPECT_EQ(s["suns_voc"].size(), gap == 20.0 ? 5u : 0u);
+      EXPECT_EQ(s["suns_voc"].size(), gap == 20.0 ? 7u : 0u);
     }
   fs::remove_all(dir);
 }
