@@ -584,41 +584,44 @@ namespace backcomb::fem
            integrate_trapezoid(w, integrand);
   }
 
+  namespace
+  {
+    // q int Phi(lambda) A(lambda) w(lambda) dlambda in mA/cm^2 (w = 1) or
+    // mW/cm^2 (w = photon energy in eV), with the absorptance A of the
+    // passes: per wavelength, int_0^t alpha e^{-alpha d} dd = 1 - e^{-alpha
+    // t} and the reflected pass adds R_b e^{-alpha t} (1 - e^{-alpha t}).
+    double
+    absorbed_integral(const AboveGapSpectrum &above_gap,
+                      const BeerLambert      &optics,
+                      const bool              weight_by_energy)
+    {
+      const auto         &w = above_gap.wavelength_nm;
+      const double        t = 1e-4 * optics.thickness_um;
+      std::vector<double> integrand(w.size());
+      for (std::size_t i = 0; i < w.size(); ++i)
+        {
+          const double transmitted = std::exp(-above_gap.alpha_per_cm[i] * t);
+          integrand[i] = (weight_by_energy ? photon_energy_eV(w[i]) : 1.0) *
+                         above_gap.photon_flux[i] * (1 - transmitted) *
+                         (1 + optics.back_reflectance * transmitted);
+        }
+      return 1e3 * constants::q * optics.intensity_suns *
+             (1 - optics.front_reflectance) * integrate_trapezoid(w, integrand);
+    }
+  } // namespace
+
   double
   beer_lambert_absorbed_current(const AboveGapSpectrum &above_gap,
                                 const BeerLambert      &optics)
   {
-    // Per wavelength, int_0^t alpha e^{-alpha d} dd = 1 - e^{-alpha t} and
-    // the reflected pass adds R_b e^{-alpha t} (1 - e^{-alpha t}).
-    const auto         &w = above_gap.wavelength_nm;
-    const double        t = 1e-4 * optics.thickness_um;
-    std::vector<double> integrand(w.size());
-    for (std::size_t i = 0; i < w.size(); ++i)
-      {
-        const double transmitted = std::exp(-above_gap.alpha_per_cm[i] * t);
-        integrand[i] = above_gap.photon_flux[i] * (1 - transmitted) *
-                       (1 + optics.back_reflectance * transmitted);
-      }
-    return 1e3 * constants::q * optics.intensity_suns *
-           (1 - optics.front_reflectance) * integrate_trapezoid(w, integrand);
+    return absorbed_integral(above_gap, optics, false);
   }
 
   double
   beer_lambert_absorbed_power(const AboveGapSpectrum &above_gap,
                               const BeerLambert      &optics)
   {
-    const auto         &w = above_gap.wavelength_nm;
-    const double        t = 1e-4 * optics.thickness_um;
-    std::vector<double> integrand(w.size());
-    for (std::size_t i = 0; i < w.size(); ++i)
-      {
-        const double transmitted = std::exp(-above_gap.alpha_per_cm[i] * t);
-        integrand[i] = photon_energy_eV(w[i]) * above_gap.photon_flux[i] *
-                       (1 - transmitted) *
-                       (1 + optics.back_reflectance * transmitted);
-      }
-    return 1e3 * constants::q * optics.intensity_suns *
-           (1 - optics.front_reflectance) * integrate_trapezoid(w, integrand);
+    return absorbed_integral(above_gap, optics, true);
   }
 
   // ----------------------------------------------------------- case file

@@ -10,6 +10,8 @@
 #include "postprocess/pipeline.h"
 #include "postprocess/sweep.h"
 
+#include "tests/temp_folder.h"
+
 #include <gtest/gtest.h>
 #include <nlohmann/json.hpp>
 
@@ -22,18 +24,11 @@
 using namespace backcomb;
 namespace fs = std::filesystem;
 
+using test_support::fresh_folder;
+
 namespace
 {
   const std::string tiny_case = std::string(BACKCOMB_TEST_SOURCE_DIR) + "/sweep_tiny.prm";
-
-  fs::path
-  fresh_folder(const std::string &name)
-  {
-    const fs::path p = fs::temp_directory_path() / ("backcomb-test-" + name + "-" + std::to_string(::getpid()));
-    fs::remove_all(p);
-    fs::create_directories(p);
-    return p;
-  }
 
   nlohmann::json
   read_json(const fs::path &f)

@@ -5,6 +5,8 @@
 #include "postprocess/case_file.h"
 #include "postprocess/pipeline.h"
 
+#include "tests/temp_folder.h"
+
 #include <gtest/gtest.h>
 #include <nlohmann/json.hpp>
 #include <vtkCellData.h>
@@ -20,17 +22,10 @@
 using namespace backcomb;
 namespace fs = std::filesystem;
 
+using test_support::fresh_folder;
+
 namespace
 {
-  fs::path
-  fresh_folder(const std::string &name)
-  {
-    const fs::path p = fs::temp_directory_path() / ("backcomb-test-" + name + "-" + std::to_string(::getpid()));
-    fs::remove_all(p);
-    fs::create_directories(p);
-    return p;
-  }
-
   std::string
   write_case(const fs::path &folder, const std::string &text)
   {
