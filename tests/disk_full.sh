@@ -5,28 +5,13 @@
 # complete version of the file must survive unchanged.
 #   disk_full.sh BINARY SHIM CASE
 set -euo pipefail
+source "$(dirname "${BASH_SOURCE[0]}")/shell_checks.sh"
 binary=$1
 shim=$2
 case_file=$3
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
 cd "$work"
-
-fail() {
-  echo "FAIL: $*" >&2
-  exit 1
-}
-
-expect_exit() {
-  local want=$1
-  shift
-  local got=0
-  "$@" >out.log 2>&1 || got=$?
-  if ((got != want)); then
-    cat out.log >&2
-    fail "expected exit $want, got $got: $*"
-  fi
-}
 
 # Runs the program with ENOSPC on files whose path contains $1, after $2 bytes.
 full_disk() {

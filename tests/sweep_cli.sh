@@ -4,29 +4,13 @@
 #   sweep_cli.sh BINARY CASE mpi      `mpirun -np 2` gives the serial table
 # Each mode works in a fresh temporary folder and removes it at the end.
 set -euo pipefail
+source "$(dirname "${BASH_SOURCE[0]}")/shell_checks.sh"
 binary=$1
 case_file=$2
 mode=$3
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
 cd "$work"
-
-fail() {
-  echo "FAIL: $*" >&2
-  exit 1
-}
-
-# Runs a command and checks its exit code.
-expect_exit() {
-  local want=$1
-  shift
-  local got=0
-  "$@" >out.log 2>&1 || got=$?
-  if ((got != want)); then
-    cat out.log >&2
-    fail "expected exit $want, got $got: $*"
-  fi
-}
 
 vary=(--vary "Geometry/Strip length=0.5,1,2")
 
