@@ -1,10 +1,10 @@
 // backcomb command-line driver: parses the command line, reads the case and
 // hands it to the pipeline. Every failure ends with a message and one of the
 // exit codes documented in README.md.
-#include "geometry/input.h"
-#include "postprocess/case_file.h"
-#include "postprocess/pipeline.h"
-#include "postprocess/sweep.h"
+#include "base/entries.h"
+#include "simulator/case_file.h"
+#include "simulator/case_run.h"
+#include "study/study.h"
 
 #include <deal.II/base/exceptions.h>
 #include <deal.II/base/mpi.h>
@@ -141,7 +141,7 @@ main(int argc, char **argv)
     {
       if (args.command == "template")
         {
-          std::cout << postprocess::default_case_text();
+          std::cout << simulator::default_case_text();
           return exit_ok;
         }
       if (args.command == "merge")
@@ -151,7 +151,7 @@ main(int argc, char **argv)
               std::fprintf(stderr, "backcomb: merge takes only the sweep folder (and --quiet)\n\n%s", usage);
               return exit_usage;
             }
-          return rank() == 0 ? postprocess::merge_sweep(args.case_file, args.quiet) : exit_ok;
+          return rank() == 0 ? study::merge_sweep(args.case_file, args.quiet) : exit_ok;
         }
       if (args.command != "mesh" && args.command != "solve" && args.command != "sweep")
         {
@@ -167,26 +167,26 @@ main(int argc, char **argv)
         {
           // Every rank checks the whole grid: the same input gives every
           // rank the same error, so all stop alike before anything is written.
-          const postprocess::SweepPlan plan =
-            postprocess::make_plan(args.case_file, args.overrides, args.vary);
-          postprocess::SweepOptions options;
+          const study::SweepPlan plan =
+            study::make_plan(args.case_file, args.overrides, args.vary);
+          study::SweepOptions options;
           options.folder = args.out.empty()
-                             ? postprocess::read_case(args.case_file, args.overrides).output.folder
+                             ? simulator::read_case(args.case_file, args.overrides).output.folder
                              : args.out;
           options.quiet        = args.quiet;
           options.task         = args.task;
           options.tasks        = args.tasks;
           options.retry_failed = args.retry_failed;
-          return postprocess::run_sweep(plan, options);
+          return study::run_sweep(plan, options);
         }
-      const postprocess::Case c = postprocess::read_case(args.case_file, args.overrides);
+      const simulator::Case c = simulator::read_case(args.case_file, args.overrides);
       const std::string       out = args.out.empty() ? c.output.folder : args.out;
-      postprocess::RunOptions options;
+      simulator::RunOptions options;
       options.folder = out;
       options.quiet  = args.quiet;
       if (args.command == "mesh")
-        return postprocess::run_mesh(c, options);
-      return postprocess::run_solve(c, options);
+        return simulator::run_mesh(c, options);
+      return simulator::run_solve(c, options);
     }
   catch (const InputError &e)
     {
@@ -195,7 +195,7 @@ main(int argc, char **argv)
         std::fprintf(stderr, "backcomb: input error: %s\n", e.what());
       return exit_input;
     }
-  catch (const postprocess::OutputError &e)
+  catch (const OutputError &e)
     {
       std::fprintf(stderr, "backcomb: output error: %s\n", e.what());
       return exit_io;

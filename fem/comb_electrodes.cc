@@ -1,6 +1,6 @@
 #include "fem/comb_electrodes.h"
 
-#include "geometry/input.h"
+#include "base/entries.h"
 
 #include <deal.II/base/quadrature_lib.h>
 #include <deal.II/lac/sparse_direct.h>

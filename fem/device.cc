@@ -1,7 +1,7 @@
 #include "fem/device.h"
 
 #include "fem/constants.h"
-#include "geometry/input.h"
+#include "base/entries.h"
 
 #include <cmath>
 #include <sstream>

@@ -1,7 +1,7 @@
 #include "fem/optics.h"
 
 #include "fem/constants.h"
-#include "geometry/input.h"
+#include "base/entries.h"
 
 #include <algorithm>
 #include <cctype>

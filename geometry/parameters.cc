@@ -1,6 +1,6 @@
 #include "geometry/parameters.h"
 
-#include "geometry/input.h"
+#include "base/entries.h"
 
 #include <sstream>
 

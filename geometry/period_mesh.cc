@@ -2,7 +2,7 @@
 
 #include "geometry/grading.h"
 #include "geometry/ids.h"
-#include "geometry/input.h"
+#include "base/entries.h"
 
 #include <deal.II/grid/grid_in.h>
 

@@ -1,6 +1,6 @@
 #include "postprocess/losses.h"
 
-#include "postprocess/sweep_plot.h"
+#include "postprocess/plots.h"
 
 #include <algorithm>
 #include <cmath>

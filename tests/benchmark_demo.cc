@@ -3,8 +3,8 @@
 // refinement near the maximum power point and V_oc; no dark sweep, no fields). Reports wall time, Newton
 // iterations per bias point, unknowns, the time split and the peak resident
 // memory. Run: build/tests/benchmark_demo [path/to/cases/demo.prm]
-#include "postprocess/case_file.h"
-#include "postprocess/pipeline.h"
+#include "simulator/case_file.h"
+#include "simulator/case_run.h"
 
 #include <deal.II/base/mpi.h>
 
@@ -23,14 +23,14 @@ main(int argc, char **argv)
   const std::string demo = argc > 1 ? argv[1] : std::string(BACKCOMB_SOURCE_DIR) + "/cases/demo.prm";
   const auto        out  = std::filesystem::temp_directory_path() / "backcomb-benchmark";
   std::filesystem::remove_all(out);
-  const backcomb::postprocess::Case c = backcomb::postprocess::read_case(
+  const backcomb::simulator::Case c = backcomb::simulator::read_case(
     demo, {"Geometry/Gap=50", "J-V sweep/Dark sweep=false", "J-V sweep/Voltage step=0.04",
            "Output/Write fields=false"});
-  backcomb::postprocess::RunOptions o;
+  backcomb::simulator::RunOptions o;
   o.folder       = out.string();
   o.quiet        = true;
   const auto t0  = std::chrono::steady_clock::now();
-  const int  code = backcomb::postprocess::run_solve(c, o);
+  const int  code = backcomb::simulator::run_solve(c, o);
   const double wall = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
   std::ifstream in(out / "summary.json");
   const auto    s = nlohmann::json::parse(in);

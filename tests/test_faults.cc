@@ -4,11 +4,11 @@
 // The cases are the tiny test strip of tests/sweep_tiny.prm (round generic
 // values, not data of any material) with overrides.
 #include "geometry/period_mesh.h"
-#include "postprocess/case_file.h"
-#include "postprocess/checkpoint.h"
-#include "postprocess/guard_rails.h"
-#include "postprocess/pipeline.h"
-#include "postprocess/sweep.h"
+#include "simulator/case_file.h"
+#include "simulator/checkpoint.h"
+#include "simulator/guard_rails.h"
+#include "simulator/case_run.h"
+#include "study/study.h"
 
 #include "tests/temp_folder.h"
 
@@ -38,21 +38,21 @@ namespace
   }
 
   int
-  solve(const postprocess::Case &c, const fs::path &folder)
+  solve(const simulator::Case &c, const fs::path &folder)
   {
-    postprocess::RunOptions o;
+    simulator::RunOptions o;
     o.folder = folder.string();
     o.quiet  = true;
-    return postprocess::run_solve(c, o);
+    return simulator::run_solve(c, o);
   }
 
   std::vector<std::string>
   warnings_of(const std::vector<std::string> &overrides)
   {
-    const postprocess::Case  c = postprocess::read_case(tiny_case, overrides);
+    const simulator::Case  c = simulator::read_case(tiny_case, overrides);
     dealii::Triangulation<2> tria;
     geometry::build_triangulation(c.geometry, c.mesh, tria);
-    return postprocess::guard_rail_warnings(c, tria);
+    return simulator::guard_rail_warnings(c, tria);
   }
 
   bool
@@ -67,7 +67,7 @@ namespace
 // recognised as damaged.
 TEST(Checkpoint, PointRoundTripAndDamage)
 {
-  postprocess::StoredPoint p;
+  simulator::StoredPoint p;
   p.sweep    = "light";
   p.voltage  = 0.35;
   p.current  = -12.5;
@@ -76,10 +76,10 @@ TEST(Checkpoint, PointRoundTripAndDamage)
   p.state.reinit(5);
   for (unsigned i = 0; i < 5; ++i)
     p.state[i] = std::exp(-3.0 * i) - 1e-300 * i;
-  const std::string bytes = postprocess::encode_point(p);
+  const std::string bytes = simulator::encode_point(p);
 
-  postprocess::StoredPoint q;
-  ASSERT_TRUE(postprocess::decode_point(bytes, q));
+  simulator::StoredPoint q;
+  ASSERT_TRUE(simulator::decode_point(bytes, q));
   EXPECT_EQ(q.sweep, "light");
   EXPECT_EQ(q.voltage, 0.35);
   EXPECT_EQ(q.current, -12.5);
@@ -91,8 +91,8 @@ TEST(Checkpoint, PointRoundTripAndDamage)
 
   std::string flipped = bytes;
   flipped[bytes.size() / 2] ^= 1;
-  EXPECT_FALSE(postprocess::decode_point(flipped, q));
-  EXPECT_FALSE(postprocess::decode_point(bytes.substr(0, bytes.size() - 9), q));
+  EXPECT_FALSE(simulator::decode_point(flipped, q));
+  EXPECT_FALSE(simulator::decode_point(bytes.substr(0, bytes.size() - 9), q));
 }
 
 // The fingerprint changes with every input that changes the stored states.
@@ -101,15 +101,15 @@ TEST(Checkpoint, FingerprintFollowsTheInput)
   const fs::path dir = fresh_folder("fingerprint");
   std::ofstream(dir / "a.msh") << "$MeshFormat\n4.1 0 8\n$EndMeshFormat\n";
   const std::string msh = (dir / "a.msh").string();
-  const std::string f   = postprocess::checkpoint_fingerprint("case", {"A/B=1"}, msh, 100, 1);
-  EXPECT_EQ(f, postprocess::checkpoint_fingerprint("case", {"A/B=1"}, msh, 100, 1));
-  EXPECT_NE(f, postprocess::checkpoint_fingerprint("case ", {"A/B=1"}, msh, 100, 1));
-  EXPECT_NE(f, postprocess::checkpoint_fingerprint("case", {"A/B=2"}, msh, 100, 1));
-  EXPECT_NE(f, postprocess::checkpoint_fingerprint("case", {"A/B", "=1"}, msh, 100, 1));
-  EXPECT_NE(f, postprocess::checkpoint_fingerprint("case", {"A/B=1"}, msh, 101, 1));
-  EXPECT_NE(f, postprocess::checkpoint_fingerprint("case", {"A/B=1"}, msh, 100, 2));
+  const std::string f   = simulator::checkpoint_fingerprint("case", {"A/B=1"}, msh, 100, 1);
+  EXPECT_EQ(f, simulator::checkpoint_fingerprint("case", {"A/B=1"}, msh, 100, 1));
+  EXPECT_NE(f, simulator::checkpoint_fingerprint("case ", {"A/B=1"}, msh, 100, 1));
+  EXPECT_NE(f, simulator::checkpoint_fingerprint("case", {"A/B=2"}, msh, 100, 1));
+  EXPECT_NE(f, simulator::checkpoint_fingerprint("case", {"A/B", "=1"}, msh, 100, 1));
+  EXPECT_NE(f, simulator::checkpoint_fingerprint("case", {"A/B=1"}, msh, 101, 1));
+  EXPECT_NE(f, simulator::checkpoint_fingerprint("case", {"A/B=1"}, msh, 100, 2));
   std::ofstream(dir / "a.msh", std::ios::app) << "$Nodes\n";
-  EXPECT_NE(f, postprocess::checkpoint_fingerprint("case", {"A/B=1"}, msh, 100, 1));
+  EXPECT_NE(f, simulator::checkpoint_fingerprint("case", {"A/B=1"}, msh, 100, 1));
   fs::remove_all(dir);
 }
 
@@ -121,14 +121,14 @@ TEST(Checkpoint, FingerprintFollowsTheInput)
 TEST(Checkpoint, ResumedRunEqualsUninterruptedRun)
 {
   const fs::path dir = fresh_folder("resume");
-  const postprocess::Case c =
-    postprocess::read_case(tiny_case, {"J-V sweep/Dark sweep=true", "J-V sweep/Voltage step=0.05"});
+  const simulator::Case c =
+    simulator::read_case(tiny_case, {"J-V sweep/Dark sweep=true", "J-V sweep/Voltage step=0.05"});
   ASSERT_EQ(solve(c, dir / "reference"), 0);
   EXPECT_FALSE(fs::exists(dir / "reference" / "checkpoint"));
   const nlohmann::json ref = read_json(dir / "reference" / "summary.json");
 
   fs::create_directories(dir / "resumed" / "summary.json" / "blocker");
-  EXPECT_THROW(solve(c, dir / "resumed"), postprocess::OutputError);
+  EXPECT_THROW(solve(c, dir / "resumed"), OutputError);
   std::vector<fs::path> points;
   for (const auto &e : fs::directory_iterator(dir / "resumed" / "checkpoint"))
     if (e.path().extension() == ".bin")
@@ -168,8 +168,8 @@ TEST(Checkpoint, ResumedRunEqualsUninterruptedRun)
 TEST(Faults, NonConvergenceIsReported)
 {
   const fs::path          dir = fresh_folder("noconv");
-  const postprocess::Case c =
-    postprocess::read_case(tiny_case, {"Numerics/Newton iterations=1", "Numerics/Step halvings=0"});
+  const simulator::Case c =
+    simulator::read_case(tiny_case, {"Numerics/Newton iterations=1", "Numerics/Step halvings=0"});
   EXPECT_EQ(solve(c, dir), 3);
   const nlohmann::json s = read_json(dir / "summary.json");
   EXPECT_EQ(s["status"], "failed");
@@ -200,7 +200,7 @@ TEST(Faults, NonConvergenceIsReported)
 TEST(Faults, FailedPointCutsTheCurve)
 {
   const fs::path          dir = fresh_folder("cut");
-  const postprocess::Case c   = postprocess::read_case(
+  const simulator::Case c   = simulator::read_case(
     tiny_case, {"Numerics/Step halvings=0", "Numerics/Update limit=1", "Numerics/Newton iterations=34",
                 "J-V sweep/Voltage step=1", "J-V sweep/Start voltage=-0.2"});
   EXPECT_EQ(solve(c, dir), 3);
@@ -237,11 +237,11 @@ TEST(Faults, FailedPointCutsTheCurve)
 TEST(Faults, SweepTableHasStatusPerCase)
 {
   const fs::path         dir  = fresh_folder("sweep-status");
-  postprocess::SweepPlan plan = postprocess::make_plan(tiny_case, {}, {"Numerics/Newton iterations=60,1"});
-  postprocess::SweepOptions o;
+  study::SweepPlan plan = study::make_plan(tiny_case, {}, {"Numerics/Newton iterations=60,1"});
+  study::SweepOptions o;
   o.folder = (dir / "out").string();
   o.quiet  = true;
-  EXPECT_EQ(postprocess::run_sweep(plan, o), 3);
+  EXPECT_EQ(study::run_sweep(plan, o), 3);
   std::ifstream            in(dir / "out" / "sweep.csv");
   std::vector<std::string> rows;
   for (std::string line; std::getline(in, line);)
@@ -264,9 +264,9 @@ TEST(Faults, SweepTableHasStatusPerCase)
 // for silicon at 1e16", from memory).
 TEST(GuardRails, DebyeLength)
 {
-  EXPECT_NEAR(postprocess::debye_length_um(11.9, 300, 1e16), 41.2325e-3, 1e-4 * 41.2325e-3);
+  EXPECT_NEAR(simulator::debye_length_um(11.9, 300, 1e16), 41.2325e-3, 1e-4 * 41.2325e-3);
   // L_D scales as N^(-1/2) and sqrt(eps T).
-  EXPECT_NEAR(postprocess::debye_length_um(11.9, 300, 4e16), 0.5 * 41.2325e-3, 1e-4 * 41.2325e-3);
+  EXPECT_NEAR(simulator::debye_length_um(11.9, 300, 4e16), 0.5 * 41.2325e-3, 1e-4 * 41.2325e-3);
 }
 
 // Diffusion length L = sqrt(D tau), D = mu kT/q (Einstein relation; Sze &
@@ -275,7 +275,7 @@ TEST(GuardRails, DebyeLength)
 // tau = 1 us: L = sqrt(2.58520e-5) cm = 50.8449 um.
 TEST(GuardRails, DiffusionLengthAndLifetime)
 {
-  EXPECT_NEAR(postprocess::diffusion_length_um(1000, 300, 1e-6), 50.8449, 1e-4 * 50.8449);
+  EXPECT_NEAR(simulator::diffusion_length_um(1000, 300, 1e-6), 50.8449, 1e-4 * 50.8449);
   // Low-injection minority lifetime in p-type material (N_A = 1e17):
   // 1/tau_n = 1/tau_SRH + B (1 - recycling) N_A + C_p N_A^2
   //         = 1e6 + 1e-10 * 0.5 * 1e17 + 1e-30 * 1e34 = 6.01e6 /s (analytic).
@@ -287,7 +287,7 @@ TEST(GuardRails, DiffusionLengthAndLifetime)
   m.photon_recycling = 0.5;
   m.C_p              = 1e-30;
   m.C_n              = 5e-30;
-  const auto [tau_n, tau_p] = postprocess::minority_lifetimes(m);
+  const auto [tau_n, tau_p] = simulator::minority_lifetimes(m);
   EXPECT_NEAR(tau_n, 1 / 6.01e6, 1e-12 / 6.01e6);
   // Holes are majority carriers here: only their SRH lifetime is left.
   EXPECT_DOUBLE_EQ(tau_p, 2e-6);
@@ -304,15 +304,15 @@ TEST(GuardRails, WarningsNameTheNumbersAndTheEntry)
   // Absorber), L_D (eps_r 25) = 29.234 nm by hand as above: a 40 nm first
   // cell cannot resolve it.
   {
-    const postprocess::Case  c = postprocess::read_case(tiny_case, {"Mesh/Smallest cell=40"});
+    const simulator::Case  c = simulator::read_case(tiny_case, {"Mesh/Smallest cell=40"});
     dealii::Triangulation<2> tria;
     geometry::build_triangulation(c.geometry, c.mesh, tria);
-    const auto f = postprocess::guard_rail_figures(c, tria);
+    const auto f = simulator::guard_rail_figures(c, tria);
     ASSERT_EQ(f.contacts.size(), 2u);
     EXPECT_NEAR(f.contacts[0].density, 4.1793e16, 1e-4 * 4.1793e16);
     EXPECT_NEAR(f.contacts[0].debye_um, 29.234e-3, 1e-4 * 29.234e-3);
     EXPECT_NEAR(f.contacts[0].cell_um, 0.040, 1e-9);
-    const auto w = postprocess::guard_rail_warnings(c, tria);
+    const auto w = simulator::guard_rail_warnings(c, tria);
     ASSERT_EQ(w.size(), 2u); // the hole contact mirrors the electron contact
     EXPECT_TRUE(any_contains(w, "Electron contact: the Debye length 29.2 nm")) << w[0];
     EXPECT_TRUE(any_contains(w, "smallest cell normal to the contact, 40 nm"));
@@ -322,14 +322,14 @@ TEST(GuardRails, WarningsNameTheNumbersAndTheEntry)
   // the lateral cells of the strip (the whole strip counts as gap: its
   // widest cell, 0.118 um, the largest x side of the mesh statistics).
   {
-    const postprocess::Case c =
-      postprocess::read_case(tiny_case, {"Absorber/Electron lifetime=1e-12", "Absorber/Hole lifetime=1e-12"});
+    const simulator::Case c =
+      simulator::read_case(tiny_case, {"Absorber/Electron lifetime=1e-12", "Absorber/Hole lifetime=1e-12"});
     dealii::Triangulation<2> tria;
     geometry::build_triangulation(c.geometry, c.mesh, tria);
-    const auto f = postprocess::guard_rail_figures(c, tria);
+    const auto f = simulator::guard_rail_figures(c, tria);
     EXPECT_NEAR(f.electron_diffusion_um, 5.0845e-3, 1e-4 * 5.0845e-3);
     EXPECT_DOUBLE_EQ(f.gap_cell_um, geometry::mesh_statistics(tria).max_x_size_um);
-    const auto w = postprocess::guard_rail_warnings(c, tria);
+    const auto w = simulator::guard_rail_warnings(c, tria);
     ASSERT_EQ(w.size(), 1u);
     EXPECT_TRUE(any_contains(w, "Absorber: the electron diffusion length 0.00508 um")) << w[0];
     EXPECT_TRUE(any_contains(w, "lateral cell in the gap, 0.118 um"));
@@ -337,7 +337,7 @@ TEST(GuardRails, WarningsNameTheNumbersAndTheEntry)
   }
   // A comb period: only the cells between the finger edges count.
   {
-    const postprocess::Case  c = postprocess::read_case(
+    const simulator::Case  c = simulator::read_case(
       tiny_case, {"Geometry/Layout=comb period", "Geometry/Gap=4", "Geometry/Electron finger width=2",
                   "Geometry/Hole finger width=2", "Mesh/Largest lateral cell=0.5"});
     dealii::Triangulation<2> tria;
@@ -349,7 +349,7 @@ TEST(GuardRails, WarningsNameTheNumbersAndTheEntry)
         if (box.lower_bound(0) >= 1.0 - 1e-9 && box.upper_bound(0) <= 5.0 + 1e-9)
           widest = std::max(widest, box.side_length(0));
       }
-    const auto f = postprocess::guard_rail_figures(c, tria);
+    const auto f = simulator::guard_rail_figures(c, tria);
     EXPECT_DOUBLE_EQ(f.gap_cell_um, widest);
     EXPECT_LE(f.gap_cell_um, 0.5 + 1e-12);
   }
@@ -359,7 +359,7 @@ TEST(GuardRails, WarningsNameTheNumbersAndTheEntry)
 TEST(GuardRails, WarningsInSummary)
 {
   const fs::path          dir = fresh_folder("warnings");
-  const postprocess::Case c   = postprocess::read_case(tiny_case, {"Mesh/Smallest cell=40"});
+  const simulator::Case c   = simulator::read_case(tiny_case, {"Mesh/Smallest cell=40"});
   EXPECT_EQ(solve(c, dir), 0);
   const nlohmann::json s = read_json(dir / "summary.json");
   ASSERT_EQ(s["warnings"].size(), 2u);

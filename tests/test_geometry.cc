@@ -2,7 +2,7 @@
 // meshes of the comb period and the test strip, and the mesh preview file.
 #include "geometry/grading.h"
 #include "geometry/ids.h"
-#include "geometry/input.h"
+#include "base/entries.h"
 #include "geometry/parameters.h"
 #include "geometry/period_mesh.h"
 

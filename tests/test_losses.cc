@@ -3,8 +3,8 @@
 #include "fem/constants.h"
 #include "fem/drift_diffusion.h"
 #include "fem/operating_points.h"
-#include "postprocess/case_file.h"
-#include "postprocess/pipeline.h"
+#include "simulator/case_file.h"
+#include "simulator/case_run.h"
 #include "tests/strip_mesh.h"
 
 #include <gtest/gtest.h>
@@ -175,11 +175,11 @@ namespace
                                   "Output/Write fields=false", "Output/Field biases=0"};
     if (!suns_voc)
       o.push_back("J-V sweep/Suns-Voc intensities=");
-    const postprocess::Case c = postprocess::read_case(demo, o);
-    postprocess::RunOptions opt;
+    const simulator::Case c = simulator::read_case(demo, o);
+    simulator::RunOptions opt;
     opt.folder = folder.string();
     opt.quiet  = true;
-    EXPECT_EQ(postprocess::run_solve(c, opt), 0);
+    EXPECT_EQ(simulator::run_solve(c, opt), 0);
     std::ifstream in(folder / "summary.json");
     return nlohmann::json::parse(in);
   }

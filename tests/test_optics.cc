@@ -2,7 +2,7 @@
 // Beer-Lambert profiles, the Generation class and the data-file readers.
 #include "fem/constants.h"
 #include "fem/optics.h"
-#include "geometry/input.h"
+#include "base/entries.h"
 
 #include <gtest/gtest.h>
 

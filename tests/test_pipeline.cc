@@ -2,8 +2,8 @@
 // result files, read back with VTK's XML reader and parsed as JSON.
 #include "fem/constants.h"
 #include "geometry/period_mesh.h"
-#include "postprocess/case_file.h"
-#include "postprocess/pipeline.h"
+#include "simulator/case_file.h"
+#include "simulator/case_run.h"
 
 #include "tests/temp_folder.h"
 
@@ -41,11 +41,11 @@ TEST(Pipeline, MeshPreviewReadsBack)
 {
   const fs::path dir  = fresh_folder("mesh");
   const auto     file = write_case(dir, "subsection Geometry\n  set Gap = 50\n  set Absorber thickness = 0.2\nend\n");
-  const postprocess::Case c = postprocess::read_case(file, {"Geometry/Electron finger width=4"});
-  postprocess::RunOptions o;
+  const simulator::Case c = simulator::read_case(file, {"Geometry/Electron finger width=4"});
+  simulator::RunOptions o;
   o.folder = (dir / "out").string();
   o.quiet  = true;
-  ASSERT_EQ(postprocess::run_mesh(c, o), 0);
+  ASSERT_EQ(simulator::run_mesh(c, o), 0);
   ASSERT_TRUE(fs::exists(dir / "out" / "mesh.msh"));
 
   vtkNew<vtkXMLUnstructuredGridReader> reader;
@@ -115,11 +115,11 @@ subsection J-V sweep
   set Dark sweep = false
 end
 )");
-  const postprocess::Case c = postprocess::read_case(file, {});
-  postprocess::RunOptions o;
+  const simulator::Case c = simulator::read_case(file, {});
+  simulator::RunOptions o;
   o.folder = (dir / "out").string();
   o.quiet  = true;
-  ASSERT_EQ(postprocess::run_solve(c, o), 0);
+  ASSERT_EQ(simulator::run_solve(c, o), 0);
 
   std::ifstream        in(dir / "out" / "summary.json");
   const nlohmann::json s = nlohmann::json::parse(in);
@@ -152,11 +152,11 @@ TEST(Pipeline, DemoIsMeshIndependent)
         for (const char *s : {"Mesh/Smallest cell=1", "Mesh/Growth ratio=1.118", "Mesh/Largest lateral cell=1",
                               "Mesh/Largest vertical cell=10"})
           o.push_back(s);
-      const postprocess::Case c = postprocess::read_case(demo, o);
-      postprocess::RunOptions opt;
+      const simulator::Case c = simulator::read_case(demo, o);
+      simulator::RunOptions opt;
       opt.folder = (dir / std::to_string(k)).string();
       opt.quiet  = true;
-      ASSERT_EQ(postprocess::run_solve(c, opt), 0);
+      ASSERT_EQ(simulator::run_solve(c, opt), 0);
       std::ifstream in(dir / std::to_string(k) / "summary.json");
       result[k] = nlohmann::json::parse(in);
     }

@@ -1,8 +1,8 @@
 // Parameter sweeps: value lists, the grid, the recommendation, and whole
 // sweeps of a tiny fast case (resume, array-task shares plus merge, a
 // failing case). The MPI run is checked by tests/sweep_cli.sh.
-#include "geometry/input.h"
-#include "postprocess/sweep.h"
+#include "base/entries.h"
+#include "study/study.h"
 
 #include <gtest/gtest.h>
 #include <nlohmann/json.hpp>
@@ -15,7 +15,8 @@
 #include <unistd.h>
 
 using namespace backcomb;
-using namespace backcomb::postprocess;
+
+using namespace backcomb::study;
 namespace fs = std::filesystem;
 
 namespace

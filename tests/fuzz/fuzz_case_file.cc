@@ -1,12 +1,12 @@
-// libFuzzer target for the case-file reader (postprocess::read_case).
+// libFuzzer target for the case-file reader (simulator::read_case).
 //
 // The input is the text of a case file. Lines after a line "--set" are
 // passed as command-line overrides instead, so that the override path is
 // fuzzed too. Contract: every input ends in a normal return or an
 // InputError; anything else (another exception, a crash, a sanitizer
 // report, a hang) is a bug in the reader.
-#include "geometry/input.h"
-#include "postprocess/case_file.h"
+#include "base/entries.h"
+#include "simulator/case_file.h"
 
 #include <cstddef>
 #include <cstdint>
@@ -35,7 +35,7 @@ LLVMFuzzerTestOneInput(const std::uint8_t *data, std::size_t size)
       std::istringstream in(case_text);
       // A bare file name: relative data-file paths stay relative, and no
       // data file is opened by read_case itself.
-      backcomb::postprocess::read_case(in, "fuzz.prm", overrides);
+      backcomb::simulator::read_case(in, "fuzz.prm", overrides);
     }
   catch (const backcomb::InputError &)
     {

@@ -8,7 +8,7 @@
 // generation model does. Contract: every input ends in a normal return or
 // an InputError.
 #include "fem/optics.h"
-#include "geometry/input.h"
+#include "base/entries.h"
 
 #include <cstddef>
 #include <cstdint>

@@ -5,7 +5,7 @@
 // but extreme values are exercised downstream. Contract: every input ends
 // in a normal return or an InputError.
 #include "fem/optics.h"
-#include "geometry/input.h"
+#include "base/entries.h"
 
 #include <cstddef>
 #include <cstdint>

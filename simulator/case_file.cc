@@ -1,6 +1,6 @@
-#include "postprocess/case_file.h"
+#include "simulator/case_file.h"
 
-#include "geometry/input.h"
+#include "base/entries.h"
 
 #include <cctype>
 #include <cmath>
@@ -10,7 +10,7 @@
 #include <set>
 #include <sstream>
 
-namespace backcomb::postprocess
+namespace backcomb::simulator
 {
   namespace
   {
@@ -450,4 +450,4 @@ namespace backcomb::postprocess
       }
     return c;
   }
-} // namespace backcomb::postprocess
+} // namespace backcomb::simulator

@@ -22,7 +22,7 @@
 #include <string>
 #include <vector>
 
-namespace backcomb::postprocess
+namespace backcomb::study
 {
   // One swept entry: its case-file path and its values as text.
   struct SweptEntry
@@ -147,4 +147,4 @@ namespace backcomb::postprocess
   // the table and the recommendation. Returns 0 when every case converged
   // (or is partial), exit_no_convergence when a case failed or is missing.
   int merge_sweep(const std::string &folder, bool quiet);
-} // namespace backcomb::postprocess
+} // namespace backcomb::study

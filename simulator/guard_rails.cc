@@ -1,4 +1,4 @@
-#include "postprocess/guard_rails.h"
+#include "simulator/guard_rails.h"
 
 #include "fem/constants.h"
 #include "geometry/ids.h"
@@ -8,7 +8,7 @@
 #include <cstdio>
 #include <limits>
 
-namespace backcomb::postprocess
+namespace backcomb::simulator
 {
   namespace ids = backcomb::geometry::ids;
 
@@ -162,4 +162,4 @@ namespace backcomb::postprocess
                   format("%.2g um", diffusion_cell_factor * L) + " or less");
     return w;
   }
-} // namespace backcomb::postprocess
+} // namespace backcomb::simulator

@@ -1,4 +1,4 @@
-#include "postprocess/sweep_plot.h"
+#include "postprocess/plots.h"
 
 #include <plplot/plstream.h>
 

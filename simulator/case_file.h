@@ -16,7 +16,7 @@
 #include <string>
 #include <vector>
 
-namespace backcomb::postprocess
+namespace backcomb::simulator
 {
   // Section "Device": conditions and the definition of the active area.
   struct DeviceSettings
@@ -83,4 +83,4 @@ namespace backcomb::postprocess
 
   // Splits "Section/Sub/Name=value" into path and value; throws InputError.
   std::pair<std::string, std::string> split_override(const std::string &text);
-} // namespace backcomb::postprocess
+} // namespace backcomb::simulator

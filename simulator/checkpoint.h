@@ -10,6 +10,8 @@
 // folder is removed once summary.json is written.
 #pragma once
 
+#include "fem/jv_scan.h"
+
 #include <deal.II/lac/vector.h>
 
 #include <mpi.h>
@@ -17,20 +19,9 @@
 #include <string>
 #include <vector>
 
-namespace backcomb::postprocess
+namespace backcomb::simulator
 {
-  // One converged operating point as stored.
-  struct StoredPoint
-  {
-    // "light" or "dark" for a J-V point; "light-start" or "dark-start" for
-    // the state a sweep starts from (after the light ramp or equilibrium).
-    std::string            sweep;
-    double                 voltage  = 0; // V
-    double                 current  = 0; // mA/cm^2 per footprint
-    unsigned               newton   = 0; // Newton steps spent on this point
-    unsigned               halvings = 0; // step halvings spent on this point
-    dealii::Vector<double> state;
-  };
+  using fem::StoredPoint;
 
   // The fingerprint text of a run: a different text means the stored states
   // belong to another problem and must not be used.
@@ -45,7 +36,7 @@ namespace backcomb::postprocess
   std::string encode_point(const StoredPoint &p);
   bool        decode_point(const std::string &bytes, StoredPoint &p);
 
-  class Checkpoint
+  class Checkpoint : public fem::PointStore
   {
   public:
     // All processes of `comm` construct it with the same arguments.
@@ -60,7 +51,7 @@ namespace backcomb::postprocess
     // Stores one point (rank 0 writes; the others only count). Collective,
     // so that an I/O error on rank 0 stops every process alike
     // (OutputError naming the file).
-    void save(const StoredPoint &p);
+    void save(const StoredPoint &p) override;
 
     // Removes the checkpoint folder (rank 0), after the results are written.
     void remove() const;
@@ -74,4 +65,4 @@ namespace backcomb::postprocess
     unsigned    next = 1; // number of the next point file
     bool        fingerprint_written = false;
   };
-} // namespace backcomb::postprocess
+} // namespace backcomb::simulator

@@ -1,6 +1,6 @@
-#include "postprocess/checkpoint.h"
+#include "simulator/checkpoint.h"
 
-#include "postprocess/output.h"
+#include "base/files.h"
 
 #include <deal.II/base/mpi.h>
 
@@ -13,7 +13,7 @@
 #include <iomanip>
 #include <sstream>
 
-namespace backcomb::postprocess
+namespace backcomb::simulator
 {
   namespace fs = std::filesystem;
 
@@ -248,4 +248,4 @@ namespace backcomb::postprocess
     std::error_code ec;
     fs::remove_all(dir, ec);
   }
-} // namespace backcomb::postprocess
+} // namespace backcomb::simulator

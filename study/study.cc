@@ -1,10 +1,10 @@
-#include "postprocess/sweep.h"
+#include "study/study.h"
 
-#include "geometry/input.h"
-#include "postprocess/case_file.h"
-#include "postprocess/output.h"
-#include "postprocess/pipeline.h"
-#include "postprocess/sweep_plot.h"
+#include "base/entries.h"
+#include "simulator/case_file.h"
+#include "base/files.h"
+#include "simulator/case_run.h"
+#include "postprocess/plots.h"
 
 #include <deal.II/base/parameter_handler.h>
 
@@ -28,9 +28,11 @@
 #include <thread>
 #include <unistd.h>
 
-namespace backcomb::postprocess
+namespace backcomb::study
 {
   using json   = nlohmann::json;
+  using namespace backcomb::simulator;
+  using namespace backcomb::postprocess;
   namespace fs = std::filesystem;
 
   namespace
@@ -1474,4 +1476,4 @@ namespace backcomb::postprocess
       std::fprintf(stderr, "backcomb: %s\n", w.c_str());
     return counts["failed"] + counts["missing"] > 0 ? exit_no_convergence : exit_ok;
   }
-} // namespace backcomb::postprocess
+} // namespace backcomb::study

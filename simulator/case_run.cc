@@ -1,14 +1,14 @@
-#include "postprocess/pipeline.h"
+#include "simulator/case_run.h"
 
-#include "postprocess/checkpoint.h"
+#include "simulator/checkpoint.h"
 #include "postprocess/dead_zone.h"
-#include "postprocess/guard_rails.h"
+#include "simulator/guard_rails.h"
 #include "postprocess/losses.h"
 
 #include "fem/drift_diffusion.h"
-#include "fem/operating_points.h"
+#include "fem/jv_scan.h"
 #include "geometry/ids.h"
-#include "geometry/input.h"
+#include "base/entries.h"
 #include "geometry/period_mesh.h"
 
 #include <deal.II/base/config.h>
@@ -33,10 +33,11 @@
 #include <stdexcept>
 #include <unistd.h>
 
-namespace backcomb::postprocess
+namespace backcomb::simulator
 {
   namespace ids = backcomb::geometry::ids;
   using json    = nlohmann::json;
+  using namespace backcomb::postprocess;
 
   namespace
   {
@@ -130,293 +131,12 @@ namespace backcomb::postprocess
       }
     };
 
-    // One J-V point with the state it converged to (for refinement).
-    struct Point
-    {
-      fem::JVPoint           jv;
-      unsigned               halvings = 0;
-      dealii::Vector<double> state;
-    };
-
-    struct Sweep
-    {
-      std::vector<Point> points;         // sorted by voltage at the end
-      std::vector<std::string> failures; // diagnostics
-      unsigned newton = 0, halvings = 0;
-      double   seconds = 0;
-    };
-
-    // The checkpoint of this run (where converged points go) and the points
-    // of an earlier, interrupted run of the same case, which the sweeps
-    // replay instead of solving them again.
-    struct Resume
-    {
-      Checkpoint              *checkpoint = nullptr;
-      std::vector<StoredPoint> stored;
-
-      const StoredPoint *
-      find(const std::string &sweep, double v) const
-      {
-        for (const auto &p : stored)
-          if (p.sweep == sweep && std::abs(p.voltage - v) < 1e-9)
-            return &p;
-        return nullptr;
-      }
-
-      void
-      save(const std::string &sweep, const Point &p) const
-      {
-        if (checkpoint)
-          checkpoint->save({sweep, p.jv.voltage, p.jv.current, p.jv.newton_iterations, p.halvings, p.state});
-      }
-
-      static Point
-      point(const StoredPoint &q)
-      {
-        Point p;
-        p.jv       = {q.voltage, q.current, true, q.newton};
-        p.halvings = q.halvings;
-        p.state    = q.state;
-        return p;
-      }
-    };
-
     std::string
     bias_name(double v)
     {
       std::ostringstream s;
       s << std::fixed << std::setprecision(4) << v;
       return s.str();
-    }
-
-    // Sweeps the biases in the given order from the solver's current state.
-    // Stops at the first failure: later points would start from a state
-    // that is not a solution. Points stored by an interrupted run are taken
-    // as they are (with their Newton counts), so that a resumed sweep
-    // continues from its outermost converged point exactly as the
-    // uninterrupted sweep would have.
-    void
-    sweep(fem::DriftDiffusionSolver &solver, const std::vector<double> &biases, double light,
-          unsigned halvings, Sweep &out, const Progress &progress, const std::string &label,
-          const Resume &resume, bool extend_to_voc = false, double step = 0.02)
-    {
-      const auto t0 = std::chrono::steady_clock::now();
-      // The two previous solutions of this sweep, for a linear predictor.
-      dealii::Vector<double> older, old;
-      double                 v_older = 0, v_old = 0;
-      std::vector<double>    todo(biases.rbegin(), biases.rend());
-      double                 extended = 0;
-      while (!todo.empty())
-        {
-          const double v = todo.back();
-          todo.pop_back();
-          Point p;
-          if (const StoredPoint *q = resume.find(label, v))
-            {
-              p = Resume::point(*q);
-              solver.set_state(p.state, v, light);
-            }
-          else
-            {
-              fem::StepReport r;
-              if (older.size() > 0 && std::abs(v_old - v_older) > 0)
-                {
-                  // First try from the extrapolated solution; on failure fall
-                  // back to the last converged state and step halving.
-                  dealii::Vector<double> guess = old;
-                  guess.sadd(1.0 + (v - v_old) / (v_old - v_older), -(v - v_old) / (v_old - v_older), older);
-                  solver.set_state(guess, v, light);
-                  const fem::NewtonReport n = solver.solve(v, light);
-                  r.newton_iterations       = n.iterations;
-                  r.converged               = n.converged;
-                  if (!r.converged)
-                    {
-                      solver.set_state(old, v_old, light);
-                      const fem::StepReport again = fem::move_to(solver, v, light, halvings);
-                      r.converged  = again.converged;
-                      r.halvings   = again.halvings;
-                      r.diagnostic = again.diagnostic;
-                      r.newton_iterations += again.newton_iterations;
-                    }
-                }
-              else
-                r = fem::move_to(solver, v, light, halvings);
-              p.jv.voltage           = v;
-              p.jv.converged         = r.converged;
-              p.jv.newton_iterations = r.newton_iterations;
-              p.halvings             = r.halvings;
-              if (!r.converged)
-                {
-                  out.newton += r.newton_iterations;
-                  out.halvings += r.halvings;
-                  out.failures.push_back(label + ": " + r.diagnostic);
-                  out.points.push_back(p);
-                  break;
-                }
-              p.jv.current = solver.terminal_current().total();
-              p.state      = solver.state();
-              resume.save(label, p);
-            }
-          out.newton += p.jv.newton_iterations;
-          out.halvings += p.halvings;
-          older   = old;
-          v_older = v_old;
-          old     = p.state;
-          v_old   = v;
-          out.points.push_back(p);
-          std::ostringstream s;
-          s << label << ": V = " << std::fixed << std::setprecision(3) << v << " V, J = "
-            << std::setprecision(3) << p.jv.current << " mA/cm2, " << p.jv.newton_iterations
-            << " Newton steps";
-          progress.line(s.str());
-          // Under light, go on past the last bias until the current changes
-          // sign (open circuit), at most 1 V further.
-          if (todo.empty() && extend_to_voc && v > 0 && p.jv.current > 0 && extended < 1.0)
-            {
-              todo.push_back(v + step);
-              extended += step;
-            }
-        }
-      out.seconds += seconds_since(t0);
-    }
-
-    // Solves at V starting from the stored point nearest to it (or takes
-    // the point from the checkpoint of an interrupted run).
-    bool
-    solve_near(fem::DriftDiffusionSolver &solver, Sweep &s, double v, double light, unsigned halvings,
-               const Resume &resume)
-    {
-      auto insert = [&s](Point p) {
-        s.newton += p.jv.newton_iterations;
-        s.halvings += p.halvings;
-        s.points.push_back(std::move(p));
-        std::sort(s.points.begin(), s.points.end(),
-                  [](const Point &a, const Point &b) { return a.jv.voltage < b.jv.voltage; });
-      };
-      if (const StoredPoint *q = resume.find("light", v))
-        {
-          Point p = Resume::point(*q);
-          solver.set_state(p.state, v, light);
-          insert(std::move(p));
-          return true;
-        }
-      const Point *best = nullptr;
-      for (const auto &p : s.points)
-        if (p.jv.converged && (!best || std::abs(p.jv.voltage - v) < std::abs(best->jv.voltage - v)))
-          best = &p;
-      if (!best)
-        return false;
-      solver.set_state(best->state, best->jv.voltage, light);
-      const fem::StepReport r = fem::move_to(solver, v, light, halvings);
-      if (!r.converged)
-        {
-          s.newton += r.newton_iterations;
-          s.halvings += r.halvings;
-          return false;
-        }
-      Point p;
-      p.jv       = {v, solver.terminal_current().total(), true, r.newton_iterations};
-      p.halvings = r.halvings;
-      p.state    = solver.state();
-      resume.save("light", p);
-      insert(std::move(p));
-      return true;
-    }
-
-    // The contiguous run of converged J-V points (sorted by voltage) that
-    // holds the point nearest to short circuit: a failed point beyond it on
-    // either side cuts the curve there, so no metric is taken across it.
-    std::vector<fem::JVPoint>
-    converged_curve(const Sweep &s)
-    {
-      std::size_t k = s.points.size();
-      for (std::size_t i = 0; i < s.points.size(); ++i)
-        if (s.points[i].jv.converged &&
-            (k == s.points.size() || std::abs(s.points[i].jv.voltage) < std::abs(s.points[k].jv.voltage)))
-          k = i;
-      if (k == s.points.size())
-        return {};
-      std::size_t first = k, last = k;
-      while (first > 0 && s.points[first - 1].jv.converged)
-        --first;
-      while (last + 1 < s.points.size() && s.points[last + 1].jv.converged)
-        ++last;
-      std::vector<fem::JVPoint> c;
-      for (std::size_t i = first; i <= last; ++i)
-        c.push_back(s.points[i].jv);
-      return c;
-    }
-
-    // Refines around the maximum power point down to `resolution` and finds
-    // V_oc by regula falsi to 1e-4 V.
-    void
-    refine(fem::DriftDiffusionSolver &solver, Sweep &s, double resolution, unsigned halvings,
-           const Resume &resume)
-    {
-      const auto t0 = std::chrono::steady_clock::now();
-      for (int pass = 0; pass < 40; ++pass)
-        {
-          const auto c = converged_curve(s);
-          if (c.size() < 3)
-            break;
-          std::size_t b = 0;
-          for (std::size_t i = 0; i < c.size(); ++i)
-            if (c[i].voltage * c[i].current > c[b].voltage * c[b].current)
-              b = i;
-          if (b == 0 || b + 1 >= c.size())
-            break;
-          const double left = c[b].voltage - c[b - 1].voltage, right = c[b + 1].voltage - c[b].voltage;
-          if (std::max(left, right) <= resolution)
-            break;
-          const double v = left > right ? c[b].voltage - 0.5 * left : c[b].voltage + 0.5 * right;
-          if (!solve_near(solver, s, v, 1.0, halvings, resume))
-            break;
-        }
-      for (int it = 0; it < 30; ++it)
-        {
-          const auto c = converged_curve(s);
-          std::size_t k = c.size();
-          for (std::size_t i = 0; i + 1 < c.size(); ++i)
-            if (c[i].current > 0 && c[i + 1].current <= 0)
-              k = i;
-          if (k == c.size() || c[k + 1].voltage - c[k].voltage < 1e-4)
-            break;
-          double v = c[k].voltage + c[k].current / (c[k].current - c[k + 1].current) *
-                                      (c[k + 1].voltage - c[k].voltage);
-          // Keep away from the bracket ends so that the bracket shrinks.
-          const double w = c[k + 1].voltage - c[k].voltage;
-          v = std::clamp(v, c[k].voltage + 0.05 * w, c[k + 1].voltage - 0.05 * w);
-          if (!solve_near(solver, s, v, 1.0, halvings, resume))
-            break;
-        }
-      s.seconds += seconds_since(t0);
-    }
-
-    // The state a sweep starts from at 0 V: equilibrium and the light ramp
-    // (fem::illuminate), or that state from the checkpoint.
-    fem::StepReport
-    start_state(fem::DriftDiffusionSolver &solver, double light, unsigned halvings, const std::string &label,
-                const Resume &resume)
-    {
-      if (const StoredPoint *q = resume.find(label + "-start", 0.0))
-        {
-          solver.set_state(q->state, 0.0, light);
-          fem::StepReport r;
-          r.converged         = true;
-          r.newton_iterations = q->newton;
-          r.halvings          = q->halvings;
-          return r;
-        }
-      const fem::StepReport r = fem::illuminate(solver, light, halvings);
-      if (r.converged)
-        {
-          Point p;
-          p.jv       = {0.0, 0.0, true, r.newton_iterations};
-          p.halvings = r.halvings;
-          p.state    = solver.state();
-          resume.save(label + "-start", p);
-        }
-      return r;
     }
 
     std::vector<double>
@@ -436,34 +156,6 @@ namespace backcomb::postprocess
       v.erase(std::unique(v.begin(), v.end(), [](double a, double b) { return std::abs(a - b) < 1e-9; }),
               v.end());
       return v;
-    }
-
-    // Sweep order: from short circuit outward, so that each bias starts
-    // from a neighbouring solution: 0 -> stop, then (restarting at 0) 0 ->
-    // start; "reverse" does the negative side first.
-    void
-    run_sweep(fem::DriftDiffusionSolver &solver, const Case &c, double light, Sweep &s,
-              const Progress &progress, const std::string &label, const Resume &resume)
-    {
-      const std::vector<double> grid = bias_grid(c);
-      std::vector<double>       up, down;
-      for (const double v : grid)
-        (v >= 0 ? up : down).push_back(v);
-      std::reverse(down.begin(), down.end());
-      const dealii::Vector<double> start = solver.state();
-      const double                 v0    = solver.voltage();
-      auto run = [&](const std::vector<double> &b) {
-        solver.set_state(start, v0, light);
-        const bool up_side = !b.empty() && b.back() >= 0;
-        sweep(solver, b, light, c.numerics.max_halvings, s, progress, label, resume,
-              light > 0 && up_side, c.jv.step);
-      };
-      if (c.jv.reverse)
-        run(down), run(up);
-      else
-        run(up), run(down);
-      std::sort(s.points.begin(), s.points.end(),
-                [](const Point &a, const Point &b) { return a.jv.voltage < b.jv.voltage; });
     }
 
     std::map<unsigned, fem::Material>
@@ -525,7 +217,7 @@ namespace backcomb::postprocess
     // "failed", or "not computed" (beyond a failure, or when the sweep
     // could not start), the last two with a null current.
     void
-    add_points(json &list, const std::string &label, const Sweep &s, const std::vector<double> &grid)
+    add_points(json &list, const std::string &label, const fem::JVScan &s, const std::vector<double> &grid)
     {
       std::map<long, json> rows;
       auto                 key = [](double v) { return std::lround(v * 1e7); };
@@ -579,6 +271,7 @@ namespace backcomb::postprocess
   {
     const auto     t_start = std::chrono::steady_clock::now();
     const Progress progress(o.quiet || dealii::Utilities::MPI::this_mpi_process(o.communicator) != 0);
+    const fem::ProgressLine progress_line = [&progress](const std::string &s) { progress.line(s); };
     json           summary;
     summary["backcomb_version"] = BACKCOMB_VERSION;
     summary["software"] = {{"deal.II", DEAL_II_PACKAGE_VERSION},
@@ -636,9 +329,9 @@ namespace backcomb::postprocess
                           checkpoint_fingerprint(c.echo, c.overrides, o.folder + "/mesh.msh", solver.n_dofs(),
                                                  dealii::Utilities::MPI::n_mpi_processes(o.communicator)),
                           o.communicator);
-    Resume resume;
-    resume.stored     = checkpoint.load(o.quiet);
-    resume.checkpoint = &checkpoint;
+    fem::Resume resume;
+    resume.stored = checkpoint.load(o.quiet);
+    resume.store  = &checkpoint;
     summary["resumed_points"] = resume.stored.size();
 
     const double width  = solver.width_um();
@@ -649,10 +342,10 @@ namespace backcomb::postprocess
     const bool   lit         = c.illumination.intensity_suns > 0;
 
     // Light: equilibrium, light ramp, J-V.
-    Sweep      light;
+    fem::JVScan light;
     const auto t_light = std::chrono::steady_clock::now();
     const fem::StepReport on =
-      start_state(solver, lit ? 1.0 : 0.0, c.numerics.max_halvings, lit ? "light" : "dark", resume);
+      fem::start_state(solver, lit ? 1.0 : 0.0, c.numerics.max_halvings, lit ? "light" : "dark", resume);
     light.newton += on.newton_iterations;
     light.halvings += on.halvings;
     double generated = 0;
@@ -665,9 +358,10 @@ namespace backcomb::postprocess
     else
       {
         generated = solver.generation_current();
-        run_sweep(solver, c, lit ? 1.0 : 0.0, light, progress, lit ? "light" : "dark", resume);
+        fem::scan(solver, bias_grid(c), c.jv.reverse, lit ? 1.0 : 0.0, c.jv.step, c.numerics.max_halvings, light,
+                  progress_line, lit ? "light" : "dark", resume);
         if (lit)
-          refine(solver, light, c.jv.refine_to, c.numerics.max_halvings, resume);
+          fem::refine(solver, light, c.jv.refine_to, c.numerics.max_halvings, resume);
       }
     const double t_l = seconds_since(t_light);
     const double light_assembly = solver.assembly_seconds(), light_solve = solver.linear_solve_seconds();
@@ -772,22 +466,11 @@ namespace backcomb::postprocess
     const auto t_losses = std::chrono::steady_clock::now();
     if (lit && on.converged)
       {
-        const fem::JVMetrics m0 = fem::jv_metrics(converged_curve(light));
+        const fem::JVMetrics m0 = fem::jv_metrics(fem::converged_curve(light));
         // Puts the solver at bias v under full light: the stored state, or
         // a solve from the nearest one.
-        auto go_to = [&](const double v) {
-          const auto stored = std::find_if(light.points.begin(), light.points.end(), [v](const Point &p) {
-            return p.jv.converged && std::abs(p.jv.voltage - v) < 1e-9;
-          });
-          if (stored != light.points.end())
-            {
-              solver.set_state(stored->state, v, 1.0);
-              return true;
-            }
-          return solve_near(solver, light, v, 1.0, c.numerics.max_halvings, resume);
-        };
         auto balance_at = [&](const std::string &name, const double v) {
-          if (!go_to(v))
+          if (!fem::go_to(solver, light, v, c.numerics.max_halvings, resume))
             {
               light.failures.push_back("power balance at " + name + " (" + bias_name(v) +
                                        " V): no converged state");
@@ -797,7 +480,7 @@ namespace backcomb::postprocess
         };
         if (m0.valid)
           {
-            const auto curve = converged_curve(light);
+            const auto curve = fem::converged_curve(light);
             const auto best  = std::max_element(curve.begin(), curve.end(), [](const auto &a, const auto &b) {
               return a.voltage * a.current < b.voltage * b.current;
             });
@@ -811,7 +494,7 @@ namespace backcomb::postprocess
         // Suns-V_oc: open circuit at decreasing light, each from the last.
         std::vector<double> levels = c.jv.suns_voc;
         std::sort(levels.rbegin(), levels.rend());
-        if (m0.valid && !levels.empty() && go_to(m0.Voc))
+        if (m0.valid && !levels.empty() && fem::go_to(solver, light, m0.Voc, c.numerics.max_halvings, resume))
           {
             double previous = 1.0;
             for (const double s : levels)
@@ -835,14 +518,15 @@ namespace backcomb::postprocess
     const double t_loss = seconds_since(t_losses);
 
     // Dark J-V over the same biases.
-    Sweep      dark;
+    fem::JVScan dark;
     const auto t_dark = std::chrono::steady_clock::now();
     if (lit && c.jv.dark)
       {
-        const fem::StepReport eq = start_state(solver, 0.0, c.numerics.max_halvings, "dark", resume);
+        const fem::StepReport eq = fem::start_state(solver, 0.0, c.numerics.max_halvings, "dark", resume);
         dark.newton += eq.newton_iterations;
         if (eq.converged)
-          run_sweep(solver, c, 0.0, dark, progress, "dark", resume);
+          fem::scan(solver, bias_grid(c), c.jv.reverse, 0.0, c.jv.step, c.numerics.max_halvings, dark,
+                    progress_line, "dark", resume);
         else
           dark.failures.push_back(eq.diagnostic);
       }
@@ -850,7 +534,7 @@ namespace backcomb::postprocess
     progress.done();
 
     // Metrics from the light curve.
-    const fem::JVMetrics m = lit ? fem::jv_metrics(converged_curve(light)) : fem::JVMetrics();
+    const fem::JVMetrics m = lit ? fem::jv_metrics(fem::converged_curve(light)) : fem::JVMetrics();
     if (lit && !m.valid)
       status = "failed";
 
@@ -863,7 +547,7 @@ namespace backcomb::postprocess
     if (m.valid && !strip)
       {
         std::vector<fem::JVPoint> curve;
-        for (const auto &p : converged_curve(light))
+        for (const auto &p : fem::converged_curve(light))
           if (curve.empty() || p.voltage > curve.back().voltage + 1e-9)
             curve.push_back(p);
         const fem::CombWidths widths{c.geometry.electron_finger_width_um, c.geometry.hole_finger_width_um,
@@ -938,7 +622,7 @@ namespace backcomb::postprocess
     summary["failures"]     = light.failures;
     for (const auto &f : dark.failures)
       summary["failures"].push_back(f);
-    const std::optional<double> jsc = lit ? short_circuit_current(converged_curve(light)) : std::nullopt;
+    const std::optional<double> jsc = lit ? short_circuit_current(fem::converged_curve(light)) : std::nullopt;
     summary["metrics"] = lit ? metrics_json(m, jsc, width / active, input_power) : json(nullptr);
     summary["points"]  = json::array();
     add_points(summary["points"], lit ? "light" : "dark", light, bias_grid(c));
@@ -1051,4 +735,4 @@ namespace backcomb::postprocess
                 o.folder.c_str(), fields.empty() ? "" : " and fields.pvd");
     return code;
   }
-} // namespace backcomb::postprocess
+} // namespace backcomb::simulator

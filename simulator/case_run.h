@@ -2,14 +2,14 @@
 // device model -> operating points -> result files.
 #pragma once
 
-#include "postprocess/case_file.h"
-#include "postprocess/output.h"
+#include "simulator/case_file.h"
+#include "base/files.h"
 
 #include <mpi.h>
 
 #include <string>
 
-namespace backcomb::postprocess
+namespace backcomb::simulator
 {
   struct RunOptions
   {
@@ -24,4 +24,4 @@ namespace backcomb::postprocess
   // InputError / OutputError for invalid input and unwritable output.
   int run_mesh(const Case &c, const RunOptions &options);
   int run_solve(const Case &c, const RunOptions &options);
-} // namespace backcomb::postprocess
+} // namespace backcomb::simulator

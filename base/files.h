@@ -3,21 +3,15 @@
 // either the previous complete file or the new complete file.
 #pragma once
 
-#include <stdexcept>
+#include "base/errors.h"
+
 #include <string>
 
-namespace backcomb::postprocess
+namespace backcomb
 {
-  // A result could not be written (exit code 4).
-  class OutputError : public std::runtime_error
-  {
-  public:
-    using std::runtime_error::runtime_error;
-  };
-
   // Creates `folder` (and parents) or throws OutputError naming it.
   void make_folder(const std::string &folder);
 
   // Writes `text` to `path` atomically; OutputError on failure.
   void write_file_atomically(const std::string &path, const std::string &text);
-} // namespace backcomb::postprocess
+} // namespace backcomb

@@ -1,26 +1,13 @@
-#include "input.h"
+#include "base/entries.h"
 
 #include <cerrno>
 #include <cmath>
 #include <cstdlib>
+#include <map>
 #include <sstream>
 
 namespace backcomb
 {
-  InputError::InputError(const std::string &entry,
-                         const std::string &value,
-                         const std::string &reason)
-    : std::runtime_error(entry + " = " + value + ": " + reason)
-    , entry_(entry)
-    , value_(value)
-    , reason_(reason)
-  {}
-
-  InputError::InputError(const std::string &message)
-    : std::runtime_error(message)
-    , reason_(message)
-  {}
-
   namespace
   {
     double
@@ -126,5 +113,95 @@ namespace backcomb
     std::ostringstream s;
     s << value;
     return s.str();
+  }
+} // namespace backcomb
+
+namespace backcomb
+{
+  namespace
+  {
+    std::map<std::string, std::string> &
+    unit_registry()
+    {
+      static std::map<std::string, std::string> units;
+      return units;
+    }
+
+    std::string
+    full_path(const std::string &section, const std::string &name)
+    {
+      return section.empty() ? name : section + "/" + name;
+    }
+  } // namespace
+
+  bool
+  Range::contains(const double v) const
+  {
+    if (whole && v != std::floor(v))
+      return false;
+    const bool above_lo = lo_open ? v > lo : v >= lo;
+    const bool below_hi = hi_open ? v < hi : v <= hi;
+    return above_lo && below_hi;
+  }
+
+  std::string
+  Range::text() const
+  {
+    std::ostringstream s;
+    s << default_text(lo) << (lo_open ? " < " : " <= ") << "value" << (hi_open ? " < " : " <= ")
+      << default_text(hi);
+    if (whole)
+      s << ", a whole number";
+    return s.str();
+  }
+
+  void
+  declare(dealii::ParameterHandler &prm, const std::string &section, const NumberEntry &e)
+  {
+    declare(prm, section, e, e.default_value);
+  }
+
+  void
+  declare(dealii::ParameterHandler &prm, const std::string &section, const NumberEntry &e,
+          const double default_value)
+  {
+    std::string doc = e.documentation;
+    if (!doc.empty() && doc.back() != '.')
+      doc += '.';
+    doc += (e.unit.empty() ? std::string(" Dimensionless.") : " Unit: " + e.unit + ".") +
+           " Allowed: " + e.range.text() + ".";
+    prm.declare_entry(e.name, default_text(default_value), dealii::Patterns::Anything(), doc);
+    unit_registry()[full_path(section, e.name)] = e.unit;
+  }
+
+  double
+  get(const dealii::ParameterHandler &prm, const std::string &section, const NumberEntry &e)
+  {
+    const double v = get_finite(prm, section, e.name);
+    if (!e.range.contains(v))
+      throw InputError(full_path(section, e.name), prm.get(e.name),
+                       "must satisfy " + e.range.text() + (e.unit.empty() ? "" : " (" + e.unit + ")"));
+    return v;
+  }
+
+  void
+  declare_text(dealii::ParameterHandler            &prm,
+               const std::string                   &section,
+               const std::string                   &name,
+               const std::string                   &default_value,
+               const dealii::Patterns::PatternBase &pattern,
+               const std::string                   &unit,
+               const std::string                   &documentation)
+  {
+    prm.declare_entry(name, default_value, pattern,
+                      documentation + (unit.empty() ? "" : " Unit: " + unit + "."));
+    unit_registry()[full_path(section, name)] = unit;
+  }
+
+  std::string
+  entry_unit(const std::string &path)
+  {
+    const auto it = unit_registry().find(path);
+    return it == unit_registry().end() ? std::string() : it->second;
   }
 } // namespace backcomb

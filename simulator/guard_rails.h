@@ -19,14 +19,14 @@
 //      represent how the collected carriers decay towards the gap centre.
 #pragma once
 
-#include "postprocess/case_file.h"
+#include "simulator/case_file.h"
 
 #include <deal.II/grid/tria.h>
 
 #include <string>
 #include <vector>
 
-namespace backcomb::postprocess
+namespace backcomb::simulator
 {
   // A cell spanning more than this many diffusion lengths is flagged: over
   // one cell a diffusing carrier density then falls by more than
@@ -66,4 +66,4 @@ namespace backcomb::postprocess
   // The warnings (empty when the mesh resolves both lengths), each with the
   // numbers and the entry to change.
   std::vector<std::string> guard_rail_warnings(const Case &c, const dealii::Triangulation<2> &tria);
-} // namespace backcomb::postprocess
+} // namespace backcomb::simulator

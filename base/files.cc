@@ -1,4 +1,4 @@
-#include "postprocess/output.h"
+#include "base/files.h"
 
 #include <cerrno>
 #include <cstdio>
@@ -8,7 +8,7 @@
 #include <system_error>
 #include <unistd.h>
 
-namespace backcomb::postprocess
+namespace backcomb
 {
   void
   make_folder(const std::string &folder)
@@ -58,4 +58,4 @@ namespace backcomb::postprocess
         throw OutputError("cannot rename '" + tmp + "' to '" + path + "': " + ec.message());
       }
   }
-} // namespace backcomb::postprocess
+} // namespace backcomb

@@ -1,0 +1,114 @@
+// Shared conventions for reading case files (deal.II ParameterHandler text).
+//
+// Every stage declares and parses its own parameters next to the code that
+// uses them (declare_parameters / parse_parameters). Semantic checks that the
+// ParameterHandler patterns cannot express (strictly positive sizes,
+// contradictions between entries) throw InputError naming the entry and the
+// value; the case-file loader adds the file name and line.
+#pragma once
+
+#include "base/errors.h"
+
+#include <deal.II/base/parameter_handler.h>
+
+#include <string>
+#include <vector>
+
+namespace backcomb
+{
+  // Helpers for parse_parameters(): `prm` must be inside the section whose
+  // path is `section` (used only for messages).
+  double
+  get_positive(const dealii::ParameterHandler &prm,
+               const std::string &section,
+               const std::string &name);
+  double
+  get_nonnegative(const dealii::ParameterHandler &prm,
+                  const std::string &section,
+                  const std::string &name);
+  // A finite double in [lo, hi].
+  double
+  get_in_range(const dealii::ParameterHandler &prm,
+               const std::string &section,
+               const std::string &name,
+               double lo,
+               double hi);
+
+  // A whole number in [lo, hi].
+  unsigned
+  get_whole_number(const dealii::ParameterHandler &prm,
+                   const std::string &section,
+                   const std::string &name,
+                   unsigned lo,
+                   unsigned hi);
+
+  // A number as the default text of a case-file entry.
+  std::string
+  default_text(double value);
+
+  // Declares a double entry with a documentation string that states unit
+  // and range; the pattern admits any finite number so that the semantic
+  // checks above produce the error (with the entry's name and value).
+  void
+  declare_number(dealii::ParameterHandler &prm,
+                 const std::string &name,
+                 const std::string &default_value,
+                 const std::string &documentation);
+
+  // ----- Entries declared once ------------------------------------------
+  //
+  // A numeric case-file entry is described once, by a NumberEntry: its name,
+  // unit, allowed range and meaning. declare() writes the documentation from
+  // that description ("... Unit: eV. Allowed: 0 < value <= 10."), so the
+  // documented range is by construction the range that get() checks, and
+  // records the unit under the entry's full path for `template` and the
+  // sweep table headers (entry_unit()).
+  struct Range
+  {
+    double lo = -1e300, hi = 1e300;
+    bool   lo_open = false, hi_open = false; // open: the bound itself is excluded
+    bool   whole   = false;                  // whole numbers only
+
+    static Range closed(double lo, double hi) { return {lo, hi, false, false, false}; }
+    static Range above(double lo, double hi) { return {lo, hi, true, false, false}; }  // lo < v <= hi
+    static Range open(double lo, double hi) { return {lo, hi, true, true, false}; }    // lo < v < hi
+    static Range whole_numbers(double lo, double hi) { return {lo, hi, false, false, true}; }
+
+    bool        contains(double v) const;
+    std::string text() const; // "0 < value <= 10"
+  };
+
+  struct NumberEntry
+  {
+    std::string name;          // "Band gap"
+    double      default_value; // in `unit`
+    std::string unit;          // "eV", "cm^-3", ...; "" if dimensionless
+    Range       range;
+    std::string documentation; // what it means; unit and range are appended
+  };
+
+  // Declares `e` inside the current subsection of `prm`, whose path is
+  // `section` ("Absorber/Bands"); the default may be overridden (the same
+  // description serves several sections with different defaults).
+  void declare(dealii::ParameterHandler &prm, const std::string &section, const NumberEntry &e);
+  void declare(dealii::ParameterHandler &prm, const std::string &section, const NumberEntry &e,
+               double default_value);
+
+  // The checked value of `e`; InputError "section/name = text: must satisfy
+  // <range> (unit)" otherwise.
+  double get(const dealii::ParameterHandler &prm, const std::string &section, const NumberEntry &e);
+
+  // A non-numeric entry (selection, flag, list, file name): declared with its
+  // pattern, and its unit recorded (e.g. "V" for a list of biases).
+  void declare_text(dealii::ParameterHandler     &prm,
+                    const std::string            &section,
+                    const std::string            &name,
+                    const std::string            &default_value,
+                    const dealii::Patterns::PatternBase &pattern,
+                    const std::string            &unit,
+                    const std::string            &documentation);
+
+  // The unit recorded for the entry at `path` ("Geometry/Gap" -> "um"); ""
+  // for a dimensionless or unknown entry.
+  std::string entry_unit(const std::string &path);
+} // namespace backcomb
