@@ -1,18 +1,22 @@
 #include "simulator/case_run.h"
 
-#include "simulator/checkpoint.h"
-#include "postprocess/dead_zone.h"
-#include "simulator/guard_rails.h"
-#include "postprocess/losses.h"
-
+#include "base/format.h"
+#include "base/status.h"
+#include "fem/comb_electrodes.h"
 #include "fem/drift_diffusion.h"
 #include "fem/jv_scan.h"
 #include "geometry/ids.h"
-#include "base/entries.h"
 #include "geometry/period_mesh.h"
+#include "postprocess/dead_zone.h"
+#include "postprocess/jv_tables.h"
+#include "postprocess/losses.h"
+#include "postprocess/pvd.h"
+#include "simulator/checkpoint.h"
+#include "simulator/guard_rails.h"
 
 #include <deal.II/base/config.h>
 #include <deal.II/base/mpi.h>
+#include <deal.II/base/timer.h>
 #include <deal.II/distributed/shared_tria.h>
 #include <deal.II/grid/tria.h>
 
@@ -21,13 +25,11 @@
 #include <vtkVersion.h>
 
 #include <algorithm>
-#include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
-#include <iomanip>
-#include <iostream>
 #include <map>
+#include <memory>
 #include <optional>
 #include <sstream>
 #include <stdexcept>
@@ -41,12 +43,6 @@ namespace backcomb::simulator
 
   namespace
   {
-    double
-    seconds_since(const std::chrono::steady_clock::time_point t0)
-    {
-      return std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-    }
-
     json
     statistics_json(const geometry::MeshStatistics &s)
     {
@@ -131,14 +127,6 @@ namespace backcomb::simulator
       }
     };
 
-    std::string
-    bias_name(double v)
-    {
-      std::ostringstream s;
-      s << std::fixed << std::setprecision(4) << v;
-      return s.str();
-    }
-
     std::vector<double>
     bias_grid(const Case &c)
     {
@@ -171,76 +159,635 @@ namespace backcomb::simulator
       return m;
     }
 
-    // J at 0 V interpolated on a converged curve, if the curve reaches it.
-    std::optional<double>
-    short_circuit_current(const std::vector<fem::JVPoint> &c)
+    fem::FingerLayout
+    finger_layout(const Case &c)
     {
-      for (std::size_t i = 0; i + 1 < c.size(); ++i)
-        if (c[i].voltage <= 0 && c[i + 1].voltage >= 0)
-          return c[i].current + (0 - c[i].voltage) / (c[i + 1].voltage - c[i].voltage) *
-                                  (c[i + 1].current - c[i].current);
-      if (c.size() == 1 && std::abs(c[0].voltage) < 1e-9)
-        return c[0].current;
-      return std::nullopt;
+      fem::FingerLayout layout;
+      layout.has_fingers                   = c.geometry.layout != geometry::GeometryParameters::Layout::test_strip;
+      layout.electron_finger_half_width_um = 0.5 * c.geometry.electron_finger_width_um;
+      layout.gap_um                        = c.geometry.gap_um;
+      layout.hole_finger_half_width_um     = 0.5 * c.geometry.hole_finger_width_um;
+      return layout;
     }
 
-    // The metrics; when the curve does not bracket them (a failed point cut
-    // it off), null in place of every number that needs the missing part:
-    // only Jsc can then remain.
     json
-    metrics_json(const fem::JVMetrics &m, const std::optional<double> &jsc, double active_scale,
-                 double input_power)
+    dead_zone_json(const DeadZone &d, const std::string &contour)
     {
-      if (!m.valid)
-        return {{"Jsc_mA_per_cm2", jsc ? json(*jsc) : json(nullptr)},
-                {"Voc_V", nullptr},
-                {"FF", nullptr},
-                {"Pmax_mW_per_cm2", nullptr},
-                {"Vmp_V", nullptr},
-                {"Jmp_mA_per_cm2", nullptr},
-                {"PCE_percent", nullptr},
-                {"per_active_area",
-                 {{"Jsc_mA_per_cm2", jsc ? json(*jsc * active_scale) : json(nullptr)},
-                  {"Pmax_mW_per_cm2", nullptr},
-                  {"PCE_percent", nullptr}}}};
-      json j = {{"Jsc_mA_per_cm2", m.Jsc},   {"Voc_V", m.Voc},  {"FF", m.FF},
-                {"Pmax_mW_per_cm2", m.Pmax}, {"Vmp_V", m.Vmp},  {"Jmp_mA_per_cm2", m.Jmp}};
-      j["PCE_percent"] = input_power > 0 ? json(100 * m.Pmax / input_power) : json(nullptr);
-      j["per_active_area"] = {{"Jsc_mA_per_cm2", m.Jsc * active_scale},
-                              {"Pmax_mW_per_cm2", m.Pmax * active_scale},
-                              {"PCE_percent", input_power > 0 ? json(100 * m.Pmax * active_scale / input_power)
-                                                              : json(nullptr)}};
-      return j;
+      return {{"threshold", d.threshold},
+              {"area_fraction", d.area_fraction},
+              {"generated_fraction", d.generated_fraction},
+              {"absorber_area_um2", d.absorber_area_um2},
+              {"dead_area_um2", d.dead_area_um2},
+              {"present", d.present},
+              {"x_min_um", d.present ? json(d.x_min_um) : json(nullptr)},
+              {"x_max_um", d.present ? json(d.x_max_um) : json(nullptr)},
+              {"width_um", d.width_um()},
+              {"centre_um", d.present ? json(d.centre_um()) : json(nullptr)},
+              {"contour_file", contour}};
     }
 
-    // Every bias of a sweep with its status: "converged" with its current,
-    // "failed", or "not computed" (beyond a failure, or when the sweep
-    // could not start), the last two with a null current.
-    void
-    add_points(json &list, const std::string &label, const fem::JVScan &s, const std::vector<double> &grid)
+    json
+    cell_at_max_power_json(const fem::CombOperatingPoint &p)
     {
-      std::map<long, json> rows;
-      auto                 key = [](double v) { return std::lround(v * 1e7); };
-      for (const double v : grid)
-        rows[key(v)] = {{"sweep", label}, {"voltage_V", v}, {"current_mA_per_cm2", nullptr},
-                        {"status", "not computed"}};
-      for (const auto &p : s.points)
-        rows[key(p.jv.voltage)] = {{"sweep", label},
-                                   {"voltage_V", p.jv.voltage},
-                                   {"current_mA_per_cm2", p.jv.converged ? json(p.jv.current) : json(nullptr)},
-                                   {"status", p.jv.converged ? "converged" : "failed"}};
-      for (auto &[k, r] : rows)
-        list.push_back(std::move(r));
+      return {{"bias_V", p.terminal_voltage},
+              {"current_mA_per_cm2", p.current},
+              {"output", p.output_power},
+              {"hole_fingers", p.hole_finger_loss},
+              {"electron_fingers", p.electron_finger_loss},
+              {"hole_comb_contact_resistance", p.hole_contact_loss},
+              {"electron_comb_contact_resistance", p.electron_contact_loss},
+              {"largest_finger_drop_V", std::max(p.hole_finger_drop, p.electron_finger_drop)}};
     }
 
-    std::string
-    number(double v)
+    // The period's light J-V for the comb cell: strictly increasing biases.
+    std::vector<fem::JVPoint>
+    increasing_curve(const fem::JVScan &light)
     {
-      std::ostringstream s;
-      s << std::setprecision(10) << v;
-      return s.str();
+      std::vector<fem::JVPoint> curve;
+      for (const auto &p : fem::converged_curve(light))
+        if (curve.empty() || p.voltage > curve.back().voltage + 1e-9)
+          curve.push_back(p);
+      return curve;
     }
+
+    // Section names of the run's timer (also the keys of the phases in
+    // summary.json "timings_s").
+    const char *const t_mesh   = "mesh";
+    const char *const t_light  = "light";
+    const char *const t_fields = "fields";
+    const char *const t_losses = "losses_and_suns_voc";
+    const char *const t_dark   = "dark";
+    const char *const t_cell   = "comb_cell";
   } // namespace
+
+  // One `solve` of a case. The members are the data that flows from step to
+  // step; each step reads what earlier steps left and adds its own part.
+  class CaseRun
+  {
+  public:
+    CaseRun(const Case &c, const RunOptions &o);
+    int run();
+
+  private:
+    void prepare_folder();
+    void build_mesh();
+    void set_up_solver();
+    void solve_light_jv();
+    void write_fields();
+    void analyse_collection(double v, const fem::ScanPoint &sc, const std::string &vtu,
+                            const dealii::Vector<double> &fc);
+    void compute_power_balance(const fem::JVMetrics &m0);
+    void balance_at(const std::string &name, double v);
+    void compute_suns_voc(const fem::JVMetrics &m0);
+    void solve_dark_jv();
+    void evaluate_comb_cell();
+    void settle_status();
+    json summary_of_results() const;
+    void write_results();
+    void print_report() const;
+
+    const Case       &c;
+    const RunOptions &o;
+    const bool        root;
+    const bool        strip;
+    const bool        lit;
+    const double      input_power; // mW/cm^2
+    const Progress    progress;
+    dealii::TimerOutput timer;
+    dealii::Timer       total_time; // started with the run
+
+    std::unique_ptr<fem::Generation>                           generation;
+    std::unique_ptr<dealii::parallel::shared::Triangulation<2>> tria;
+    std::unique_ptr<fem::DeviceModel>                          device;
+    std::unique_ptr<fem::DriftDiffusionSolver>                 solver;
+    std::unique_ptr<Checkpoint>                                checkpoint;
+    fem::Resume                                                resume;
+    json                                                       summary;
+
+    double width = 0, active = 0; // footprint and active width, um
+    fem::StepReport on;           // the light (or dark) start state
+    fem::JVScan     light, dark;
+    double          generated = 0; // mA/cm^2
+    Status          status    = Status::converged;
+    fem::JVMetrics  metrics;
+    double          light_assembly = 0, light_solve = 0;
+
+    json     fields = json::array(), dead_zone = nullptr, collection = nullptr;
+    double   adjoint_seconds = 0;
+    unsigned adjoint_solves  = 0;
+
+    std::vector<LossPoint>                 loss_points;
+    std::vector<std::pair<double, double>> suns_voc; // (light factor, V_oc)
+
+    json                                    cell_json = nullptr, rs_json = nullptr;
+    fem::JVMetrics                          cell_metrics;
+    std::optional<fem::CombOperatingPoint> cell_mpp;
+  };
+
+  CaseRun::CaseRun(const Case &c_, const RunOptions &o_)
+    : c(c_)
+    , o(o_)
+    , root(dealii::Utilities::MPI::this_mpi_process(o.communicator) == 0)
+    , strip(c.geometry.layout == geometry::GeometryParameters::Layout::test_strip)
+    , lit(c.illumination.intensity_suns > 0)
+    , input_power(100.0 * c.illumination.intensity_suns)
+    , progress(o.quiet || !root)
+    , timer(o.communicator, std::cout, dealii::TimerOutput::never, dealii::TimerOutput::wall_times)
+  {
+    total_time.start();
+  }
+
+  int
+  CaseRun::run()
+  {
+    prepare_folder();
+    build_mesh();
+    set_up_solver();
+    solve_light_jv();
+    if (on.converged)
+      write_fields();
+    if (lit && on.converged)
+      {
+        // Both start from the metrics of the scanned curve, before the
+        // balance adds its own points to it.
+        const fem::JVMetrics scanned = fem::jv_metrics(fem::converged_curve(light));
+        compute_power_balance(scanned);
+        compute_suns_voc(scanned);
+      }
+    solve_dark_jv();
+    progress.done();
+    metrics = lit ? fem::jv_metrics(fem::converged_curve(light)) : fem::JVMetrics();
+    if (metrics.valid && !strip)
+      evaluate_comb_cell();
+    settle_status();
+    const int code = status == Status::failed ? exit_no_convergence : exit_ok;
+    if (!root)
+      return code;
+    write_results();
+    print_report();
+    return code;
+  }
+
+  // Everything that can fail on input is checked before the folder exists
+  // (the optical model reads its data files here).
+  void
+  CaseRun::prepare_folder()
+  {
+    summary["backcomb_version"] = BACKCOMB_VERSION;
+    summary["software"]         = {
+      {"deal.II", DEAL_II_PACKAGE_VERSION}, {"gmsh", GMSH_API_VERSION}, {"vtk", vtkVersion::GetVTKVersion()}};
+    summary["case_file"] = c.file;
+    summary["overrides"] = c.overrides;
+    summary["case_text"] = c.echo;
+    generation = std::make_unique<fem::Generation>(c.illumination, c.absorber.band_gap,
+                                                   c.geometry.absorber_thickness_um, finger_layout(c));
+    make_folder(o.folder);
+    // summary.json marks a finished run and describes the files beside it:
+    // remove the previous one before any of them is replaced, so that a
+    // killed run never leaves a summary next to files of another run.
+    if (root)
+      {
+        std::error_code ec;
+        std::filesystem::remove(o.folder + "/summary.json", ec);
+      }
+  }
+
+  void
+  CaseRun::build_mesh()
+  {
+    dealii::TimerOutput::Scope scope(timer, t_mesh);
+    tria = std::make_unique<dealii::parallel::shared::Triangulation<2>>(o.communicator);
+    build_shared_mesh(c, o.folder + "/mesh.msh", *tria, o.communicator);
+    const auto stats = geometry::mesh_statistics(*tria);
+    summary["mesh"]  = statistics_json(stats);
+    if (!o.quiet && root)
+      print_statistics(stats);
+  }
+
+  // The device in scaled units, the solver, the warnings of meshes that
+  // cannot resolve the physics, and the points of an interrupted run.
+  void
+  CaseRun::set_up_solver()
+  {
+    const fem::Generation &g = *generation;
+    device = std::make_unique<fem::DeviceModel>(
+      c.device.temperature, materials_of(c), std::vector<unsigned>{ids::absorber, ids::absorber_right},
+      c.electron_contact, c.hole_contact, c.top_surface, c.gap_interface,
+      [&g](double x, double y) { return g.rate(x, y); });
+    solver = std::make_unique<fem::DriftDiffusionSolver>(*tria, *device, c.numerics);
+    summary["unknowns"] = solver->n_dofs();
+
+    summary["warnings"] = guard_rail_warnings(c, *tria);
+    if (root)
+      for (const auto &w : summary["warnings"])
+        std::fprintf(stderr, "backcomb: warning: %s\n", w.get<std::string>().c_str());
+
+    checkpoint = std::make_unique<Checkpoint>(
+      o.folder,
+      checkpoint_fingerprint(c.echo, c.overrides, o.folder + "/mesh.msh", solver->n_dofs(),
+                             dealii::Utilities::MPI::n_mpi_processes(o.communicator)),
+      o.communicator);
+    resume.stored             = checkpoint->load(o.quiet);
+    resume.store              = checkpoint.get();
+    summary["resumed_points"] = resume.stored.size();
+
+    width  = solver->width_um();
+    active = (!strip && c.device.active_area == DeviceSettings::ActiveArea::gap) ? c.geometry.gap_um : width;
+  }
+
+  // Equilibrium, the light ramp and the J-V scan; under light the maximum
+  // power point and the open-circuit voltage refined.
+  void
+  CaseRun::solve_light_jv()
+  {
+    dealii::TimerOutput::Scope scope(timer, t_light);
+    const std::string          label = lit ? "light" : "dark";
+    on = fem::start_state(*solver, lit ? 1.0 : 0.0, c.numerics.max_halvings, label, resume);
+    light.newton += on.newton_iterations;
+    light.halvings += on.halvings;
+    if (!on.converged)
+      {
+        light.failures.push_back(on.diagnostic);
+        status = Status::failed;
+      }
+    else
+      {
+        generated = solver->generation_current();
+        fem::scan(*solver, bias_grid(c), c.jv.reverse, lit ? 1.0 : 0.0, c.jv.step, c.numerics.max_halvings, light,
+                  [this](const std::string &s) { progress.line(s); }, label, resume);
+        if (lit)
+          fem::refine(*solver, light, c.jv.refine_to, c.numerics.max_halvings, resume);
+      }
+    light_assembly = solver->assembly_seconds();
+    light_solve    = solver->linear_solve_seconds();
+  }
+
+  // Fields at the requested biases from the stored states, with the adjoint
+  // collection probability under light. Short circuit is always evaluated
+  // under light (for the collection check and the dead zone), and listed
+  // only when requested.
+  void
+  CaseRun::write_fields()
+  {
+    dealii::TimerOutput::Scope scope(timer, t_fields);
+    make_folder(o.folder + "/fields");
+    std::vector<double> biases  = c.output.fields ? c.output.field_biases : std::vector<double>{};
+    const bool          need_sc = lit && std::none_of(biases.begin(), biases.end(),
+                                                      [](double v) { return std::abs(v) < 1e-9; });
+    if (need_sc)
+      biases.push_back(0.0);
+    std::vector<PvdDataSet> listed_files;
+    for (const double v : biases)
+      for (const auto &p : light.points)
+        if (p.jv.converged && std::abs(p.jv.voltage - v) < 1e-9)
+          {
+            solver->set_state(p.state, v, lit ? 1.0 : 0.0);
+            const bool        listed = !(need_sc && std::abs(v) < 1e-9);
+            const std::string name   = "fields/" + std::string(lit ? "light" : "dark") + "_V" +
+                                     format_fixed(v, 4) + (listed ? "" : "_collection") + ".vtu";
+            const std::string path = o.folder + "/" + name;
+            dealii::Vector<double> fc;
+            if (lit)
+              {
+                dealii::Timer t;
+                fc = solver->collection_probability();
+                adjoint_seconds += t.wall_time();
+                ++adjoint_solves;
+              }
+            try
+              {
+                solver->write_fields(path, lit ? &fc : nullptr, c.output.dead_zone_threshold);
+              }
+            catch (const std::exception &e)
+              {
+                throw OutputError(e.what());
+              }
+            if (lit && std::abs(v) < 1e-9)
+              analyse_collection(v, p, path, fc);
+            if (listed)
+              {
+                listed_files.push_back({v, name});
+                fields.push_back({{"bias_V", v}, {"file", name}});
+              }
+            else if (!c.output.fields && root)
+              std::filesystem::remove(path);
+          }
+    if (root && c.output.fields)
+      write_pvd(o.folder + "/fields.pvd", listed_files);
+    if (!c.output.fields && root)
+      {
+        std::error_code ec;
+        std::filesystem::remove(o.folder + "/fields", ec); // only if empty
+      }
+  }
+
+  // At short circuit: the current collected according to the adjoint map
+  // against the terminal current (two independent routes to Jsc), and the
+  // dead zone from the written field file.
+  void
+  CaseRun::analyse_collection(const double v, const fem::ScanPoint &sc, const std::string &vtu,
+                             const dealii::Vector<double> &fc)
+  {
+    const double collected = solver->collected_current(fc);
+    collection             = {{"bias_V", 0.0},
+                              {"collected_current_mA_per_cm2", collected},
+                              {"terminal_current_mA_per_cm2", sc.jv.current},
+                              {"relative_difference",
+                               sc.jv.current != 0 ? (collected - sc.jv.current) / sc.jv.current : 0.0}};
+    if (!root)
+      return;
+    try
+      {
+        const std::string contour = "fields/dead_zone_contour_V" + format_fixed(v, 4) + ".vtp";
+        const DeadZone    d       = analyse_dead_zone(vtu, c.output.dead_zone_threshold, o.folder + "/" + contour);
+        dead_zone                 = dead_zone_json(d, contour);
+      }
+    catch (const std::exception &e)
+      {
+        throw OutputError(e.what());
+      }
+  }
+
+  // Where the power goes: the balance at short circuit, the maximum power
+  // point, open circuit and the requested biases, from the stored states
+  // (or a solve from the nearest one).
+  void
+  CaseRun::compute_power_balance(const fem::JVMetrics &m0)
+  {
+    dealii::TimerOutput::Scope scope(timer, t_losses);
+    if (m0.valid)
+      {
+        const auto curve = fem::converged_curve(light);
+        const auto best  = std::max_element(curve.begin(), curve.end(), [](const auto &a, const auto &b) {
+          return a.voltage * a.current < b.voltage * b.current;
+        });
+        balance_at("short_circuit", 0.0);
+        balance_at("max_power", best->voltage);
+        balance_at("open_circuit", m0.Voc);
+      }
+    for (const double v : c.output.loss_biases)
+      balance_at("bias_" + format_fixed(v, 4), v);
+  }
+
+  void
+  CaseRun::balance_at(const std::string &name, const double v)
+  {
+    if (!fem::go_to(*solver, light, v, c.numerics.max_halvings, resume))
+      {
+        light.failures.push_back("power balance at " + name + " (" + format_fixed(v, 4) +
+                                 " V): no converged state");
+        return;
+      }
+    loss_points.push_back({name, solver->power_balance()});
+  }
+
+  // Suns-V_oc: open circuit at decreasing light, each level started from
+  // the last one's V_oc shifted by the ideal-diode kT/q ln(light ratio).
+  void
+  CaseRun::compute_suns_voc(const fem::JVMetrics &m0)
+  {
+    dealii::TimerOutput::Scope scope(timer, t_losses);
+    std::vector<double>        levels = c.jv.suns_voc;
+    std::sort(levels.rbegin(), levels.rend());
+    if (!m0.valid || levels.empty() || !fem::go_to(*solver, light, m0.Voc, c.numerics.max_halvings, resume))
+      return;
+    double previous = 1.0;
+    for (const double s : levels)
+      {
+        const double guess =
+          solver->voltage() + device->scaling.Vt * std::log(s / previous) + (s == previous ? 1e-3 : 0.0);
+        const fem::OpenCircuit oc = fem::find_open_circuit(*solver, s, guess, c.numerics.max_halvings);
+        light.newton += oc.newton_iterations;
+        if (!oc.converged)
+          {
+            light.failures.push_back("suns-Voc at light factor " + format_number(s) + ": " + oc.diagnostic);
+            break;
+          }
+        suns_voc.emplace_back(s, oc.voltage);
+        previous = s;
+      }
+  }
+
+  // The dark J-V over the same biases, from equilibrium.
+  void
+  CaseRun::solve_dark_jv()
+  {
+    dealii::TimerOutput::Scope scope(timer, t_dark);
+    if (!lit || !c.jv.dark)
+      return;
+    const fem::StepReport eq = fem::start_state(*solver, 0.0, c.numerics.max_halvings, "dark", resume);
+    dark.newton += eq.newton_iterations;
+    if (eq.converged)
+      fem::scan(*solver, bias_grid(c), c.jv.reverse, 0.0, c.jv.step, c.numerics.max_halvings, dark,
+                [this](const std::string &s) { progress.line(s); }, "dark", resume);
+    else
+      dark.failures.push_back(eq.diagnostic);
+  }
+
+  // The whole comb cell (fingers and contact resistance, Electrodes
+  // section) and the series resistance from suns-Voc, both from the
+  // period's light J-V.
+  void
+  CaseRun::evaluate_comb_cell()
+  {
+    dealii::TimerOutput::Scope scope(timer, t_cell);
+    const std::vector<fem::JVPoint> curve = increasing_curve(light);
+    const fem::CombWidths widths{c.geometry.electron_finger_width_um, c.geometry.hole_finger_width_um, 2 * width};
+    try
+      {
+        if (!c.electrodes.ideal())
+          {
+            // Terminal voltages: the period's biases from 0 to the first one
+            // past open circuit.
+            std::vector<double> v;
+            for (const auto &p : curve)
+              if (p.voltage >= -1e-12)
+                {
+                  v.push_back(p.voltage);
+                  if (p.current < 0)
+                    break;
+                }
+            const fem::CombCell cell(curve, widths, c.electrodes);
+            cell_metrics = fem::jv_metrics(cell.jv(v));
+            if (cell_metrics.valid)
+              cell_mpp = cell.solve(cell_metrics.Vmp);
+            cell_json = {{"finger_length_mm", c.electrodes.finger_length_mm},
+                         {"metrics", metrics_json(cell_metrics,
+                                                  cell_metrics.valid ? std::optional<double>(cell_metrics.Jsc)
+                                                                     : std::nullopt,
+                                                  width / active, input_power)}};
+            if (cell_mpp)
+              cell_json["at_max_power"] = cell_at_max_power_json(*cell_mpp);
+          }
+        if (suns_voc.size() >= 2)
+          {
+            std::vector<fem::SunsVocPoint> pts;
+            for (const auto &[s, v] : suns_voc)
+              pts.push_back({s, v});
+            const fem::PseudoJV              pseudo(pts, metrics.Jsc);
+            const fem::SeriesResistance      film  = fem::series_resistance(pseudo, curve, input_power);
+            const fem::SeriesResistanceSplit split = fem::split_series_resistance(pseudo, curve, widths, c.electrodes);
+            rs_json = {{"total_ohm_cm2", split.total},
+                       {"film_ohm_cm2", split.film},
+                       {"contacts_ohm_cm2", split.contacts},
+                       {"fingers_ohm_cm2", split.fingers},
+                       {"pseudo_voltage_at_Jmp_V", film.pseudo_voltage_at_jmp},
+                       {"pseudo_metrics", metrics_json(film.pseudo, film.pseudo.Jsc, width / active, input_power)}};
+          }
+      }
+    catch (const std::exception &e)
+      {
+        light.failures.push_back(std::string("comb cell and series resistance: ") + e.what() +
+                                 (dynamic_cast<const std::domain_error *>(&e)
+                                    ? " (extend J-V sweep/Suns-Voc intensities to lower light, or the J-V "
+                                      "sweep to higher voltage)"
+                                    : ""));
+        if (status == Status::converged)
+          status = Status::partial;
+      }
+  }
+
+  // Failed: no metrics (or no start state). Partial: metrics, but some
+  // requested point or post-processing step failed.
+  void
+  CaseRun::settle_status()
+  {
+    if (lit && !metrics.valid)
+      status = Status::failed;
+    for (const auto &p : light.points)
+      if (!p.jv.converged && status == Status::converged && metrics.valid)
+        status = Status::partial;
+    for (const auto &p : dark.points)
+      if (!p.jv.converged && status == Status::converged)
+        status = Status::partial;
+  }
+
+  json
+  CaseRun::summary_of_results() const
+  {
+    json s = summary;
+    s["status"]   = to_string(status);
+    s["failures"] = light.failures;
+    for (const auto &f : dark.failures)
+      s["failures"].push_back(f);
+    const std::optional<double> jsc = lit ? short_circuit_current(fem::converged_curve(light)) : std::nullopt;
+    s["metrics"] = lit ? metrics_json(metrics, jsc, width / active, input_power) : json(nullptr);
+    s["points"]  = json::array();
+    add_points(s["points"], lit ? "light" : "dark", light, bias_grid(c));
+    if (lit && c.jv.dark)
+      add_points(s["points"], "dark", dark, bias_grid(c));
+    s["footprint_width_um"]            = width;
+    s["active_width_um"]               = active;
+    s["generation_current_mA_per_cm2"] = generated;
+    s["collection_efficiency"]         = (jsc && generated > 0) ? json(*jsc / generated) : json(nullptr);
+    s["newton"] = {{"light_iterations", light.newton}, {"light_halvings", light.halvings},
+                   {"dark_iterations", dark.newton},   {"dark_halvings", dark.halvings}};
+    s["fields"]         = fields;
+    s["collection_map"] = collection;
+    s["dead_zone"]      = dead_zone;
+    s["light_points"]   = light.points.size();
+    s["losses"]   = loss_points.empty() ? json(nullptr) : losses_json(loss_points, generation->optical_budget());
+    s["suns_voc"] = json::array();
+    for (const auto &[level, v] : suns_voc)
+      s["suns_voc"].push_back({{"light_factor", level}, {"Voc_V", v}});
+    s["cell"]              = cell_json;
+    s["series_resistance"] = rs_json;
+    if (cell_mpp && s["losses"].is_object())
+      s["losses"]["electrodes_at_cell_max_power"] = {
+        {"fingers", cell_mpp->hole_finger_loss + cell_mpp->electron_finger_loss},
+        {"contact_resistance", cell_mpp->hole_contact_loss + cell_mpp->electron_contact_loss}};
+    s["processes"] = dealii::Utilities::MPI::n_mpi_processes(o.communicator);
+
+    // Timings: the phases of the timer, the solver's own split of the light
+    // J-V, and per-solve figures.
+    const auto wall = timer.get_summary_data(dealii::TimerOutput::total_wall_time);
+    auto phase = [&wall](const char *name) {
+      const auto it = wall.find(name);
+      return it == wall.end() ? 0.0 : it->second;
+    };
+    json &t = s["timings_s"];
+    for (const char *name : {t_mesh, t_light, t_fields, t_losses, t_dark, t_cell})
+      t[name] = phase(name);
+    t["light_assembly"]     = light_assembly;
+    t["light_linear_solve"] = light_solve;
+    t["adjoint_per_solve"]  = adjoint_solves > 0 ? json(adjoint_seconds / adjoint_solves) : json(nullptr);
+    t["newton_step_light"]  = light.newton > 0 ? json(phase(t_light) / light.newton) : json(nullptr);
+    return s;
+  }
+
+  // jv.csv, losses.csv and the loss chart, then summary.json last: it marks
+  // a finished run. The checkpoint goes once everything is written.
+  void
+  CaseRun::write_results()
+  {
+    std::vector<std::string> plot_warnings;
+    if (!loss_points.empty())
+      {
+        std::optional<ElectrodeLoss> electrode_loss;
+        if (cell_mpp)
+          electrode_loss = ElectrodeLoss{cell_mpp->terminal_voltage,     cell_mpp->current,
+                                         cell_mpp->output_power,         cell_mpp->hole_finger_loss,
+                                         cell_mpp->electron_finger_loss, cell_mpp->hole_contact_loss,
+                                         cell_mpp->electron_contact_loss};
+        const auto optics = generation->optical_budget();
+        write_file_atomically(o.folder + "/losses.csv", losses_csv(loss_points, optics, width, electrode_loss));
+        const auto mpp = std::find_if(loss_points.begin(), loss_points.end(),
+                                      [](const LossPoint &p) { return p.name == "max_power"; });
+        if (mpp != loss_points.end())
+          write_loss_chart(*mpp, optics, electrode_loss,
+                           "Where the power goes at the maximum power point (" +
+                             format_fixed(mpp->balance.bias_V, 4) + " V)",
+                           o.folder + "/losses", plot_warnings);
+      }
+    for (const auto &w : plot_warnings)
+      std::fprintf(stderr, "backcomb: %s\n", w.c_str());
+    write_file_atomically(o.folder + "/jv.csv", jv_csv(light, dark, width));
+    json s                  = summary_of_results();
+    s["timings_s"]["total"] = total_time.wall_time();
+    write_file_atomically(o.folder + "/summary.json", s.dump(2) + "\n");
+    checkpoint->remove();
+  }
+
+  void
+  CaseRun::print_report() const
+  {
+    const auto &m = metrics;
+    if (m.valid)
+      std::printf("Jsc %.3f mA/cm2  Voc %.4f V  FF %.4f  PCE %.3f %% (footprint), %.3f %% (active)  "
+                  "collection %.4f\n",
+                  m.Jsc, m.Voc, m.FF, input_power > 0 ? 100 * m.Pmax / input_power : 0.0,
+                  input_power > 0 ? 100 * m.Pmax * width / active / input_power : 0.0,
+                  generated > 0 ? m.Jsc / generated : 0.0);
+    else if (lit)
+      std::printf("J-V metrics not available: the light J-V did not converge where they are needed\n");
+    if (cell_metrics.valid)
+      std::printf("comb cell with %.3g mm fingers: FF %.4f  PCE %.3f %% (footprint); electrodes take %.3f mW/cm2 "
+                  "at its maximum power point\n",
+                  c.electrodes.finger_length_mm, cell_metrics.FF,
+                  input_power > 0 ? 100 * cell_metrics.Pmax / input_power : 0.0,
+                  cell_mpp ? cell_mpp->hole_finger_loss + cell_mpp->electron_finger_loss +
+                               cell_mpp->hole_contact_loss + cell_mpp->electron_contact_loss
+                           : 0.0);
+    if (rs_json.is_object())
+      std::printf("series resistance (suns-Voc) %.4g ohm cm2: film %.4g, contacts %.4g, fingers %.4g\n",
+                  rs_json["total_ohm_cm2"].get<double>(), rs_json["film_ohm_cm2"].get<double>(),
+                  rs_json["contacts_ohm_cm2"].get<double>(), rs_json["fingers_ohm_cm2"].get<double>());
+    for (const auto &p : loss_points)
+      if (p.name == "max_power")
+        {
+          const LossSplit ls = loss_split(p.balance);
+          std::printf("at the maximum power point (mW/cm2): recombination %.3f, film Joule %.3f, contacts %.3f, "
+                      "output %.3f; balance residual %.1e of the input\n",
+                      ls.recombination, ls.film_joule, ls.contacts, p.balance.output,
+                      p.balance.input != 0 ? p.balance.residual() / p.balance.input : 0.0);
+        }
+    for (const auto &f : light.failures)
+      std::fprintf(stderr, "backcomb: %s\n", f.c_str());
+    for (const auto &f : dark.failures)
+      std::fprintf(stderr, "backcomb: %s\n", f.c_str());
+    std::printf("status %s; wrote %s/jv.csv, %s/summary.json%s\n", to_string(status).c_str(), o.folder.c_str(),
+                o.folder.c_str(), fields.empty() ? "" : " and fields.pvd");
+  }
 
   int
   run_mesh(const Case &c, const RunOptions &o)
@@ -269,470 +816,6 @@ namespace backcomb::simulator
   int
   run_solve(const Case &c, const RunOptions &o)
   {
-    const auto     t_start = std::chrono::steady_clock::now();
-    const Progress progress(o.quiet || dealii::Utilities::MPI::this_mpi_process(o.communicator) != 0);
-    const fem::ProgressLine progress_line = [&progress](const std::string &s) { progress.line(s); };
-    json           summary;
-    summary["backcomb_version"] = BACKCOMB_VERSION;
-    summary["software"] = {{"deal.II", DEAL_II_PACKAGE_VERSION},
-                           {"gmsh", GMSH_API_VERSION},
-                           {"vtk", vtkVersion::GetVTKVersion()}};
-    summary["case_file"]  = c.file;
-    summary["overrides"]  = c.overrides;
-    summary["case_text"]  = c.echo;
-
-    // Everything that can fail on input is checked before the folder exists.
-    const double film_um = c.geometry.absorber_thickness_um;
-    fem::FingerLayout layout;
-    const bool strip = c.geometry.layout == geometry::GeometryParameters::Layout::test_strip;
-    layout.has_fingers                   = !strip;
-    layout.electron_finger_half_width_um = 0.5 * c.geometry.electron_finger_width_um;
-    layout.gap_um                        = c.geometry.gap_um;
-    layout.hole_finger_half_width_um     = 0.5 * c.geometry.hole_finger_width_um;
-    const fem::Generation generation(c.illumination, c.absorber.band_gap, film_um, layout);
-
-    const bool root = dealii::Utilities::MPI::this_mpi_process(o.communicator) == 0;
-    make_folder(o.folder);
-    // summary.json marks a finished run and describes the files beside it:
-    // remove the previous one before any of them is replaced, so that a
-    // killed run never leaves a summary next to files of another run.
-    if (root)
-      {
-        std::error_code ec;
-        std::filesystem::remove(o.folder + "/summary.json", ec);
-      }
-    const auto t_mesh = std::chrono::steady_clock::now();
-    dealii::parallel::shared::Triangulation<2> tria(o.communicator);
-    build_shared_mesh(c, o.folder + "/mesh.msh", tria, o.communicator);
-    const auto stats   = geometry::mesh_statistics(tria);
-    summary["mesh"]    = statistics_json(stats);
-    const double t_m   = seconds_since(t_mesh);
-    if (!o.quiet && root)
-      print_statistics(stats);
-
-    const fem::DeviceModel device(
-      c.device.temperature, materials_of(c), {ids::absorber, ids::absorber_right},
-      c.electron_contact, c.hole_contact, c.top_surface, c.gap_interface,
-      [&generation](double x, double y) { return generation.rate(x, y); });
-    fem::DriftDiffusionSolver solver(tria, device, c.numerics);
-    summary["unknowns"] = solver.n_dofs();
-
-    // Meshes that cannot resolve the physics are reported before the solve.
-    summary["warnings"] = guard_rail_warnings(c, tria);
-    if (root)
-      for (const auto &w : summary["warnings"])
-        std::fprintf(stderr, "backcomb: warning: %s\n", w.get<std::string>().c_str());
-
-    // Converged points go to a checkpoint; those of an interrupted run of
-    // the same case are taken from it.
-    Checkpoint checkpoint(o.folder,
-                          checkpoint_fingerprint(c.echo, c.overrides, o.folder + "/mesh.msh", solver.n_dofs(),
-                                                 dealii::Utilities::MPI::n_mpi_processes(o.communicator)),
-                          o.communicator);
-    fem::Resume resume;
-    resume.stored = checkpoint.load(o.quiet);
-    resume.store  = &checkpoint;
-    summary["resumed_points"] = resume.stored.size();
-
-    const double width  = solver.width_um();
-    const double active = (!strip && c.device.active_area == DeviceSettings::ActiveArea::gap)
-                            ? c.geometry.gap_um
-                            : width;
-    const double input_power = 100.0 * c.illumination.intensity_suns; // mW/cm^2
-    const bool   lit         = c.illumination.intensity_suns > 0;
-
-    // Light: equilibrium, light ramp, J-V.
-    fem::JVScan light;
-    const auto t_light = std::chrono::steady_clock::now();
-    const fem::StepReport on =
-      fem::start_state(solver, lit ? 1.0 : 0.0, c.numerics.max_halvings, lit ? "light" : "dark", resume);
-    light.newton += on.newton_iterations;
-    light.halvings += on.halvings;
-    double generated = 0;
-    std::string status = "converged";
-    if (!on.converged)
-      {
-        light.failures.push_back(on.diagnostic);
-        status = "failed";
-      }
-    else
-      {
-        generated = solver.generation_current();
-        fem::scan(solver, bias_grid(c), c.jv.reverse, lit ? 1.0 : 0.0, c.jv.step, c.numerics.max_halvings, light,
-                  progress_line, lit ? "light" : "dark", resume);
-        if (lit)
-          fem::refine(solver, light, c.jv.refine_to, c.numerics.max_halvings, resume);
-      }
-    const double t_l = seconds_since(t_light);
-    const double light_assembly = solver.assembly_seconds(), light_solve = solver.linear_solve_seconds();
-
-    // Fields at the requested biases, from the stored states, with the
-    // adjoint collection probability under light; the dead zone at short
-    // circuit.
-    json   fields = json::array(), dead_zone_json = nullptr, collection_json = nullptr;
-    double adjoint_seconds = 0;
-    unsigned adjoint_solves = 0;
-    if (on.converged)
-      {
-        make_folder(o.folder + "/fields");
-        std::vector<double> biases = c.output.fields ? c.output.field_biases : std::vector<double>{};
-        const bool need_sc = lit && std::find_if(biases.begin(), biases.end(), [](double v) {
-                                      return std::abs(v) < 1e-9;
-                                    }) == biases.end();
-        if (need_sc)
-          biases.push_back(0.0);
-        std::ostringstream pvd;
-        pvd << "<?xml version=\"1.0\"?>\n<VTKFile type=\"Collection\" version=\"0.1\">\n<Collection>\n";
-        for (const double v : biases)
-          for (const auto &p : light.points)
-            if (p.jv.converged && std::abs(p.jv.voltage - v) < 1e-9)
-              {
-                solver.set_state(p.state, v, lit ? 1.0 : 0.0);
-                const bool        listed = !(need_sc && std::abs(v) < 1e-9);
-                const std::string name   = "fields/" + std::string(lit ? "light" : "dark") + "_V" +
-                                         bias_name(v) + (listed ? "" : "_collection") + ".vtu";
-                const std::string path   = o.folder + "/" + name;
-                dealii::Vector<double> fc;
-                if (lit)
-                  {
-                    const auto t0 = std::chrono::steady_clock::now();
-                    fc            = solver.collection_probability();
-                    adjoint_seconds += seconds_since(t0);
-                    ++adjoint_solves;
-                  }
-                try
-                  {
-                    solver.write_fields(path, lit ? &fc : nullptr, c.output.dead_zone_threshold);
-                  }
-                catch (const std::exception &e)
-                  {
-                    throw OutputError(e.what());
-                  }
-                if (lit && std::abs(v) < 1e-9)
-                  {
-                    const double collected = solver.collected_current(fc);
-                    collection_json = {{"bias_V", 0.0},
-                                       {"collected_current_mA_per_cm2", collected},
-                                       {"terminal_current_mA_per_cm2", p.jv.current},
-                                       {"relative_difference", p.jv.current != 0 ? (collected - p.jv.current) / p.jv.current : 0.0}};
-                    if (root)
-                      {
-                        try
-                          {
-                            const std::string contour = "fields/dead_zone_contour_V" + bias_name(v) + ".vtp";
-                            const DeadZone d = analyse_dead_zone(path, c.output.dead_zone_threshold,
-                                                                 o.folder + "/" + contour);
-                            dead_zone_json = {{"threshold", d.threshold},
-                                              {"area_fraction", d.area_fraction},
-                                              {"generated_fraction", d.generated_fraction},
-                                              {"absorber_area_um2", d.absorber_area_um2},
-                                              {"dead_area_um2", d.dead_area_um2},
-                                              {"present", d.present},
-                                              {"x_min_um", d.present ? json(d.x_min_um) : json(nullptr)},
-                                              {"x_max_um", d.present ? json(d.x_max_um) : json(nullptr)},
-                                              {"width_um", d.width_um()},
-                                              {"centre_um", d.present ? json(d.centre_um()) : json(nullptr)},
-                                              {"contour_file", contour}};
-                          }
-                        catch (const std::exception &e)
-                          {
-                            throw OutputError(e.what());
-                          }
-                      }
-                  }
-                if (listed)
-                  {
-                    pvd << "<DataSet timestep=\"" << number(v) << "\" file=\"" << name << "\"/>\n";
-                    fields.push_back({{"bias_V", v}, {"file", name}});
-                  }
-                else if (!c.output.fields && root)
-                  std::filesystem::remove(path);
-              }
-        pvd << "</Collection>\n</VTKFile>\n";
-        if (root && c.output.fields)
-          write_file_atomically(o.folder + "/fields.pvd", pvd.str());
-        if (!c.output.fields && root)
-          {
-            std::error_code ec;
-            std::filesystem::remove(o.folder + "/fields", ec); // only if empty
-          }
-      }
-
-    // Where the power goes: the balance at short circuit, the maximum power
-    // point, open circuit and the requested biases, from the stored states
-    // (or a solve from the nearest one).
-    std::vector<LossPoint> loss_points;
-    std::vector<std::pair<double, double>> suns_voc; // (light factor, V_oc)
-    const auto t_losses = std::chrono::steady_clock::now();
-    if (lit && on.converged)
-      {
-        const fem::JVMetrics m0 = fem::jv_metrics(fem::converged_curve(light));
-        // Puts the solver at bias v under full light: the stored state, or
-        // a solve from the nearest one.
-        auto balance_at = [&](const std::string &name, const double v) {
-          if (!fem::go_to(solver, light, v, c.numerics.max_halvings, resume))
-            {
-              light.failures.push_back("power balance at " + name + " (" + bias_name(v) +
-                                       " V): no converged state");
-              return;
-            }
-          loss_points.push_back({name, solver.power_balance()});
-        };
-        if (m0.valid)
-          {
-            const auto curve = fem::converged_curve(light);
-            const auto best  = std::max_element(curve.begin(), curve.end(), [](const auto &a, const auto &b) {
-              return a.voltage * a.current < b.voltage * b.current;
-            });
-            balance_at("short_circuit", 0.0);
-            balance_at("max_power", best->voltage);
-            balance_at("open_circuit", m0.Voc);
-          }
-        for (const double v : c.output.loss_biases)
-          balance_at("bias_" + bias_name(v), v);
-
-        // Suns-V_oc: open circuit at decreasing light, each from the last.
-        std::vector<double> levels = c.jv.suns_voc;
-        std::sort(levels.rbegin(), levels.rend());
-        if (m0.valid && !levels.empty() && fem::go_to(solver, light, m0.Voc, c.numerics.max_halvings, resume))
-          {
-            double previous = 1.0;
-            for (const double s : levels)
-              {
-                // Ideal-diode guess for the next V_oc: kT/q ln of the light ratio.
-                const double guess = solver.voltage() + device.scaling.Vt * std::log(s / previous) +
-                                     (s == previous ? 1e-3 : 0.0);
-                const fem::OpenCircuit oc =
-                  fem::find_open_circuit(solver, s, guess, c.numerics.max_halvings);
-                light.newton += oc.newton_iterations;
-                if (!oc.converged)
-                  {
-                    light.failures.push_back("suns-Voc at light factor " + number(s) + ": " + oc.diagnostic);
-                    break;
-                  }
-                suns_voc.emplace_back(s, oc.voltage);
-                previous = s;
-              }
-          }
-      }
-    const double t_loss = seconds_since(t_losses);
-
-    // Dark J-V over the same biases.
-    fem::JVScan dark;
-    const auto t_dark = std::chrono::steady_clock::now();
-    if (lit && c.jv.dark)
-      {
-        const fem::StepReport eq = fem::start_state(solver, 0.0, c.numerics.max_halvings, "dark", resume);
-        dark.newton += eq.newton_iterations;
-        if (eq.converged)
-          fem::scan(solver, bias_grid(c), c.jv.reverse, 0.0, c.jv.step, c.numerics.max_halvings, dark,
-                    progress_line, "dark", resume);
-        else
-          dark.failures.push_back(eq.diagnostic);
-      }
-    const double t_d = seconds_since(t_dark);
-    progress.done();
-
-    // Metrics from the light curve.
-    const fem::JVMetrics m = lit ? fem::jv_metrics(fem::converged_curve(light)) : fem::JVMetrics();
-    if (lit && !m.valid)
-      status = "failed";
-
-    // The whole comb cell (fingers and contact resistance, Electrodes
-    // section) and the series resistance from suns-Voc, both from the
-    // period's light J-V.
-    json             cell_json = nullptr, rs_json = nullptr;
-    fem::JVMetrics   cell_metrics;
-    std::optional<fem::CombOperatingPoint> cell_mpp;
-    if (m.valid && !strip)
-      {
-        std::vector<fem::JVPoint> curve;
-        for (const auto &p : fem::converged_curve(light))
-          if (curve.empty() || p.voltage > curve.back().voltage + 1e-9)
-            curve.push_back(p);
-        const fem::CombWidths widths{c.geometry.electron_finger_width_um, c.geometry.hole_finger_width_um,
-                                     2 * width};
-        try
-          {
-            if (!c.electrodes.ideal())
-              {
-                // Terminal voltages: the period's biases from 0 to the first
-                // one past open circuit.
-                std::vector<double> v;
-                for (const auto &p : curve)
-                  if (p.voltage >= -1e-12)
-                    {
-                      v.push_back(p.voltage);
-                      if (p.current < 0)
-                        break;
-                    }
-                const fem::CombCell cell(curve, widths, c.electrodes);
-                cell_metrics = fem::jv_metrics(cell.jv(v));
-                if (cell_metrics.valid)
-                  cell_mpp = cell.solve(cell_metrics.Vmp);
-                cell_json = {{"finger_length_mm", c.electrodes.finger_length_mm},
-                             {"metrics", metrics_json(cell_metrics, cell_metrics.valid ? std::optional<double>(cell_metrics.Jsc) : std::nullopt, width / active, input_power)}};
-                if (cell_mpp)
-                  cell_json["at_max_power"] = {
-                    {"bias_V", cell_mpp->terminal_voltage},
-                    {"current_mA_per_cm2", cell_mpp->current},
-                    {"output", cell_mpp->output_power},
-                    {"hole_fingers", cell_mpp->hole_finger_loss},
-                    {"electron_fingers", cell_mpp->electron_finger_loss},
-                    {"hole_comb_contact_resistance", cell_mpp->hole_contact_loss},
-                    {"electron_comb_contact_resistance", cell_mpp->electron_contact_loss},
-                    {"largest_finger_drop_V", std::max(cell_mpp->hole_finger_drop, cell_mpp->electron_finger_drop)}};
-              }
-            if (suns_voc.size() >= 2)
-              {
-                std::vector<fem::SunsVocPoint> pts;
-                for (const auto &[s, v] : suns_voc)
-                  pts.push_back({s, v});
-                const fem::PseudoJV               pseudo(pts, m.Jsc);
-                const fem::SeriesResistance      film = fem::series_resistance(pseudo, curve, input_power);
-                const fem::SeriesResistanceSplit split =
-                  fem::split_series_resistance(pseudo, curve, widths, c.electrodes);
-                rs_json = {{"total_ohm_cm2", split.total},
-                           {"film_ohm_cm2", split.film},
-                           {"contacts_ohm_cm2", split.contacts},
-                           {"fingers_ohm_cm2", split.fingers},
-                           {"pseudo_voltage_at_Jmp_V", film.pseudo_voltage_at_jmp},
-                           {"pseudo_metrics", metrics_json(film.pseudo, film.pseudo.Jsc, width / active, input_power)}};
-              }
-          }
-        catch (const std::exception &e)
-          {
-            light.failures.push_back(std::string("comb cell and series resistance: ") + e.what() +
-                                     (dynamic_cast<const std::domain_error *>(&e)
-                                        ? " (extend J-V sweep/Suns-Voc intensities to lower light, or the J-V "
-                                          "sweep to higher voltage)"
-                                        : ""));
-            if (status == "converged")
-              status = "partial";
-          }
-      }
-    for (const auto &p : light.points)
-      if (!p.jv.converged)
-        status = (status == "converged" && m.valid) ? "partial" : status;
-    for (const auto &p : dark.points)
-      if (!p.jv.converged && status == "converged")
-        status = "partial";
-
-    summary["status"]       = status;
-    summary["failures"]     = light.failures;
-    for (const auto &f : dark.failures)
-      summary["failures"].push_back(f);
-    const std::optional<double> jsc = lit ? short_circuit_current(fem::converged_curve(light)) : std::nullopt;
-    summary["metrics"] = lit ? metrics_json(m, jsc, width / active, input_power) : json(nullptr);
-    summary["points"]  = json::array();
-    add_points(summary["points"], lit ? "light" : "dark", light, bias_grid(c));
-    if (lit && c.jv.dark)
-      add_points(summary["points"], "dark", dark, bias_grid(c));
-    summary["footprint_width_um"] = width;
-    summary["active_width_um"]    = active;
-    summary["generation_current_mA_per_cm2"] = generated;
-    summary["collection_efficiency"] = (jsc && generated > 0) ? json(*jsc / generated) : json(nullptr);
-    summary["newton"] = {{"light_iterations", light.newton}, {"light_halvings", light.halvings},
-                         {"dark_iterations", dark.newton}, {"dark_halvings", dark.halvings}};
-    summary["timings_s"] = {{"mesh", t_m}, {"light", t_l}, {"dark", t_d},
-                            {"total", seconds_since(t_start)}};
-    summary["fields"]    = fields;
-    summary["collection_map"] = collection_json;
-    summary["dead_zone"]      = dead_zone_json;
-    summary["timings_s"]["light_assembly"]     = light_assembly;
-    summary["timings_s"]["light_linear_solve"] = light_solve;
-    summary["light_points"] = light.points.size();
-    summary["timings_s"]["adjoint_per_solve"] =
-      adjoint_solves > 0 ? json(adjoint_seconds / adjoint_solves) : json(nullptr);
-    summary["timings_s"]["newton_step_light"] =
-      light.newton > 0 ? json(t_l / light.newton) : json(nullptr);
-
-    // jv.csv: light and dark currents on the union of biases.
-    std::map<long, std::pair<std::string, std::string>> rows;
-    auto key = [](double v) { return std::lround(v * 1e7); };
-    for (const auto &p : light.points)
-      rows[key(p.jv.voltage)].first = p.jv.converged ? number(p.jv.current) : "failed";
-    for (const auto &p : dark.points)
-      rows[key(p.jv.voltage)].second = p.jv.converged ? number(p.jv.current) : "failed";
-    std::ostringstream csv;
-    csv << "# backcomb J-V; current density per footprint (period width " << width
-        << " um), generator convention (positive = delivered)\n";
-    csv << "voltage_V,J_light_mA_per_cm2,J_dark_mA_per_cm2\n";
-    for (const auto &[k, r] : rows)
-      csv << number(k * 1e-7) << ',' << r.first << ',' << r.second << '\n';
-    const std::optional<fem::OpticalBudget> optics = generation.optical_budget();
-    summary["losses"] = loss_points.empty() ? json(nullptr) : losses_json(loss_points, optics);
-    summary["suns_voc"] = json::array();
-    for (const auto &[s, v] : suns_voc)
-      summary["suns_voc"].push_back({{"light_factor", s}, {"Voc_V", v}});
-    summary["timings_s"]["losses_and_suns_voc"] = t_loss;
-    summary["cell"]              = cell_json;
-    summary["series_resistance"] = rs_json;
-    if (cell_mpp && summary["losses"].is_object())
-      summary["losses"]["electrodes_at_cell_max_power"] = {
-        {"fingers", cell_mpp->hole_finger_loss + cell_mpp->electron_finger_loss},
-        {"contact_resistance", cell_mpp->hole_contact_loss + cell_mpp->electron_contact_loss}};
-    summary["processes"] = dealii::Utilities::MPI::n_mpi_processes(o.communicator);
-    const int code = status == "failed" ? exit_no_convergence : exit_ok;
-    if (!root)
-      return code;
-    std::vector<std::string> plot_warnings;
-    if (!loss_points.empty())
-      {
-        std::optional<ElectrodeLoss> electrode_loss;
-        if (cell_mpp)
-          electrode_loss = ElectrodeLoss{cell_mpp->terminal_voltage,    cell_mpp->current,
-                                         cell_mpp->output_power,        cell_mpp->hole_finger_loss,
-                                         cell_mpp->electron_finger_loss, cell_mpp->hole_contact_loss,
-                                         cell_mpp->electron_contact_loss};
-        write_file_atomically(o.folder + "/losses.csv", losses_csv(loss_points, optics, width, electrode_loss));
-        const auto mpp = std::find_if(loss_points.begin(), loss_points.end(),
-                                      [](const LossPoint &p) { return p.name == "max_power"; });
-        if (mpp != loss_points.end())
-          write_loss_chart(*mpp, optics, electrode_loss,
-                           "Where the power goes at the maximum power point (" + bias_name(mpp->balance.bias_V) +
-                             " V)",
-                           o.folder + "/losses", plot_warnings);
-      }
-    for (const auto &w : plot_warnings)
-      std::fprintf(stderr, "backcomb: %s\n", w.c_str());
-    write_file_atomically(o.folder + "/jv.csv", csv.str());
-    write_file_atomically(o.folder + "/summary.json", summary.dump(2) + "\n");
-    checkpoint.remove();
-
-    if (m.valid)
-      std::printf("Jsc %.3f mA/cm2  Voc %.4f V  FF %.4f  PCE %.3f %% (footprint), %.3f %% (active)  "
-                  "collection %.4f\n",
-                  m.Jsc, m.Voc, m.FF, input_power > 0 ? 100 * m.Pmax / input_power : 0.0,
-                  input_power > 0 ? 100 * m.Pmax * width / active / input_power : 0.0,
-                  generated > 0 ? m.Jsc / generated : 0.0);
-    else if (lit)
-      std::printf("J-V metrics not available: the light J-V did not converge where they are needed\n");
-    if (cell_metrics.valid)
-      std::printf("comb cell with %.3g mm fingers: FF %.4f  PCE %.3f %% (footprint); electrodes take %.3f mW/cm2 "
-                  "at its maximum power point\n",
-                  c.electrodes.finger_length_mm, cell_metrics.FF,
-                  input_power > 0 ? 100 * cell_metrics.Pmax / input_power : 0.0,
-                  cell_mpp ? cell_mpp->hole_finger_loss + cell_mpp->electron_finger_loss + cell_mpp->hole_contact_loss +
-                               cell_mpp->electron_contact_loss
-                           : 0.0);
-    if (rs_json.is_object())
-      std::printf("series resistance (suns-Voc) %.4g ohm cm2: film %.4g, contacts %.4g, fingers %.4g\n",
-                  rs_json["total_ohm_cm2"].get<double>(), rs_json["film_ohm_cm2"].get<double>(),
-                  rs_json["contacts_ohm_cm2"].get<double>(), rs_json["fingers_ohm_cm2"].get<double>());
-    for (const auto &p : loss_points)
-      if (p.name == "max_power")
-        {
-          const LossSplit ls = loss_split(p.balance);
-          std::printf("at the maximum power point (mW/cm2): recombination %.3f, film Joule %.3f, contacts %.3f, "
-                      "output %.3f; balance residual %.1e of the input\n",
-                      ls.recombination, ls.film_joule, ls.contacts, p.balance.output,
-                      p.balance.input != 0 ? p.balance.residual() / p.balance.input : 0.0);
-        }
-    for (const auto &f : summary["failures"])
-      std::fprintf(stderr, "backcomb: %s\n", f.get<std::string>().c_str());
-    std::printf("status %s; wrote %s/jv.csv, %s/summary.json%s\n", status.c_str(), o.folder.c_str(),
-                o.folder.c_str(), fields.empty() ? "" : " and fields.pvd");
-    return code;
+    return CaseRun(c, o).run();
   }
 } // namespace backcomb::simulator

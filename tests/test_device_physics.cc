@@ -149,26 +149,40 @@ namespace
 // W = sqrt(2 eps (V_bi - 2kT/q)/q (1/N_A + 1/N_D)), the depletion
 // approximation with the majority-carrier tail correction (Sze & Ng, 3rd
 // ed., 2007, eqs. 2.9 and 2.11 with sec. 2.2.2). W is measured as the
-// total space charge on the n side divided by q N_D, times two.
-TEST(PnJunction, BuiltInPotentialAndDepletionWidth)
+// space charge on the n side within 5 um of the junction divided by q N_D,
+// times two.
+//
+// The contacts are deliberately not at the bulk Fermi levels: the p-side
+// metal's work function lies 0.15 eV below the valence-band-side Fermi level
+// of the p region's, the n-side metal's 0.10 eV above the n region's (both
+// accumulating, so the contacts stay ohmic). V_bi must then be read between
+// the two neutral regions, where charge neutrality alone fixes the
+// potential, and each contact must carry a thin accumulation layer whose
+// potential step equals the difference of the work functions of metal and
+// semiconductor (Sze & Ng, 3rd ed., 2007, sec. 3.2, eq. 3.1-3.3 for the
+// ideal metal-semiconductor contact; Boltzmann statistics).
+TEST(PnJunction, BuiltInPotentialWithUnpinnedContacts)
 {
   const Junction j;
   dealii::Triangulation<2> tria;
   j.mesh(tria);
   const Material mp = j.p_side(), mn = j.n_side();
   const double   ni = std::sqrt(mp.Nc * mp.Nv) * std::exp(-mp.band_gap / (2 * Vt));
-  // Hole contact (right end) sits on the n side here: use ohmic contacts
-  // whose work functions match each side's Fermi level.
-  const ContactParameters left = j.p_contact(), right = j.n_contact();
-  // Assign the left region p-type material.
+  const double   offset_p = 0.15, offset_n = 0.10; // eV
+  ContactParameters left = j.p_contact(), right = j.n_contact();
+  left.work_function += offset_p;  // further from the vacuum level than E_F of the p side
+  right.work_function -= offset_n; // closer to the vacuum level than E_F of the n side
   DeviceModel dev(T, {{ids::absorber, mp}, {ids::absorber_right, mn}}, {}, left, right,
                   SurfaceParameters(), SurfaceParameters(), nullptr);
   DriftDiffusionSolver solver(tria, dev, tight_numerics());
   ASSERT_TRUE(solver.solve_equilibrium().converged);
 
-  // psi at both ends and the space charge on the n side.
+  // psi at both contacts and in the middle of each neutral region, and the
+  // space charge on the n side next to the junction.
   const auto &u = solver.state();
-  double psi_left = 0, psi_right = 0, charge = 0;
+  double psi_left = 0, psi_right = 0, psi_p = 0, psi_n = 0, charge = 0;
+  const double x_p = 0.5 * j.xj, x_n = 0.5 * (j.xj + j.L);
+  double       d_p = 1e9, d_n = 1e9;
   std::vector<dealii::types::global_dof_index> idx(12);
   for (const auto &cell : solver.dof_handler().active_cell_iterators())
     {
@@ -176,34 +190,47 @@ TEST(PnJunction, BuiltInPotentialAndDepletionWidth)
       const auto &r = dev.region(cell->material_id());
       for (unsigned v = 0; v < 4; ++v)
         {
-          if (std::abs(cell->vertex(v)[0]) < 1e-9)
+          const double x = cell->vertex(v)[0];
+          if (std::abs(x) < 1e-9)
             psi_left = u[idx[3 * v]];
-          if (std::abs(cell->vertex(v)[0] - j.L) < 1e-9)
+          if (std::abs(x - j.L) < 1e-9)
             psi_right = u[idx[3 * v]];
+          if (std::abs(x - x_p) < d_p)
+            d_p = std::abs(x - x_p), psi_p = u[idx[3 * v]];
+          if (std::abs(x - x_n) < d_n)
+            d_n = std::abs(x - x_n), psi_n = u[idx[3 * v]];
         }
-      if (cell->material_id() == ids::absorber_right)
+      if (cell->material_id() == ids::absorber_right && cell->center()[0] < j.xj + 5.0)
         {
           // Cell-average space charge (trapezoid on the two x-nodes).
           double rho = 0;
           for (unsigned v : {0u, 1u})
             {
               const double psi = u[idx[3 * v]];
-              const double n = std::exp(psi - u[idx[3 * v + 1]] + r.a_n);
-              const double p = std::exp(u[idx[3 * v + 2]] - psi + r.a_p);
+              const double n   = std::exp(psi - u[idx[3 * v + 1]] + r.a_n);
+              const double p   = std::exp(u[idx[3 * v + 2]] - psi + r.a_p);
               rho += 0.5 * (p - n + r.doping);
             }
           charge += rho * cell->extent_in_direction(0) * dev.scaling.N0;
         }
     }
   const double Vbi_textbook = Vt * std::log(j.N * j.N / (ni * ni));
-  const double Vbi_solver   = (psi_right - psi_left) * Vt;
+  const double Vbi_solver   = (psi_n - psi_p) * Vt;
   EXPECT_NEAR(Vbi_solver / Vbi_textbook, 1.0, 1e-6);
+  // The whole drop between the metals is the difference of their work
+  // functions (equilibrium: one Fermi level), and the steps at the
+  // contacts are the offsets from the semiconductor's Fermi level.
+  EXPECT_NEAR((psi_right - psi_left) * Vt, left.work_function - right.work_function, 1e-9);
+  EXPECT_NEAR((psi_p - psi_left) * Vt, offset_p, 1e-6);
+  EXPECT_NEAR((psi_right - psi_n) * Vt, offset_n, 1e-6);
 
   const double eps     = mp.permittivity * constants::eps0 * 1e-2; // F/cm
   const double W_text  = std::sqrt(2 * eps * (Vbi_textbook - 2 * Vt) / constants::q * (2.0 / j.N)) * 1e4; // um
   const double W_model = 2 * charge / j.N;
-  std::printf("V_bi %.6f V (textbook %.6f), W %.5f um (depletion approx. %.5f um)\n",
-              Vbi_solver, Vbi_textbook, W_model, W_text);
+  std::printf("V_bi %.6f V (textbook %.6f), contact steps %.6f / %.6f V (work-function offsets %.2f / %.2f), "
+              "W %.5f um (depletion approx. %.5f um)\n",
+              Vbi_solver, Vbi_textbook, (psi_p - psi_left) * Vt, (psi_right - psi_n) * Vt, offset_p, offset_n,
+              W_model, W_text);
   EXPECT_NEAR(W_model / W_text, 1.0, 0.05);
 }
 

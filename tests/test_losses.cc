@@ -212,16 +212,22 @@ TEST(PowerBalance, DemoClosesAtThreeGaps)
           const auto &p     = s["losses"]["points"][name];
           const double input = p["free_energy_input"], output = p["output"];
           const double rel   = p["residual_relative_to_input"];
-          double       sum   = optical["incident"].get<double>();
-          for (const auto &[term, value] : p["terms"].items())
-            sum -= value.get<double>();
           std::printf("gap %3.0f um, %-13s V = %.4f V: input %.4f, output %.4f, recombination %.4f, "
-                      "film Joule %.4f, contacts %.4f mW/cm2; residual %.1e of input; terms - incident %.1e\n",
+                      "film Joule %.4f, contacts %.4f mW/cm2; residual %.1e of input\n",
                       gap, name, p["bias_V"].get<double>(), input, output,
                       p["split"]["recombination"].get<double>(), p["split"]["film_joule"].get<double>(),
-                      p["split"]["contacts"].get<double>(), rel, -sum);
+                      p["split"]["contacts"].get<double>(), rel);
           EXPECT_LT(std::abs(rel), 0.01) << name;
-          EXPECT_NEAR(sum, 0.0, 1e-6 * optical["incident"].get<double>()) << name;
+          // Two independent routes to q int G E_g: the solver's quadrature
+          // of the generation on the mesh (band-edge input of the balance)
+          // and the optical model's absorbed photon current times E_g.
+          const double band_edge = p["band_edge_input"];
+          EXPECT_NEAR(band_edge / (1.6 * optical["absorbed_current_mA_per_cm2"].get<double>()), 1.0, 1e-3) << name;
+          // The output of the balance (V J at its bias) and the J-V metrics
+          // (Pmax from a parabola through the refined curve) agree at the
+          // maximum power point.
+          if (std::string(name) == "max_power")
+            EXPECT_NEAR(output / s["metrics"]["Pmax_mW_per_cm2"].get<double>(), 1.0, 1e-3);
           if (std::string(name) == "open_circuit")
             {
               EXPECT_LT(std::abs(output), 1e-3 * input);
