@@ -459,7 +459,9 @@ TEST(StudyColumns, EveryColumnInCsvJsonAndScreen)
       for (const auto &key : c.json_path)
         path += key + "/";
       if (!c.unit.empty())
-        EXPECT_NE(path.find(unit_in_name(c.unit)), std::string::npos) << name;
+        {
+          EXPECT_NE(path.find(unit_in_name(c.unit)), std::string::npos) << name;
+        }
       if (c.screen_position > 0)
         {
           ++on_screen;
