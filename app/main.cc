@@ -151,7 +151,7 @@ main(int argc, char **argv)
               std::fprintf(stderr, "backcomb: merge takes only the sweep folder (and --quiet)\n\n%s", usage);
               return exit_usage;
             }
-          return rank() == 0 ? study::merge_sweep(args.case_file, args.quiet) : exit_ok;
+          return rank() == 0 ? study::merge_study(args.case_file, args.quiet) : exit_ok;
         }
       if (args.command != "mesh" && args.command != "solve" && args.command != "sweep")
         {
@@ -167,9 +167,9 @@ main(int argc, char **argv)
         {
           // Every rank checks the whole grid: the same input gives every
           // rank the same error, so all stop alike before anything is written.
-          const study::SweepPlan plan =
+          const study::StudyPlan plan =
             study::make_plan(args.case_file, args.overrides, args.vary);
-          study::SweepOptions options;
+          study::StudyOptions options;
           options.folder = args.out.empty()
                              ? simulator::read_case(args.case_file, args.overrides).output.folder
                              : args.out;
@@ -177,7 +177,7 @@ main(int argc, char **argv)
           options.task         = args.task;
           options.tasks        = args.tasks;
           options.retry_failed = args.retry_failed;
-          return study::run_sweep(plan, options);
+          return study::run_study(plan, options);
         }
       const simulator::Case c = simulator::read_case(args.case_file, args.overrides);
       const std::string       out = args.out.empty() ? c.output.folder : args.out;

@@ -237,11 +237,11 @@ TEST(Faults, FailedPointCutsTheCurve)
 TEST(Faults, SweepTableHasStatusPerCase)
 {
   const fs::path         dir  = fresh_folder("sweep-status");
-  study::SweepPlan plan = study::make_plan(tiny_case, {}, {"Numerics/Newton iterations=60,1"});
-  study::SweepOptions o;
+  study::StudyPlan plan = study::make_plan(tiny_case, {}, {"Numerics/Newton iterations=60,1"});
+  study::StudyOptions o;
   o.folder = (dir / "out").string();
   o.quiet  = true;
-  EXPECT_EQ(study::run_sweep(plan, o), 3);
+  EXPECT_EQ(study::run_study(plan, o), 3);
   std::ifstream            in(dir / "out" / "sweep.csv");
   std::vector<std::string> rows;
   for (std::string line; std::getline(in, line);)

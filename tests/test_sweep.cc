@@ -2,7 +2,11 @@
 // sweeps of a tiny fast case (resume, array-task shares plus merge, a
 // failing case). The MPI run is checked by tests/sweep_cli.sh.
 #include "base/entries.h"
+#include "base/format.h"
+#include "base/status.h"
 #include "study/study.h"
+
+#include <deal.II/base/parameter_handler.h>
 
 #include <gtest/gtest.h>
 #include <nlohmann/json.hpp>
@@ -81,6 +85,19 @@ end
     return rows;
   }
 
+  // Records the unit of Geometry/Gap the way every entry will be declared
+  // (base/entries.h declare()), in a ParameterHandler of the test's own:
+  // the study reads units from entry_unit(), never from documentation text.
+  void
+  declare_gap_with_new_api()
+  {
+    dealii::ParameterHandler prm;
+    prm.enter_subsection("Geometry");
+    declare(prm, "Geometry",
+            NumberEntry{"Gap", 20, "um", Range::above(0, 1e4), "Distance between neighbouring fingers"});
+    prm.leave_subsection();
+  }
+
   std::map<std::string, nlohmann::json>
   cases_by_id(const fs::path &sweep_json)
   {
@@ -124,7 +141,7 @@ TEST(SweepValues, MalformedListsAreInputErrors)
   EXPECT_THROW(parse_vary("Geometry/Gap"), InputError);
   EXPECT_THROW(parse_vary("Gap=5"), InputError);
   EXPECT_THROW(parse_vary("=5"), InputError);
-  const SweptEntry e = parse_vary("Geometry/Gap=5,10");
+  const StudyEntry e = parse_vary("Geometry/Gap=5,10");
   EXPECT_EQ(e.path, "Geometry/Gap");
   EXPECT_EQ(e.values.size(), 2u);
 }
@@ -136,7 +153,8 @@ TEST(SweepPlan, GridIsTheCartesianProduct)
 {
   const fs::path dir  = fresh_folder("grid");
   const auto     file = write_case(dir, comb);
-  const SweepPlan plan =
+  declare_gap_with_new_api();
+  const StudyPlan plan =
     make_plan(file, {"Geometry/Absorber thickness=0.5"},
               {"Geometry/Gap=5,10,20", "Geometry/Electron finger width=2,4"});
   ASSERT_EQ(plan.cases.size(), 6u);
@@ -150,10 +168,14 @@ TEST(SweepPlan, GridIsTheCartesianProduct)
   EXPECT_DOUBLE_EQ(plan.cases[5].pitch_um, 4 + 6 + 2 * 20.0);
   EXPECT_DOUBLE_EQ(plan.cases[0].pitch_um, 2 + 6 + 2 * 5.0);
   // Same names in two sections: the ids use the full path.
-  const SweepPlan both = make_plan(file, {}, {"Electron contact/Work function=4.0,4.1",
+  const StudyPlan both = make_plan(file, {}, {"Electron contact/Work function=4.0,4.1",
                                               "Hole contact/Work function=5.3"});
   EXPECT_EQ(both.cases[1].id, "Electron_contact_Work_function=4.1__Hole_contact_Work_function=5.3");
-  EXPECT_EQ(both.entries[0].unit, "eV");
+  // Units come from the entries' declarations (entry_unit()), whatever
+  // the documentation text says; an entry not yet declared with a unit has
+  // none.
+  EXPECT_EQ(both.entries[0].unit, entry_unit("Electron contact/Work function"));
+  EXPECT_EQ(plan.entries[1].unit, entry_unit("Geometry/Electron finger width"));
   fs::remove_all(dir);
 }
 
@@ -189,16 +211,16 @@ TEST(SweepPlan, InvalidGridPointsAreInputErrors)
 // of the best case (numbers constructed: 0.98 * 10 = 9.8 is the limit).
 TEST(SweepRecommendation, BestAndNearBestRange)
 {
-  SweepPlan plan;
+  StudyPlan plan;
   plan.entries = {{"Geometry/Gap", {"5", "10", "20", "50", "100"}, "um"}};
-  std::vector<SweepRow> rows;
+  std::vector<StudyRow> rows;
   const std::vector<double> pce = {9.0, 9.85, 10.0, 9.81, 9.9};
   for (std::size_t i = 0; i < pce.size(); ++i)
     {
-      SweepRow r;
+      StudyRow r;
       r.id     = "Gap=" + plan.entries[0].values[i];
       r.values = {plan.entries[0].values[i]};
-      r.status = "converged";
+      r.status = Status::converged;
       r.PCE    = pce[i];
       rows.push_back(r);
     }
@@ -209,7 +231,7 @@ TEST(SweepRecommendation, BestAndNearBestRange)
   EXPECT_TRUE(rec.at_edge == false);
 
   // A failed neighbour ends the run: nothing is known there.
-  rows[3].status = "failed";
+  rows[3].status = Status::failed;
   rows[3].PCE.reset();
   rec = recommend(plan, rows);
   EXPECT_EQ(rec.near_best, (std::vector<std::size_t>{1, 2}));
@@ -232,16 +254,16 @@ TEST(SweepRecommendation, BestAndNearBestRange)
 // resistance moves the best gap to a narrower pitch (numbers constructed).
 TEST(SweepRecommendation, WholeCellPceDecidesWhenPresent)
 {
-  SweepPlan plan;
+  StudyPlan plan;
   plan.entries = {{"Geometry/Gap", {"5", "10", "20"}, "um"}};
-  std::vector<SweepRow> rows;
+  std::vector<StudyRow> rows;
   const std::vector<double> period = {9.0, 9.5, 10.0}, cell = {9.1, 9.2, 8.0};
   for (std::size_t i = 0; i < period.size(); ++i)
     {
-      SweepRow r;
+      StudyRow r;
       r.id       = "Gap=" + plan.entries[0].values[i];
       r.values   = {plan.entries[0].values[i]};
-      r.status   = "converged";
+      r.status   = Status::converged;
       r.PCE      = period[i];
       r.PCE_cell = cell[i];
       rows.push_back(r);
@@ -253,17 +275,290 @@ TEST(SweepRecommendation, WholeCellPceDecidesWhenPresent)
   EXPECT_NE(rec.text.find("whole comb cell"), std::string::npos) << rec.text;
 }
 
+// The criterion that decided is the one the sentence and sweep.json state:
+// the PCE per footprint without an Electrodes section, the whole comb
+// cell's PCE with one (numbers constructed so that the two criteria pick
+// different gaps: 10.0 % per footprint at 20 um, 9.2 % of the cell at 10 um).
+TEST(SweepRecommendation, StatesTheCriterionThatDecided)
+{
+  StudyPlan plan;
+  plan.case_file = "case.prm";
+  plan.entries   = {{"Geometry/Gap", {"5", "10", "20"}, "um"}};
+  std::vector<StudyRow>     rows;
+  const std::vector<double> period = {9.0, 9.5, 10.0}, cell = {9.1, 9.2, 8.0};
+  for (std::size_t i = 0; i < period.size(); ++i)
+    {
+      StudyRow r;
+      r.id     = "Gap=" + plan.entries[0].values[i];
+      r.values = {plan.entries[0].values[i]};
+      r.status = Status::converged;
+      r.PCE    = period[i];
+      rows.push_back(r);
+    }
+  const Recommendation footprint = recommend(plan, rows);
+  ASSERT_TRUE(footprint.valid);
+  EXPECT_EQ(footprint.criterion, Criterion::pce_per_footprint);
+  EXPECT_EQ(footprint.best, 2u);
+  EXPECT_NE(footprint.text.find("(highest PCE per footprint)"), std::string::npos) << footprint.text;
+  EXPECT_EQ(footprint.text.find("comb cell"), std::string::npos) << footprint.text;
+  const nlohmann::json by_footprint = study_json(plan, rows, footprint)["recommendation"];
+  EXPECT_EQ(by_footprint["criterion"], "highest PCE per footprint");
+  EXPECT_EQ(by_footprint["best_case"], "Gap=20");
+
+  for (std::size_t i = 0; i < rows.size(); ++i)
+    rows[i].PCE_cell = cell[i];
+  const Recommendation whole = recommend(plan, rows);
+  ASSERT_TRUE(whole.valid);
+  EXPECT_EQ(whole.criterion, Criterion::pce_of_comb_cell);
+  EXPECT_EQ(whole.best, 1u);
+  EXPECT_NE(whole.text.find("(highest PCE of the whole comb cell)"), std::string::npos) << whole.text;
+  EXPECT_NE(whole.text.find("PCE 9.2 %"), std::string::npos) << whole.text;
+  EXPECT_EQ(whole.text.find("per footprint"), std::string::npos) << whole.text;
+  const nlohmann::json by_cell = study_json(plan, rows, whole)["recommendation"];
+  EXPECT_EQ(by_cell["criterion"], "highest PCE of the whole comb cell");
+  EXPECT_EQ(by_cell["best_case"], "Gap=10");
+  EXPECT_EQ(by_cell["text"], whole.text);
+}
+
+// The one text form of each status (as summary.json, sweep.csv and
+// sweep.json hold it) reads back as the same status; other text is none.
+TEST(StudyStatus, TextRoundTrip)
+{
+  const std::map<Status, std::string> text = {{Status::converged, "converged"},
+                                              {Status::partial, "partial"},
+                                              {Status::failed, "failed"},
+                                              {Status::missing, "missing"}};
+  for (const auto &[status, name] : text)
+    {
+      EXPECT_EQ(to_string(status), name);
+      EXPECT_EQ(status_from_string(name), status) << name;
+    }
+  for (const std::string other : {"", "Converged", "ok", "failed ", "unknown"})
+    EXPECT_FALSE(status_from_string(other).has_value()) << "'" << other << "'";
+}
+
+namespace
+{
+  // A unit as file formats spell it inside a name (CSV header, JSON key),
+  // written out here independently of the column table.
+  std::string
+  unit_in_name(const std::string &unit)
+  {
+    static const std::map<std::string, std::string> names = {
+      {"um", "_um"},          {"V", "_V"},           {"%", "percent"},
+      {"mA/cm^2", "_mA_per_cm2"}, {"mW/cm^2", "_mW_per_cm2"}, {"ohm cm^2", "_ohm_cm2"}, {"s", "seconds"}};
+    return names.at(unit);
+  }
+
+  std::vector<std::string>
+  split_at(const std::string &line, const std::string &separator)
+  {
+    std::vector<std::string> parts;
+    std::size_t              from = 0;
+    for (std::size_t at; (at = line.find(separator, from)) != std::string::npos; from = at + separator.size())
+      parts.push_back(line.substr(from, at - from));
+    parts.push_back(line.substr(from));
+    for (auto &p : parts)
+      p = trim(p);
+    return parts;
+  }
+
+  std::vector<std::string>
+  data_lines(const std::string &text)
+  {
+    std::vector<std::string> lines;
+    std::istringstream       in(text);
+    for (std::string line; std::getline(in, line);)
+      if (!line.empty() && line[0] != '#')
+        lines.push_back(line);
+    return lines;
+  }
+
+  // Column k of the table gets the value 1 + (k + 1)/8 (exact in binary,
+  // so every format prints it exactly), a count k + 1.
+  double
+  test_value(const Column &c, const std::size_t k)
+  {
+    return c.whole ? double(k + 1) : 1 + (k + 1) / 8.0;
+  }
+} // namespace
+
+// Every column of the one table appears in the sweep.csv header and rows,
+// in sweep.json at its path, and, when marked, in the screen table at its
+// position, each with its unit; an absent value is an empty CSV cell, a
+// JSON null and a '-' on screen.
+TEST(StudyColumns, EveryColumnInCsvJsonAndScreen)
+{
+  StudyPlan plan;
+  plan.case_file = "case.prm";
+  plan.entries   = {{"Geometry/Gap", {"5", "10"}, "um"}};
+  StudyRow full, empty;
+  full.id = "Gap=5", full.values = {"5"}, full.status = Status::converged;
+  empty.id = "Gap=10", empty.values = {"10"}, empty.status = Status::missing, empty.reason = "not computed yet";
+  for (std::size_t k = 0; k < columns().size(); ++k)
+    full.*columns()[k].field = test_value(columns()[k], k);
+  const std::vector<StudyRow> rows = {full, empty};
+
+  const auto csv = data_lines(csv_text(plan, rows));
+  ASSERT_EQ(csv.size(), 3u);
+  const auto header = split_at(csv[0], ","), first = split_at(csv[1], ","), second = split_at(csv[2], ",");
+  EXPECT_EQ(header.front(), "case");
+  EXPECT_EQ(header[1], "Geometry/Gap [um]");
+  EXPECT_EQ(header[header.size() - 2], "status");
+  EXPECT_EQ(header.back(), "reason");
+  EXPECT_EQ(first.size(), header.size());
+  EXPECT_EQ(second.size(), header.size());
+  EXPECT_EQ(first[first.size() - 2], "converged");
+  EXPECT_EQ(second[second.size() - 2], "missing");
+  std::size_t in_csv = 0;
+
+  const nlohmann::json json_full = row_json(plan, full), json_empty = row_json(plan, empty);
+  EXPECT_EQ(json_full["status"], "converged");
+  EXPECT_EQ(json_empty["status"], "missing");
+  EXPECT_EQ(json_full["values"]["Geometry/Gap"], "5");
+
+  const auto screen = data_lines(screen_table(plan, rows));
+  ASSERT_EQ(screen.size(), 4u); // header, rule, two rows
+  const auto screen_header = split_at(screen[0], " | "), screen_full = split_at(screen[2], " | "),
+             screen_empty  = split_at(screen[3], " | ");
+  EXPECT_EQ(screen_header.front(), "Gap (um)");
+  EXPECT_EQ(screen_header.back(), "status");
+  EXPECT_EQ(screen_full.back(), "converged");
+  std::size_t on_screen = 0;
+
+  for (std::size_t k = 0; k < columns().size(); ++k)
+    {
+      const Column &c     = columns()[k];
+      const double  value = test_value(c, k);
+      const std::string name =
+        c.csv_header.empty() ? c.json_path.back() : c.csv_header; // for the messages
+      if (!c.csv_header.empty())
+        {
+          ++in_csv;
+          const auto at = std::find(header.begin(), header.end(), c.csv_header);
+          ASSERT_NE(at, header.end()) << name;
+          const auto i = std::size_t(at - header.begin());
+          EXPECT_EQ(std::stod(first[i]), value) << name;
+          EXPECT_EQ(second[i], "") << name;
+          if (!c.unit.empty())
+            {
+              const std::string u = unit_in_name(c.unit);
+              EXPECT_EQ(c.csv_header.substr(c.csv_header.size() - u.size()), u) << name;
+            }
+        }
+      // sweep.json: the value at the column's path, its unit in the path.
+      const nlohmann::json *node = &json_full, *absent = &json_empty;
+      for (const auto &key : c.json_path)
+        {
+          ASSERT_TRUE(node->contains(key)) << name;
+          node = &node->at(key), absent = &absent->at(key);
+        }
+      EXPECT_EQ(node->get<double>(), value) << name;
+      EXPECT_TRUE(absent->is_null()) << name;
+      std::string path;
+      for (const auto &key : c.json_path)
+        path += key + "/";
+      if (!c.unit.empty())
+        {
+          EXPECT_NE(path.find(unit_in_name(c.unit)), std::string::npos) << name;
+        }
+      if (c.screen_position > 0)
+        {
+          ++on_screen;
+          const std::size_t i = std::size_t(c.screen_position); // after the one entry column
+          ASSERT_LT(i, screen_header.size()) << name;
+          EXPECT_EQ(screen_header[i], c.screen_header) << name;
+          EXPECT_EQ(screen_full[i], format_fixed(value, c.screen_decimals)) << name;
+          EXPECT_EQ(screen_empty[i], "-") << name;
+          // A unit shown in parentheses is the column's (written without '^').
+          const auto open = c.screen_header.find('(');
+          if (open != std::string::npos)
+            {
+              std::string unit = c.unit;
+              unit.erase(std::remove(unit.begin(), unit.end(), '^'), unit.end());
+              EXPECT_EQ(c.screen_header.substr(open + 1, c.screen_header.size() - open - 2), unit) << name;
+            }
+        }
+    }
+  // Nothing but the table between the fixed frame of the outputs.
+  EXPECT_EQ(header.size(), 2 + in_csv + 2);
+  EXPECT_EQ(screen_header.size(), 1 + on_screen + 1);
+}
+
+// A case's summary.json, written by hand as a solve writes it, fills every
+// column that a summary holds; a failed case keeps its sizes, counts and
+// time but no metrics; an unknown status is a failed case.
+TEST(StudyColumns, SummaryJsonFillsEveryColumn)
+{
+  nlohmann::json s = nlohmann::json::parse(R"({
+    "status": "converged",
+    "footprint_width_um": 40, "active_width_um": 30,
+    "collection_efficiency": 0.95,
+    "metrics": {"Jsc_mA_per_cm2": 20.5, "Voc_V": 0.75, "FF": 0.8, "PCE_percent": 12.25,
+                "per_active_area": {"Jsc_mA_per_cm2": 27.5, "PCE_percent": 16.5}},
+    "dead_zone": {"area_fraction": 0.125},
+    "losses": {"points": {"max_power": {"split": {"recombination": 3.5, "film_joule": 0.5, "contacts": 0.25}}},
+               "electrodes_at_cell_max_power": {"fingers": 0.75, "contact_resistance": 0.125}},
+    "cell": {"metrics": {"PCE_percent": 11.5}},
+    "series_resistance": {"total_ohm_cm2": 1.5},
+    "newton": {"light_iterations": 7, "dark_iterations": 5, "light_halvings": 1, "dark_halvings": 2},
+    "timings_s": {"total": 2.5}
+  })");
+  StudyRow r;
+  read_summary(s, r);
+  EXPECT_EQ(r.status, Status::converged);
+  EXPECT_EQ(r.footprint_width_um, 40.0);
+  EXPECT_EQ(r.active_width_um, 30.0);
+  EXPECT_EQ(r.collection_efficiency, 0.95);
+  EXPECT_EQ(r.Jsc, 20.5);
+  EXPECT_EQ(r.Voc, 0.75);
+  EXPECT_EQ(r.FF, 0.8);
+  EXPECT_EQ(r.PCE, 12.25);
+  EXPECT_EQ(r.Jsc_active, 27.5);
+  EXPECT_EQ(r.PCE_active, 16.5);
+  EXPECT_EQ(r.dead_zone_fraction, 0.125);
+  EXPECT_EQ(r.loss_recombination, 3.5);
+  EXPECT_EQ(r.loss_film_joule, 0.5);
+  EXPECT_EQ(r.loss_contacts, 0.25);
+  EXPECT_EQ(r.loss_electrodes, 0.75 + 0.125); // fingers plus contact resistance
+  EXPECT_EQ(r.PCE_cell, 11.5);
+  EXPECT_EQ(r.series_resistance, 1.5);
+  EXPECT_EQ(r.newton_iterations, 7.0 + 5.0); // light plus dark J-V
+  EXPECT_EQ(r.step_halvings, 1.0 + 2.0);
+  EXPECT_EQ(r.seconds, 2.5);
+  // Every column but the pitch (which the plan gives) came from the summary.
+  for (const auto &c : columns())
+    EXPECT_EQ((r.*c.field).has_value(), c.field != &StudyRow::pitch_um) << c.csv_header;
+
+  s["status"]   = "failed";
+  s["failures"] = nlohmann::json::array({"equilibrium: Newton did not converge\nsecond line"});
+  StudyRow f;
+  read_summary(s, f);
+  EXPECT_EQ(f.status, Status::failed);
+  EXPECT_EQ(f.reason, "equilibrium: Newton did not converge");
+  EXPECT_FALSE(f.PCE || f.collection_efficiency || f.loss_electrodes || f.PCE_cell || f.dead_zone_fraction);
+  EXPECT_EQ(f.footprint_width_um, 40.0);
+  EXPECT_EQ(f.newton_iterations, 12.0);
+  EXPECT_EQ(f.seconds, 2.5);
+
+  s["status"] = "done";
+  StudyRow u;
+  read_summary(s, u);
+  EXPECT_EQ(u.status, Status::failed);
+  EXPECT_FALSE(u.PCE);
+}
+
 // A sweep killed part-way resumes without recomputing finished cases, and
 // the final table equals that of an uninterrupted run.
 TEST(SweepRun, ResumeRecomputesOnlyUnfinishedCases)
 {
   const fs::path dir  = fresh_folder("resume");
   const std::string file = tiny_strip_file;
-  const SweepPlan plan = make_plan(file, {}, {"Geometry/Strip length=0.5,1,2"});
-  SweepOptions o;
+  const StudyPlan plan = make_plan(file, {}, {"Geometry/Strip length=0.5,1,2"});
+  StudyOptions o;
   o.folder = (dir / "out").string();
   o.quiet  = true;
-  ASSERT_EQ(run_sweep(plan, o), 0);
+  ASSERT_EQ(run_study(plan, o), 0);
   const std::string uninterrupted = read_file(dir / "out" / "sweep.csv");
   ASSERT_EQ(csv_rows(dir / "out" / "sweep.csv").size(), 4u); // header + 3
 
@@ -282,15 +577,15 @@ TEST(SweepRun, ResumeRecomputesOnlyUnfinishedCases)
   fs::remove(dir / "out" / "sweep.csv");
   const auto kept_time = fs::last_write_time(cases / "Strip_length=1" / "summary.json");
 
-  ASSERT_EQ(run_sweep(plan, o), 0);
+  ASSERT_EQ(run_study(plan, o), 0);
   EXPECT_EQ(fs::last_write_time(cases / "Strip_length=1" / "summary.json"), kept_time);
   EXPECT_TRUE(fs::exists(cases / "Strip_length=0.5" / "summary.json"));
   EXPECT_TRUE(fs::exists(cases / "Strip_length=2" / "summary.json"));
   EXPECT_EQ(read_file(dir / "out" / "sweep.csv"), uninterrupted);
 
   // The same folder with another grid is refused before anything is written.
-  const SweepPlan other = make_plan(file, {}, {"Geometry/Strip length=0.5,1"});
-  EXPECT_THROW(run_sweep(other, o), InputError);
+  const StudyPlan other = make_plan(file, {}, {"Geometry/Strip length=0.5,1"});
+  EXPECT_THROW(run_study(other, o), InputError);
   fs::remove_all(dir);
 }
 
@@ -300,29 +595,29 @@ TEST(SweepRun, TaskSharesPlusMergeEqualSerial)
 {
   const fs::path dir  = fresh_folder("tasks");
   const std::string file = tiny_strip_file;
-  const SweepPlan plan = make_plan(file, {}, {"Geometry/Strip length=0.5,1,2"});
-  SweepOptions serial;
+  const StudyPlan plan = make_plan(file, {}, {"Geometry/Strip length=0.5,1,2"});
+  StudyOptions serial;
   serial.folder = (dir / "serial").string();
   serial.quiet  = true;
-  ASSERT_EQ(run_sweep(plan, serial), 0);
+  ASSERT_EQ(run_study(plan, serial), 0);
 
-  SweepOptions share = serial;
+  StudyOptions share = serial;
   share.folder       = (dir / "tasks").string();
   share.tasks        = 2;
   share.task         = 1; // cases 0 and 2
-  ASSERT_EQ(run_sweep(plan, share), 0);
+  ASSERT_EQ(run_study(plan, share), 0);
   EXPECT_FALSE(fs::exists(dir / "tasks" / "sweep.csv")); // a share does not merge
   EXPECT_FALSE(fs::exists(dir / "tasks" / "cases" / "Strip_length=1"));
 
-  EXPECT_EQ(merge_sweep(share.folder, true), exit_no_convergence);
+  EXPECT_EQ(merge_study(share.folder, true), exit_no_convergence);
   auto partial = cases_by_id(dir / "tasks" / "sweep.json");
   EXPECT_EQ(partial["Strip_length=1"]["status"], "missing");
   EXPECT_TRUE(partial["Strip_length=1"]["PCE_percent"].is_null());
   EXPECT_EQ(partial["Strip_length=2"]["status"], "converged");
 
   share.task = 2;
-  ASSERT_EQ(run_sweep(plan, share), 0);
-  ASSERT_EQ(merge_sweep(share.folder, true), 0);
+  ASSERT_EQ(run_study(plan, share), 0);
+  ASSERT_EQ(merge_study(share.folder, true), 0);
   EXPECT_EQ(read_file(dir / "tasks" / "sweep.csv"), read_file(dir / "serial" / "sweep.csv"));
   EXPECT_TRUE(fs::exists(dir / "tasks" / "sweep.svg"));
   EXPECT_TRUE(fs::exists(dir / "tasks" / "sweep.png"));
@@ -337,12 +632,12 @@ TEST(SweepRun, FailingCasesAreRecordedAndOthersComplete)
 {
   const fs::path dir  = fresh_folder("failing");
   const std::string file = tiny_strip_file;
-  SweepPlan plan = make_plan(file, {}, {"Numerics/Newton iterations=60,1,50"});
+  StudyPlan plan = make_plan(file, {}, {"Numerics/Newton iterations=60,1,50"});
   plan.cases[2].overrides.push_back("Geometry/Strip length=-1");
-  SweepOptions o;
+  StudyOptions o;
   o.folder = (dir / "out").string();
   o.quiet  = true;
-  EXPECT_EQ(run_sweep(plan, o), exit_no_convergence);
+  EXPECT_EQ(run_study(plan, o), exit_no_convergence);
 
   auto c = cases_by_id(dir / "out" / "sweep.json");
   EXPECT_EQ(c["Newton_iterations=60"]["status"], "converged");
@@ -372,7 +667,7 @@ TEST(SweepRun, FailingCasesAreRecordedAndOthersComplete)
 
   // A rerun keeps the failed cases; --retry-failed recomputes them.
   const auto failed_time = fs::last_write_time(dir / "out" / "cases" / "Newton_iterations=1" / "summary.json");
-  EXPECT_EQ(run_sweep(plan, o), exit_no_convergence);
+  EXPECT_EQ(run_study(plan, o), exit_no_convergence);
   EXPECT_EQ(fs::last_write_time(dir / "out" / "cases" / "Newton_iterations=1" / "summary.json"), failed_time);
   fs::remove_all(dir);
 }

@@ -1,0 +1,355 @@
+#include "study/merge.h"
+
+#include "base/errors.h"
+#include "base/files.h"
+#include "base/format.h"
+#include "postprocess/plots.h"
+#include "postprocess/pvd.h"
+#include "study/layout.h"
+#include "study/rows.h"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <limits>
+#include <map>
+#include <sstream>
+
+namespace backcomb::study
+{
+  using json = nlohmann::json;
+  namespace fs = std::filesystem;
+
+  namespace
+  {
+    constexpr double nan = std::numeric_limits<double>::quiet_NaN();
+
+    std::string
+    csv_field(const std::string &s)
+    {
+      if (s.find_first_of(",\"\n") == std::string::npos)
+        return s;
+      std::string out = "\"";
+      for (const char c : s)
+        out += c == '"' ? std::string("\"\"") : c == '\n' ? std::string(" ") : std::string(1, c);
+      return out + "\"";
+    }
+
+    json
+    json_number(const std::optional<double> &v)
+    {
+      return (v && std::isfinite(*v)) ? json(*v) : json(nullptr);
+    }
+
+    // `value` at the nested keys `path` of `j`, creating the objects on the way.
+    void
+    set_at(json &j, const std::vector<std::string> &path, json value)
+    {
+      json *node = &j;
+      for (std::size_t k = 0; k + 1 < path.size(); ++k)
+        node = &(*node)[path[k]];
+      (*node)[path.back()] = std::move(value);
+    }
+
+    const char *const csv_preamble =
+      "# pitch_um: electrode pitch w_e + w_h + 2 gap, the distance between the centres of "
+      "neighbouring fingers of the same polarity (twice the simulated period width)\n"
+      "# metrics per footprint (the whole period) unless named _active (per active area, "
+      "Device/Active area); collection_efficiency = Jsc / (q * generation integrated over the absorber)\n"
+      "# dead_zone_fraction: absorber area fraction with collection probability below the "
+      "case's threshold (summary.json dead_zone)\n"
+      "# loss_*: power lost at the maximum power point in mW/cm^2 of footprint (losses.csv of the case "
+      "has every term): recombination = bulk + surfaces + minority carriers at the combs, film_joule = "
+      "Joule heat of both carriers, contacts = majority carriers crossing the combs; electrodes = "
+      "finger and contact resistance of the whole comb cell (Electrodes section) at its maximum power point\n"
+      "# PCE_cell_percent: the whole comb cell with its fingers; series_resistance_ohm_cm2: from suns-Voc "
+      "against the light J-V at the maximum power point (summary.json series_resistance has the split)\n"
+      "# an empty cell means not available: a failed or missing case, or a quantity the case "
+      "did not compute\n";
+
+    const char *const screen_notes =
+      "\nPCE is per footprint (the whole period); 'PCE act' per active area; collection "
+      "efficiency = Jsc / (q * integrated generation);\n'dead zone' = absorber area fraction "
+      "with collection probability below the threshold; pitch = w_e + w_h + 2 gap.\n"
+      "recomb., Joule, contacts: power lost at the maximum power point (mW/cm2 of footprint) to "
+      "recombination,\nto the film's resistance and to carriers crossing the combs; electr.: "
+      "fingers and contact resistance of the whole comb cell at its own maximum power point;\n"
+      "PCE cell: that cell's PCE; Rs: series resistance (ohm cm2) from suns-Voc. Each case's "
+      "losses.csv and losses.svg have every term.\n"
+      "Model estimates for comparing designs, only as good as the material parameters.\n";
+
+    // ParaView collections of the cases' field files: one per field bias,
+    // indexed by the first varied value (1-D numeric studies) or by the
+    // case index in the plan (grids).
+    std::vector<std::string>
+    write_field_collections(const std::string &folder, const StudyPlan &plan, const std::vector<StudyRow> &rows)
+    {
+      const bool by_value = plan.entries.size() == 1 && all_numeric(plan.entries[0].values);
+      std::map<std::string, std::vector<std::pair<double, std::string>>> by_bias;
+      for (std::size_t i = 0; i < rows.size(); ++i)
+        {
+          if (rows[i].status != Status::converged && rows[i].status != Status::partial)
+            continue;
+          json s;
+          try
+            {
+              s = read_json(case_folder(folder, plan.cases[i].id) + "/summary.json");
+            }
+          catch (const InputError &)
+            {
+              continue;
+            }
+          if (!s.contains("fields") || !s["fields"].is_array())
+            continue;
+          for (const auto &f : s["fields"])
+            if (f.contains("bias_V") && f["bias_V"].is_number() && f.contains("file") && f["file"].is_string())
+              by_bias[format_fixed(f["bias_V"].get<double>(), 4)].emplace_back(
+                by_value ? *to_number(rows[i].values[0]) : double(i),
+                "cases/" + rows[i].id + "/" + f["file"].get<std::string>());
+        }
+      std::vector<std::string> written;
+      for (auto &[bias, sets] : by_bias)
+        {
+          std::stable_sort(sets.begin(), sets.end());
+          std::vector<postprocess::PvdDataSet> data_sets;
+          for (const auto &[time, file] : sets)
+            data_sets.push_back({time, file});
+          const std::string name = "sweep-fields_V" + bias + ".pvd";
+          postprocess::write_pvd(folder + "/" + name, data_sets);
+          written.push_back(name);
+        }
+      return written;
+    }
+
+    // The plot: the first entry along x, one line per combination of the
+    // others, the PCE that decided the recommendation on the upper panel.
+    std::vector<std::string>
+    write_plots(const std::string &folder, const StudyPlan &plan, const std::vector<StudyRow> &rows,
+                const Recommendation &rec, std::vector<std::string> &warnings)
+    {
+      postprocess::SweepPlotData data;
+      if (rec.criterion == Criterion::pce_of_comb_cell)
+        data.pce_label = "PCE of the comb cell (%)";
+      const std::string unit = plan.entries[0].unit == "um" ? "µm" : plan.entries[0].unit;
+      data.x_label           = plan.entries[0].path + (unit.empty() ? "" : " (" + unit + ")");
+      for (const auto &line : lines_of(plan, rows))
+        {
+          postprocess::PlotSeries s;
+          // Legend text: "Name = value unit" of the other entries.
+          for (std::size_t k = 1; k < plan.entries.size(); ++k)
+            s.label += (k > 1 ? ", " : "") + last_component(plan.entries[k].path) + " = " +
+                       with_unit(rows[line.front()].values[k], plan.entries[k].unit);
+          for (const auto i : line)
+            {
+              s.x.push_back(*to_number(rows[i].values[0]));
+              s.pce.push_back(deciding_pce(rec.criterion, rows[i]).value_or(nan));
+              s.eta.push_back(rows[i].collection_efficiency.value_or(nan));
+            }
+          data.series.push_back(std::move(s));
+        }
+      if (rec.valid)
+        {
+          data.best_x      = to_number(rows[rec.best].values[0]);
+          data.best_pce    = deciding_pce(rec.criterion, rows[rec.best]);
+          data.range_from  = to_number(rows[rec.near_best.front()].values[0]);
+          data.range_to    = to_number(rows[rec.near_best.back()].values[0]);
+          data.range_label = "within " + format_number(100 * near_best_tolerance, 3) + " % of the highest PCE";
+        }
+      return postprocess::write_sweep_plots(data, folder + "/sweep", warnings);
+    }
+
+    json
+    recommendation_json(const StudyPlan &plan, const std::vector<StudyRow> &rows, const Recommendation &rec)
+    {
+      if (!rec.valid)
+        return {{"text", rec.text}};
+      const StudyRow &best        = rows[rec.best];
+      json            best_values = json::object();
+      for (std::size_t k = 0; k < plan.entries.size(); ++k)
+        best_values[plan.entries[k].path] = best.values[k];
+      json near = json::array();
+      for (const auto i : rec.near_best)
+        near.push_back(rows[i].id);
+      return {{"text", rec.text},
+              {"best_case", best.id},
+              {"best_values", best_values},
+              {"PCE_percent", json_number(best.PCE)},
+              {"PCE_cell_percent", json_number(best.PCE_cell)},
+              {"collection_efficiency", json_number(best.collection_efficiency)},
+              {"criterion", criterion_text(rec.criterion)},
+              {"tolerance_relative", near_best_tolerance},
+              {"near_best_cases", near},
+              {"near_best_from", rows[rec.near_best.front()].values[0]},
+              {"near_best_to", rows[rec.near_best.back()].values[0]},
+              {"best_at_edge_of_range", rec.at_edge}};
+    }
+
+    std::map<std::string, std::size_t>
+    status_counts(const std::vector<StudyRow> &rows)
+    {
+      std::map<std::string, std::size_t> counts;
+      for (const Status s : {Status::converged, Status::partial, Status::failed, Status::missing})
+        counts[to_string(s)] = 0;
+      for (const auto &r : rows)
+        ++counts[to_string(r.status)];
+      return counts;
+    }
+
+    void
+    print_files(const std::string &folder, const StudyPlan &plan, const std::vector<std::string> &plots,
+                const std::vector<std::string> &collections)
+    {
+      std::printf("\nFiles in %s:\n  sweep.csv, sweep.json: the table above (sweep.json with the "
+                  "recommendation)\n",
+                  folder.c_str());
+      for (const auto &p : plots)
+        std::printf("  %s: PCE and collection efficiency vs. %s\n", fs::path(p).filename().c_str(),
+                    plan.entries[0].path.c_str());
+      for (const auto &c : collections)
+        std::printf("  %s: ParaView collection of every case's fields at that bias\n", c.c_str());
+      std::printf("  cases/<case>/: each case's own results (jv.csv, summary.json, fields) and solve.log\n");
+    }
+  } // namespace
+
+  std::string
+  csv_text(const StudyPlan &plan, const std::vector<StudyRow> &rows)
+  {
+    std::ostringstream csv;
+    csv << "# backcomb sweep of " << plan.case_file << "; one row per case, in the order of sweep-plan.json\n"
+        << csv_preamble;
+    csv << "case";
+    for (const auto &e : plan.entries)
+      csv << ',' << csv_field(entry_csv_header(e));
+    for (const auto &c : columns())
+      if (!c.csv_header.empty())
+        csv << ',' << c.csv_header;
+    csv << ",status,reason\n";
+    for (const auto &r : rows)
+      {
+        csv << csv_field(r.id);
+        for (const auto &v : r.values)
+          csv << ',' << csv_field(v);
+        for (const auto &c : columns())
+          if (!c.csv_header.empty())
+            csv << ',' << c.csv_text(r);
+        csv << ',' << to_string(r.status) << ',' << csv_field(r.reason) << '\n';
+      }
+    return csv.str();
+  }
+
+  json
+  row_json(const StudyPlan &plan, const StudyRow &r)
+  {
+    json values = json::object();
+    for (std::size_t k = 0; k < plan.entries.size(); ++k)
+      values[plan.entries[k].path] = r.values[k];
+    json j      = {{"id", r.id}, {"folder", "cases/" + r.id}, {"values", values}};
+    for (const auto &c : columns())
+      set_at(j, c.json_path, c.json_value(r));
+    j["status"] = to_string(r.status);
+    j["reason"] = r.reason.empty() ? json(nullptr) : json(r.reason);
+    return j;
+  }
+
+  json
+  study_json(const StudyPlan &plan, const std::vector<StudyRow> &rows, const Recommendation &rec)
+  {
+    json j;
+    j["case_file"] = plan.case_file;
+    j["sets"]      = plan.sets;
+    j["entries"]   = json::array();
+    for (const auto &e : plan.entries)
+      j["entries"].push_back({{"path", e.path}, {"unit", e.unit}, {"values", e.values}});
+    j["pitch_definition"] = "w_e + w_h + 2 gap: centre to centre of neighbouring fingers of the same polarity";
+    j["counts"]           = status_counts(rows);
+    j["cases"]            = json::array();
+    for (const auto &r : rows)
+      j["cases"].push_back(row_json(plan, r));
+    j["recommendation"] = recommendation_json(plan, rows, rec);
+    return j;
+  }
+
+  std::string
+  screen_table(const StudyPlan &plan, const std::vector<StudyRow> &rows)
+  {
+    const std::vector<const Column *> shown = screen_columns();
+    std::vector<std::vector<std::string>> table(1);
+    for (const auto &e : plan.entries)
+      table[0].push_back(entry_screen_header(e));
+    for (const Column *c : shown)
+      table[0].push_back(c->screen_header);
+    table[0].push_back("status");
+    for (const auto &r : rows)
+      {
+        std::vector<std::string> line = r.values;
+        for (const Column *c : shown)
+          line.push_back(c->screen_text(r));
+        line.push_back(to_string(r.status));
+        table.push_back(line);
+      }
+    std::vector<std::size_t> width(table[0].size(), 0);
+    for (const auto &line : table)
+      for (std::size_t k = 0; k < line.size(); ++k)
+        width[k] = std::max(width[k], line[k].size());
+    std::string text;
+    auto        add_line = [&](const std::vector<std::string> &line) {
+      for (std::size_t k = 0; k < line.size(); ++k)
+        {
+          const std::string pad(width[k] - line[k].size(), ' ');
+          // Text left-aligned in the last column, numbers right-aligned.
+          text += (k ? " | " : "") + (k + 1 == line.size() ? line[k] + pad : pad + line[k]);
+        }
+      text += '\n';
+    };
+    add_line(table[0]);
+    std::size_t total = 0;
+    for (const auto w : width)
+      total += w + 3;
+    text += std::string(total - 3, '-') + '\n';
+    for (std::size_t i = 1; i < table.size(); ++i)
+      add_line(table[i]);
+    for (const auto &r : rows)
+      if (r.status == Status::failed)
+        text += "  " + r.id + " failed: " + r.reason + '\n';
+    return text;
+  }
+
+  int
+  merge_study(const std::string &folder, const bool quiet)
+  {
+    if (!fs::exists(plan_file(folder)))
+      throw InputError(folder + ": no sweep-plan.json here (is this the --out folder of a sweep?)");
+    StudyPlan                   plan;
+    const std::vector<StudyRow> rows = collect_rows(folder, plan);
+    const Recommendation        rec  = recommend(plan, rows);
+
+    write_file_atomically(folder + "/sweep.csv", csv_text(plan, rows));
+    std::vector<std::string> warnings, plots;
+    if (all_numeric(plan.entries[0].values))
+      plots = write_plots(folder, plan, rows, rec, warnings);
+    else
+      warnings.push_back("no plot: the values of " + plan.entries[0].path + " are not all numbers");
+    const std::vector<std::string> collections = write_field_collections(folder, plan, rows);
+
+    json j     = study_json(plan, rows, rec);
+    j["files"] = {{"table", "sweep.csv"}, {"plots", json::array()}, {"field_collections", collections}};
+    for (const auto &p : plots)
+      j["files"]["plots"].push_back(fs::path(p).filename().string());
+    j["warnings"] = warnings;
+    write_file_atomically(folder + "/sweep.json", j.dump(2) + "\n");
+
+    std::printf("\n%s", screen_table(plan, rows).c_str());
+    std::printf("\n%s\n", rec.text.c_str());
+    if (!quiet)
+      {
+        std::printf("%s", screen_notes);
+        print_files(folder, plan, plots, collections);
+      }
+    for (const auto &w : warnings)
+      std::fprintf(stderr, "backcomb: %s\n", w.c_str());
+    const auto counts = status_counts(rows);
+    const bool unfinished = counts.at(to_string(Status::failed)) + counts.at(to_string(Status::missing)) > 0;
+    return unfinished ? exit_no_convergence : exit_ok;
+  }
+} // namespace backcomb::study

@@ -1,0 +1,101 @@
+#include "study/rows.h"
+
+#include "base/errors.h"
+#include "study/layout.h"
+
+#include <algorithm>
+#include <cmath>
+#include <filesystem>
+#include <map>
+
+namespace backcomb::study
+{
+  namespace fs = std::filesystem;
+
+  namespace
+  {
+    // A case that stopped before it had a summary: failed.json holds why.
+    void
+    read_failed(const std::string &file, StudyRow &r)
+    {
+      r.status = Status::failed;
+      try
+        {
+          const nlohmann::json f = read_json(file);
+          r.reason               = f.value("reason", std::string("unknown"));
+          r.seconds              = number_at(f, {"seconds"});
+        }
+      catch (const InputError &e)
+        {
+          r.reason = e.what();
+        }
+    }
+  } // namespace
+
+  StudyRow
+  read_row(const std::string &folder, const StudyCase &c)
+  {
+    StudyRow r;
+    r.id     = c.id;
+    r.values = c.values;
+    if (std::isfinite(c.pitch_um))
+      r.pitch_um = c.pitch_um;
+    const std::string dir = case_folder(folder, c.id);
+    if (fs::exists(dir + "/summary.json"))
+      {
+        nlohmann::json s;
+        try
+          {
+            s = read_json(dir + "/summary.json");
+          }
+        catch (const InputError &e)
+          {
+            r.status = Status::failed;
+            r.reason = e.what();
+            return r;
+          }
+        read_summary(s, r);
+        if (r.status == Status::failed && r.reason.empty())
+          r.reason = "failed without a diagnostic (see " + dir + "/solve.log)";
+      }
+    else if (fs::exists(dir + "/failed.json"))
+      read_failed(dir + "/failed.json", r);
+    else
+      {
+        r.status = Status::missing;
+        r.reason = "not computed yet";
+      }
+    return r;
+  }
+
+  std::vector<StudyRow>
+  collect_rows(const std::string &folder, StudyPlan &plan)
+  {
+    plan = read_plan(folder);
+    std::vector<StudyRow> rows;
+    for (const auto &c : plan.cases)
+      rows.push_back(read_row(folder, c));
+    return rows;
+  }
+
+  std::vector<std::vector<std::size_t>>
+  lines_of(const StudyPlan &plan, const std::vector<StudyRow> &rows)
+  {
+    std::map<std::vector<std::string>, std::size_t> index;
+    std::vector<std::vector<std::size_t>>           lines;
+    for (std::size_t i = 0; i < rows.size(); ++i)
+      {
+        const std::vector<std::string> rest(rows[i].values.begin() + 1, rows[i].values.end());
+        const auto [it, fresh] = index.emplace(rest, lines.size());
+        if (fresh)
+          lines.emplace_back();
+        lines[it->second].push_back(i);
+      }
+    if (all_numeric(plan.entries[0].values))
+      for (auto &line : lines)
+        std::stable_sort(line.begin(), line.end(), [&](std::size_t a, std::size_t b) {
+          return *to_number(rows[a].values[0]) < *to_number(rows[b].values[0]);
+        });
+    return lines;
+  }
+} // namespace backcomb::study
