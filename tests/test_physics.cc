@@ -9,6 +9,8 @@
 #include "base/errors.h"
 #include "fem/constants.h"
 #include "fem/device.h"
+#include "fem/drift_diffusion.h"
+#include "fem/operating_points.h"
 #include "fem/physics/auger.h"
 #include "fem/physics/band_tail.h"
 #include "fem/physics/contact_model.h"
@@ -19,12 +21,15 @@
 #include "fem/physics/srh.h"
 #include "fem/physics/surface_srh.h"
 #include "simulator/guard_rails.h"
+#include "tests/strip_mesh.h"
 
 #include <gtest/gtest.h>
 
 #include <array>
 #include <cmath>
 #include <cstdio>
+#include <fstream>
+#include <iterator>
 #include <functional>
 #include <set>
 #include <string>
@@ -458,4 +463,96 @@ TEST(PhysicsContacts, SelectiveFluxAndOhmicPinning)
   EXPECT_EQ(f.d_electrons_dp, 0);
   EXPECT_EQ(f.d_holes_dn, 0);
   EXPECT_TRUE(contact_models().create("ohmic")->pins_quasi_fermi_levels());
+}
+
+// ------------------------------------------------------------ in the device
+
+// The band-tail channel in the solver: a long intrinsic strip with ohmic
+// contacts at midgap, lit uniformly, with SRH switched off in effect (1 s
+// lifetimes) and the band tails on. Far from the contacts (more than ten
+// ambipolar diffusion lengths, here about 1.6 um) nothing flows, so the
+// tails must recombine every generated pair at the uniform density n = p
+// that solves R(n, n) = G, found here by bisection on the Simpson integral
+// (analytic: uniform steady state of the continuity equations). The power
+// balance carries the channel under its name and closes, and the VTK file
+// has its field.
+TEST(PhysicsDevice, BandTailBalancesGenerationInLongStrip)
+{
+  const double C_n = 1e-8, C_p = 1e-8, G = 1e21;
+  Material     m = with_tails(Material(), 1e17, 0.03, 1e17, 0.04, C_n, C_p);
+  m.mu_n = m.mu_p = 1.0;
+  m.tau_n = m.tau_p = 1.0;
+  // The total rate at n = p: the tails plus SRH with 1 s lifetimes through
+  // a midgap level (n1 = p1 = n_i), which adds about n / (2 s).
+  const double ni2   = ni2_of(m);
+  const auto   R_all = [&](const double n) {
+    return simpson_tail(m, 1e17, 0.03, true, C_n, C_p, n, n, 20000) +
+           simpson_tail(m, 1e17, 0.04, false, C_n, C_p, n, n, 20000) +
+           (n * n - ni2) / (m.tau_p * (n + std::sqrt(ni2)) + m.tau_n * (n + std::sqrt(ni2)));
+  };
+  // R(n, n) increases with n: bisection in ln n.
+  double lo = 1e6, hi = 1e18;
+  for (unsigned k = 0; k < 200; ++k)
+    {
+      const double mid = std::sqrt(lo * hi);
+      (R_all(mid) < G ? lo : hi) = mid;
+    }
+  const double n_expected = std::sqrt(lo * hi);
+
+  dealii::Triangulation<2> tria;
+  const double             length = 40.0; // um
+  test_support::make_strip(tria, length, 0.4, 0.0, 0.01, 1.3, 1.0);
+  ContactParameters c;
+  c.model         = "ohmic";
+  c.work_function = m.electron_affinity + 0.5 * m.band_gap; // midgap, Nc = Nv
+  DeviceModel dev(T, {{geometry::ids::absorber, m}}, {geometry::ids::absorber}, c, c, SurfaceParameters(),
+                  SurfaceParameters(), [G](double, double) { return G; });
+  ASSERT_EQ(dev.region(geometry::ids::absorber).channels.size(), 2u); // srh and band_tail
+  NumericsParameters numerics;
+  numerics.tolerance      = 1e-10;
+  numerics.max_iterations = 200;
+  DriftDiffusionSolver solver(tria, dev, numerics);
+  ASSERT_TRUE(solver.solve_equilibrium().converged);
+  ASSERT_TRUE(illuminate(solver, 1.0, 12).converged);
+
+  // Densities at the nodes, from the state (psi, phi_n, phi_p).
+  const ScaledRegion &r  = dev.region(geometry::ids::absorber);
+  const auto         &u  = solver.state();
+  const auto         &fe = solver.dof_handler().get_fe();
+  std::vector<dealii::types::global_dof_index> idx(fe.n_dofs_per_cell());
+  double worst = 0;
+  for (const auto &cell : solver.dof_handler().active_cell_iterators())
+    {
+      cell->get_dof_indices(idx);
+      for (unsigned v = 0; v < 4; ++v)
+        {
+          if (std::abs(cell->vertex(v)[0] - 0.5 * length) > 2.0)
+            continue;
+          const double psi = u[idx[fe.component_to_system_index(0, v)]];
+          const double phn = u[idx[fe.component_to_system_index(1, v)]];
+          const double php = u[idx[fe.component_to_system_index(2, v)]];
+          const double n   = std::exp(psi - phn + r.a_n) * dev.scaling.N0;
+          const double p   = std::exp(php - psi + r.a_p) * dev.scaling.N0;
+          worst = std::max({worst, std::abs(n / n_expected - 1), std::abs(p / n_expected - 1)});
+        }
+    }
+  std::printf("strip centre with band tails: n = p expected %.6e cm^-3, largest relative deviation %.2e\n",
+              n_expected, worst);
+  EXPECT_LT(worst, 1e-5);
+
+  const PowerBalance b = solver.power_balance();
+  ASSERT_EQ(b.bulk_recombination.count("band_tail"), 1u);
+  // The tails take most of the free energy (the rest is lost next to the
+  // contacts).
+  EXPECT_GT(b.bulk_recombination.at("band_tail"), 0.5 * b.input);
+  EXPECT_LT(b.bulk_recombination.at("srh"), 1e-3 * b.bulk_recombination.at("band_tail"));
+  EXPECT_NEAR(b.residual(), 0, 1e-6 * b.input);
+
+  const std::string vtu = "band_tail_fields.vtu";
+  solver.write_fields(vtu);
+  std::ifstream     in(vtu);
+  const std::string text((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+  EXPECT_NE(text.find("Name=\"R_band_tail_per_cm3_s\""), std::string::npos);
+  EXPECT_NE(text.find("Name=\"R_auger_per_cm3_s\""), std::string::npos);
+  std::remove(vtu.c_str());
 }

@@ -7,9 +7,9 @@ namespace backcomb::fem
   namespace
   {
     const NumberEntry electron_coefficient{"Auger electron coefficient", 0.0, "cm^6/s",
-                                           Range::closed(0.0, 1e-20), "Auger coefficient C_n (n n p process)"};
+                                           Range::closed(0.0, 1e-20), "Auger coefficient C_n (n n p process) in cm^6/s"};
     const NumberEntry hole_coefficient{"Auger hole coefficient", 0.0, "cm^6/s", Range::closed(0.0, 1e-20),
-                                       "Auger coefficient C_p (n p p process)"};
+                                       "Auger coefficient C_p (n p p process) in cm^6/s"};
   } // namespace
 
   AugerChannel::AugerChannel(double C_n_, double C_p_, double ni2_)

@@ -15,21 +15,21 @@ namespace backcomb::fem
     // 0.5 eV; capture coefficients up to 1e-3 cm^3/s (far above any
     // reported value, so it only rejects unit mistakes).
     const NumberEntry conduction_density{"Conduction tail density", 0.0, "cm^-3", Range::closed(0.0, 1e22),
-                                         "Total density N_tc of the exponential tail states below the "
+                                         "Total density N_tc in cm^-3 of the exponential tail states below the "
                                          "conduction band edge, g(E) = N_tc/E_Uc exp(-(E_c - E)/E_Uc); "
                                          "0 switches this tail off"};
     const NumberEntry conduction_energy{"Conduction tail energy", 0.03, "eV", Range::closed(1e-3, 0.5),
-                                        "Characteristic energy E_Uc of the conduction band tail"};
+                                        "Characteristic energy E_Uc in eV of the conduction band tail"};
     const NumberEntry valence_density{"Valence tail density", 0.0, "cm^-3", Range::closed(0.0, 1e22),
-                                      "Total density N_tv of the exponential tail states above the valence "
+                                      "Total density N_tv in cm^-3 of the exponential tail states above the valence "
                                       "band edge, g(E) = N_tv/E_Uv exp(-(E - E_v)/E_Uv); 0 switches this "
                                       "tail off"};
     const NumberEntry valence_energy{"Valence tail energy", 0.03, "eV", Range::closed(1e-3, 0.5),
-                                     "Characteristic energy E_Uv of the valence band tail"};
+                                     "Characteristic energy E_Uv in eV of the valence band tail"};
     const NumberEntry electron_capture{"Electron capture coefficient", 1e-9, "cm^3/s", Range::closed(0.0, 1e-3),
-                                       "Electron capture coefficient C_n of every tail state"};
+                                       "Electron capture coefficient C_n in cm^3/s of every tail state"};
     const NumberEntry hole_capture{"Hole capture coefficient", 1e-9, "cm^3/s", Range::closed(0.0, 1e-3),
-                                   "Hole capture coefficient C_p of every tail state"};
+                                   "Hole capture coefficient C_p in cm^3/s of every tail state"};
 
     const NumberEntry *const all_entries[] = {&conduction_density, &conduction_energy, &valence_density,
                                               &valence_energy,     &electron_capture,  &hole_capture};

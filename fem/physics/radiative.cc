@@ -7,7 +7,7 @@ namespace backcomb::fem
   namespace
   {
     const NumberEntry coefficient{"Radiative coefficient", 0.0, "cm^3/s", Range::closed(0.0, 1e-5),
-                                  "Band-to-band radiative coefficient B"};
+                                  "Band-to-band radiative coefficient B in cm^3/s"};
     const NumberEntry recycling{"Photon recycling probability", 0.0, "", Range::closed(0.0, 1.0),
                                 "Fraction of radiative events re-absorbed in the film (the net radiative "
                                 "rate is (1 - P_r) B (np - n_i^2))"};

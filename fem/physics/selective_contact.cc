@@ -8,10 +8,10 @@ namespace backcomb::fem
   namespace
   {
     const NumberEntry electron_velocity{"Electron recombination velocity", 1e7, "cm/s", Range::closed(0.0, 1e12),
-                                        "Electron surface velocity S_n at the contact (0 = blocks electrons). "
+                                        "Electron surface velocity S_n at the contact in cm/s (0 = blocks electrons). "
                                         "Ignored when Model = ohmic"};
     const NumberEntry hole_velocity{"Hole recombination velocity", 1e7, "cm/s", Range::closed(0.0, 1e12),
-                                    "Hole surface velocity S_p at the contact (0 = blocks holes). Ignored "
+                                    "Hole surface velocity S_p at the contact in cm/s (0 = blocks holes). Ignored "
                                     "when Model = ohmic"};
   } // namespace
 

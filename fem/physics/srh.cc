@@ -7,11 +7,11 @@ namespace backcomb::fem
   namespace
   {
     const NumberEntry electron_lifetime{"Electron lifetime", 1e-6, "s", Range::closed(1e-15, 1.0),
-                                        "SRH electron lifetime tau_n"};
+                                        "SRH electron lifetime tau_n in s"};
     const NumberEntry hole_lifetime{"Hole lifetime", 1e-6, "s", Range::closed(1e-15, 1.0),
-                                    "SRH hole lifetime tau_p"};
+                                    "SRH hole lifetime tau_p in s"};
     const NumberEntry trap_level{"Trap level", 0.0, "eV", Range::closed(-5.0, 5.0),
-                                 "SRH trap energy measured from midgap (positive towards the conduction "
+                                 "SRH trap energy in eV measured from midgap (positive towards the conduction "
                                  "band); it must also lie inside the gap, |value| < E_g/2"};
   } // namespace
 

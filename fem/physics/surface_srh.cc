@@ -8,13 +8,13 @@ namespace backcomb::fem
   namespace
   {
     const NumberEntry electron_velocity{"Electron recombination velocity", 0.0, "cm/s", Range::closed(0.0, 1e12),
-                                        "SRH surface recombination velocity S_n"};
+                                        "SRH surface recombination velocity S_n in cm/s"};
     const NumberEntry hole_velocity{"Hole recombination velocity", 0.0, "cm/s", Range::closed(0.0, 1e12),
-                                    "SRH surface recombination velocity S_p"};
+                                    "SRH surface recombination velocity S_p in cm/s"};
     // Whether the level lies inside the absorber's gap is checked with the
     // whole case (simulator/case_file.cc), where the absorber is known.
     const NumberEntry trap_level{"Trap level", 0.0, "eV", Range::closed(-5.0, 5.0),
-                                 "Surface trap energy from midgap of the adjacent material; it must also "
+                                 "Surface trap energy in eV from midgap of the adjacent material; it must also "
                                  "lie inside the gap, |value| < E_g/2"};
   } // namespace
 
