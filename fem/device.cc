@@ -1,6 +1,8 @@
 #include "fem/device.h"
 
 #include "fem/constants.h"
+#include "fem/physics/registry.h"
+#include "geometry/ids.h"
 #include "base/entries.h"
 
 #include <cmath>
@@ -13,32 +15,33 @@ namespace backcomb::fem
                                         const std::string &section,
                                         const ContactParameters &d)
   {
+    const auto &models = contact_models();
+    // The selection lists the registered models; its documentation joins
+    // their descriptions.
+    std::string doc;
+    for (const std::string &name : models.names())
+      doc += (doc.empty() ? "" : " ") + models.create(name)->description();
     prm.enter_subsection(section);
-    prm.declare_entry("Model", d.ohmic ? "ohmic" : "selective",
-                      dealii::Patterns::Selection("selective|ohmic"),
-                      "selective: the potential is set by the work function and each "
-                      "carrier leaves with flux S (c - c0) at its own velocity; ohmic: "
-                      "both quasi-Fermi levels are pinned to the contact (infinite velocities).");
+    prm.declare_entry("Model", d.model, dealii::Patterns::Selection(models.selection()), doc);
     declare_number(prm, "Work function", default_text(d.work_function),
                    "Contact work function in eV, 0..10; sets the equilibrium potential "
                    "(Schottky-Mott, no pinning) and the equilibrium densities at the contact.");
-    declare_number(prm, "Electron recombination velocity", default_text(d.S_n),
-                   "Electron surface velocity S_n at the contact in cm/s, >= 0 "
-                   "(0 = blocks electrons). Ignored when Model = ohmic.");
-    declare_number(prm, "Hole recombination velocity", default_text(d.S_p),
-                   "Hole surface velocity S_p at the contact in cm/s, >= 0 "
-                   "(0 = blocks holes). Ignored when Model = ohmic.");
+    for (const std::string &name : models.names())
+      models.create(name)->declare_parameters(prm, section, d);
     prm.leave_subsection();
   }
 
   void
   ContactParameters::parse_parameters(dealii::ParameterHandler &prm, const std::string &section)
   {
+    const auto &models = contact_models();
     prm.enter_subsection(section);
-    ohmic         = prm.get("Model") == "ohmic";
+    model         = prm.get("Model");
     work_function = get_in_range(prm, section, "Work function", 0.0, 10.0);
-    S_n           = get_in_range(prm, section, "Electron recombination velocity", 0.0, 1e12);
-    S_p           = get_in_range(prm, section, "Hole recombination velocity", 0.0, 1e12);
+    // Every model's entries are read and checked, also those of the models
+    // not chosen, as they were declared.
+    for (const std::string &name : models.names())
+      models.create(name)->parse_parameters(prm, section, *this);
     prm.leave_subsection();
   }
 
@@ -47,24 +50,20 @@ namespace backcomb::fem
                                         const std::string &section,
                                         const SurfaceParameters &d)
   {
+    const auto &channels = surface_recombination_channels();
     prm.enter_subsection(section);
-    declare_number(prm, "Electron recombination velocity", default_text(d.S_n),
-                   "SRH surface recombination velocity S_n in cm/s, >= 0.");
-    declare_number(prm, "Hole recombination velocity", default_text(d.S_p),
-                   "SRH surface recombination velocity S_p in cm/s, >= 0.");
-    declare_number(prm, "Trap level", default_text(d.trap_level),
-                   "Surface trap energy in eV from midgap of the adjacent material, "
-                   "|value| < E_g/2.");
+    for (const std::string &name : channels.names())
+      channels.create(name)->declare_parameters(prm, section, d);
     prm.leave_subsection();
   }
 
   void
   SurfaceParameters::parse_parameters(dealii::ParameterHandler &prm, const std::string &section)
   {
+    const auto &channels = surface_recombination_channels();
     prm.enter_subsection(section);
-    S_n        = get_in_range(prm, section, "Electron recombination velocity", 0.0, 1e12);
-    S_p        = get_in_range(prm, section, "Hole recombination velocity", 0.0, 1e12);
-    trap_level = get_in_range(prm, section, "Trap level", -5.0, 5.0);
+    for (const std::string &name : channels.names())
+      channels.create(name)->parse_parameters(prm, section, *this);
     prm.leave_subsection();
   }
 
@@ -130,41 +129,98 @@ namespace backcomb::fem
     const double   kT = s.Vt; // eV per kT
     for (const auto &[id, m] : materials)
       {
-        ScaledRegion r;
+        const ChannelUnits u = ChannelUnits::scaled(m, kT, s.N0, s.t0);
+        ScaledRegion       r;
         r.absorber = false;
         for (const unsigned a : absorber_ids)
           r.absorber |= (a == id);
         r.eps      = s.lambda2 * m.permittivity;
         r.mu_n     = m.mu_n / s.mu0;
         r.mu_p     = m.mu_p / s.mu0;
-        r.ln_nc    = std::log(m.Nc / s.N0);
-        r.ln_nv    = std::log(m.Nv / s.N0);
+        r.ln_nc    = u.ln_nc;
+        r.ln_nv    = u.ln_nv;
         // E_c = -q psi - chi, E_v = E_c - E_g; E_Fn = -q phi_n (see DESIGN.md).
         r.a_n      = r.ln_nc + m.electron_affinity / kT;
         r.a_p      = r.ln_nv - (m.electron_affinity + m.band_gap) / kT;
         r.doping   = (m.donors - m.acceptors) / s.N0;
-        r.ni2      = std::exp(r.a_n + r.a_p);
-        r.half_gap = 0.5 * m.band_gap / kT;
-        // n1 = Nc exp(-(E_c - E_t)/kT), E_t = midgap + trap level.
-        r.n1 = std::exp(r.ln_nc - r.half_gap + m.trap_level / kT);
-        r.p1 = std::exp(r.ln_nv - r.half_gap - m.trap_level / kT);
-        r.channels.push_back(std::make_shared<SrhRecombination>(
-          m.tau_n / s.t0, m.tau_p / s.t0, r.n1, r.p1, r.ni2));
-        if (m.B_rad > 0)
-          r.channels.push_back(std::make_shared<RadiativeRecombination>(
-            (1 - m.photon_recycling) * m.B_rad * s.N0 * s.t0, r.ni2));
-        if (m.C_n > 0 || m.C_p > 0)
-          r.channels.push_back(std::make_shared<AugerRecombination>(
-            m.C_n * s.N0 * s.N0 * s.t0, m.C_p * s.N0 * s.N0 * s.t0, r.ni2));
+        r.ni2      = u.ni2;
+        r.half_gap = u.half_gap;
+        // Every registered bulk channel that the material switches on, set
+        // up in scaled units, in registry order.
+        for (const std::string &name : bulk_recombination_channels().names())
+          {
+            std::shared_ptr<RecombinationChannel> channel = bulk_recombination_channels().create(name);
+            if (!channel->active(m))
+              continue;
+            channel->setup(m, u);
+            r.channels.push_back(channel);
+          }
         regions[id] = r;
       }
-    auto contact = [&](const ContactParameters &c) {
-      return ScaledContact{c.ohmic, -c.work_function / kT, c.S_n / s.S0, c.S_p / s.S0};
+    auto contact = [&](const ContactParameters &c, const std::string &section) {
+      std::shared_ptr<ContactModel> model = contact_models().create(c.model, section + "/Model");
+      model->setup(c, s.S0);
+      return ScaledContact{model, -c.work_function / kT};
     };
-    electron_contact = contact(ec);
-    hole_contact     = contact(hc);
-    top_surface      = {top.S_n / s.S0, top.S_p / s.S0, top.trap_level / kT};
-    gap_interface    = {gap.S_n / s.S0, gap.S_p / s.S0, gap.trap_level / kT};
+    electron_contact = contact(ec, "Electron contact");
+    hole_contact     = contact(hc, "Hole contact");
+    auto surface = [&](const SurfaceParameters &sp) {
+      ScaledSurface out;
+      for (const std::string &name : surface_recombination_channels().names())
+        for (const auto &[id, m] : materials)
+          {
+            std::shared_ptr<SurfaceChannel> channel = surface_recombination_channels().create(name);
+            if (!channel->active(sp))
+              continue;
+            channel->setup(sp, ChannelUnits::scaled(m, kT, s.N0, s.t0), s.S0);
+            out.channels[id].push_back(channel);
+          }
+      return out;
+    };
+    top_surface   = surface(top);
+    gap_interface = surface(gap);
+  }
+
+  const std::vector<std::shared_ptr<const SurfaceChannel>> &
+  ScaledSurface::next_to(const unsigned material_id) const
+  {
+    static const std::vector<std::shared_ptr<const SurfaceChannel>> none;
+    const auto it = channels.find(material_id);
+    return it == channels.end() ? none : it->second;
+  }
+
+  Rate
+  surface_rate(const std::vector<std::shared_ptr<const SurfaceChannel>> &channels, const double n, const double p)
+  {
+    Rate sum;
+    for (const auto &ch : channels)
+      {
+        const Rate k = ch->rate(n, p);
+        sum.R += k.R;
+        sum.dR_dn += k.dR_dn;
+        sum.dR_dp += k.dR_dp;
+      }
+    return sum;
+  }
+
+  const ScaledContact *
+  DeviceModel::contact_at(const unsigned boundary_id) const
+  {
+    if (boundary_id == geometry::ids::electron_contact)
+      return &electron_contact;
+    if (boundary_id == geometry::ids::hole_contact)
+      return &hole_contact;
+    return nullptr;
+  }
+
+  const ScaledSurface *
+  DeviceModel::surface_at(const unsigned boundary_id) const
+  {
+    if (boundary_id == geometry::ids::top_surface)
+      return &top_surface;
+    if (boundary_id == geometry::ids::gap_interface)
+      return &gap_interface;
+    return nullptr;
   }
 
   const ScaledRegion &

@@ -4,7 +4,8 @@
 #pragma once
 
 #include "fem/material.h"
-#include "fem/recombination.h"
+#include "fem/physics/contact_model.h"
+#include "fem/physics/recombination_channel.h"
 
 #include <deal.II/base/parameter_handler.h>
 #include <deal.II/base/point.h>
@@ -18,15 +19,19 @@
 namespace backcomb::fem
 {
   // A comb contact: the work function sets the equilibrium potential and the
-  // equilibrium densities n0, p0 at the contact; each carrier leaves through
-  // it with flux S (c - c0) (selective model) or the quasi-Fermi levels are
-  // pinned to the contact's Fermi level (ohmic: both velocities infinite).
+  // equilibrium densities n0, p0 at the contact; how the carriers cross it
+  // is decided by the contact model named `model` (fem/physics/: "selective"
+  // and "ohmic"), which also declares and reads its own entries. The
+  // velocities belong to the selective model; they stay named members
+  // because tests and callers set them directly. A model added later keeps
+  // its numbers in `model_numbers`, keyed by entry name.
   struct ContactParameters
   {
-    bool   ohmic         = false;
-    double work_function = 4.0;  // eV
-    double S_n           = 1e7;  // cm/s
-    double S_p           = 1e7;  // cm/s
+    std::string model         = "selective";
+    double      work_function = 4.0;  // eV
+    double      S_n           = 1e7;  // cm/s
+    double      S_p           = 1e7;  // cm/s
+    std::map<std::string, double> model_numbers;
 
     static void declare_parameters(dealii::ParameterHandler &prm,
                                    const std::string &section,
@@ -34,12 +39,15 @@ namespace backcomb::fem
     void parse_parameters(dealii::ParameterHandler &prm, const std::string &section);
   };
 
-  // SRH recombination at a surface or interface (top surface, gap interface).
+  // Recombination at a surface or interface (top surface, gap interface):
+  // the entries of every registered surface channel (fem/physics/; today
+  // surface SRH, whose numbers are the named members below).
   struct SurfaceParameters
   {
     double S_n        = 0;   // cm/s
     double S_p        = 0;   // cm/s
     double trap_level = 0;   // eV above midgap of the adjacent material
+    std::map<std::string, double> model_numbers;
 
     static void declare_parameters(dealii::ParameterHandler &prm,
                                    const std::string &section,
@@ -91,23 +99,30 @@ namespace backcomb::fem
     double a_n, a_p;          // n = exp(psi - phi_n + a_n), p = exp(phi_p - psi + a_p)
     double doping;            // (N_D - N_A)/N0
     double ni2;
-    double n1, p1;            // SRH trap occupancy densities, bulk
     double half_gap;          // Eg/2 in kT
     double ln_nc, ln_nv;      // ln(Nc/N0), ln(Nv/N0)
+    // The bulk channels switched on in this region, in registry order.
     std::vector<std::shared_ptr<const RecombinationChannel>> channels;
   };
 
   struct ScaledContact
   {
-    bool   ohmic;
+    std::shared_ptr<const ContactModel> model; // set up in scaled units
     double psi_offset;  // psi = V_contact - W, in kT/q
-    double S_n, S_p;
   };
 
+  // The surface channels switched on at one surface, set up for each region
+  // that the surface may bound (n1, p1 and n_i are the adjacent material's).
   struct ScaledSurface
   {
-    double S_n, S_p, trap_level; // trap level in kT from midgap
+    std::map<unsigned, std::vector<std::shared_ptr<const SurfaceChannel>>> channels;
+
+    // The channels next to region `material_id`; empty if none.
+    const std::vector<std::shared_ptr<const SurfaceChannel>> &next_to(unsigned material_id) const;
   };
+
+  // The sum of the rates of `channels` (per unit area) and its derivatives.
+  Rate surface_rate(const std::vector<std::shared_ptr<const SurfaceChannel>> &channels, double n, double p);
 
   class DeviceModel
   {
@@ -134,5 +149,9 @@ namespace backcomb::fem
     std::map<unsigned, Material>       materials;      // physical units
 
     const ScaledRegion &region(unsigned material_id) const;
+    // The contact or recombining surface at boundary id `boundary_id`,
+    // nullptr for other boundaries (mirror sides).
+    const ScaledContact *contact_at(unsigned boundary_id) const;
+    const ScaledSurface *surface_at(unsigned boundary_id) const;
   };
 } // namespace backcomb::fem

@@ -54,6 +54,7 @@ namespace backcomb::fem
     }
   } // namespace
 
+
   DriftDiffusionSolver::DriftDiffusionSolver(const Triangulation<2> &tria_,
                                              const DeviceModel &device_,
                                              const NumericsParameters &numerics_)
@@ -165,14 +166,16 @@ namespace backcomb::fem
       }
 
     // The update vanishes where values are prescribed: psi at both contacts,
-    // the quasi-Fermi potentials only at ohmic contacts.
+    // the quasi-Fermi potentials where the contact model pins them.
     zero_constraints.clear();
+    const bool pinned[2] = {device.electron_contact.model->pins_quasi_fermi_levels(),
+                            device.hole_contact.model->pins_quasi_fermi_levels()};
     for (unsigned c = 0; c < 3; ++c)
       {
-        if (c == c_psi || device.electron_contact.ohmic)
+        if (c == c_psi || pinned[0])
           for (const auto i : electron_contact_dofs[c])
             zero_constraints.add_line(i);
-        if (c == c_psi || device.hole_contact.ohmic)
+        if (c == c_psi || pinned[1])
           for (const auto i : hole_contact_dofs[c])
             zero_constraints.add_line(i);
       }
@@ -237,7 +240,7 @@ namespace backcomb::fem
       {
         for (const auto i : list[k][c_psi])
           u[i] = V[k] + contact[k]->psi_offset;
-        if (contact[k]->ohmic)
+        if (contact[k]->model->pins_quasi_fermi_levels())
           for (const unsigned c : {c_phin, c_phip})
             for (const auto i : list[k][c])
               u[i] = V[k];
@@ -347,26 +350,21 @@ namespace backcomb::fem
           }
       }
 
-    // Boundary terms: contact fluxes (selective model) and surface
-    // recombination. On symmetry sides the normal flux is zero.
+    // Boundary terms: contact fluxes (contact models that do not pin the
+    // quasi-Fermi levels) and surface recombination. On symmetry sides the
+    // normal flux is zero.
     for (const unsigned f : cell->face_indices())
       {
         if (!cell->face(f)->at_boundary())
           continue;
         const auto           bid     = cell->face(f)->boundary_id();
-        const ScaledContact *contact = nullptr;
-        const ScaledSurface *surface = nullptr;
-        if (bid == ids::electron_contact)
-          contact = &device.electron_contact;
-        else if (bid == ids::hole_contact)
-          contact = &device.hole_contact;
-        else if (bid == ids::top_surface)
-          surface = &device.top_surface;
-        else if (bid == ids::gap_interface)
-          surface = &device.gap_interface;
-        if (contact && (contact->ohmic || !with_contacts))
+        const ScaledContact *contact = device.contact_at(bid);
+        const ScaledSurface *surface = device.surface_at(bid);
+        if (contact && (contact->model->pins_quasi_fermi_levels() || !with_contacts))
           continue;
-        if (surface && surface->S_n == 0 && surface->S_p == 0)
+        const std::vector<std::shared_ptr<const SurfaceChannel>> *surface_channels =
+          surface ? &surface->next_to(cell->material_id()) : nullptr;
+        if (surface && surface_channels->empty())
           continue;
         if (!contact && !surface)
           continue;
@@ -379,12 +377,6 @@ namespace backcomb::fem
             n0 = std::exp(contact->psi_offset + r.a_n);
             p0 = std::exp(-contact->psi_offset + r.a_p);
           }
-        const SurfaceRecombination srec =
-          surface ? SurfaceRecombination(surface->S_n, surface->S_p,
-                                         std::exp(r.ln_nc - r.half_gap + surface->trap_level),
-                                         std::exp(r.ln_nv - r.half_gap - surface->trap_level),
-                                         r.ni2)
-                  : SurfaceRecombination(0, 0, 0, 0, 0);
         for (unsigned q = 0; q < face_quad.size(); ++q)
           {
             double v[3] = {0, 0, 0};
@@ -394,18 +386,27 @@ namespace backcomb::fem
             const double p  = std::exp(v[c_phip] - v[c_psi] + r.a_p);
             const double ds = ffv.JxW(q);
             // Electron and hole particle fluxes out of the absorber and
-            // their derivatives with respect to (psi, phi_n, phi_p).
-            double fn, fp, dfn[3], dfp[3];
+            // their derivatives with respect to (psi, phi_n, phi_p), from
+            // those with respect to n and p (dn/dpsi = n, dn/dphi_n = -n,
+            // dp/dpsi = -p, dp/dphi_p = p).
+            double fn = 0, fp = 0, dfn[3] = {0, 0, 0}, dfp[3] = {0, 0, 0};
             if (contact)
               {
-                fn     = contact->S_n * (n - n0);
-                fp     = contact->S_p * (p - p0);
-                dfn[0] = contact->S_n * n, dfn[1] = -contact->S_n * n, dfn[2] = 0;
-                dfp[0] = -contact->S_p * p, dfp[1] = 0, dfp[2] = contact->S_p * p;
+                const ContactFlux k = contact->model->flux(n, p, n0, p0);
+                fn     = k.electrons;
+                fp     = k.holes;
+                dfn[0] = k.d_electrons_dn * n - k.d_electrons_dp * p;
+                dfn[1] = -k.d_electrons_dn * n;
+                dfn[2] = k.d_electrons_dp * p;
+                dfp[0] = k.d_holes_dn * n - k.d_holes_dp * p;
+                dfp[1] = -k.d_holes_dn * n;
+                dfp[2] = k.d_holes_dp * p;
               }
             else
               {
-                const Rate k = srec.rate(n, p);
+                // A surface channel takes one electron and one hole per
+                // event: both fluxes equal its rate.
+                const Rate k = surface_rate(*surface_channels, n, p);
                 fn = fp = k.R;
                 dfn[0] = dfp[0] = k.dR_dn * n - k.dR_dp * p;
                 dfn[1] = dfp[1] = -k.dR_dn * n;

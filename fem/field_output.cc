@@ -3,10 +3,13 @@
 // recombination, in interface units (names carry the unit).
 #include "fem/drift_diffusion.h"
 
+#include "fem/physics/registry.h"
+
 #include <deal.II/base/mpi.h>
 #include <deal.II/numerics/data_out.h>
 #include <deal.II/numerics/data_postprocessor.h>
 
+#include <algorithm>
 #include <cmath>
 #include <filesystem>
 #include <fstream>
@@ -23,25 +26,36 @@ namespace backcomb::fem
       DerivedFields(const DeviceModel &d, double light)
         : device(d)
         , light(light)
-      {}
+        , channel_names(bulk_recombination_channels().names())
+      {
+        // One field per registered bulk channel, named by the channel, in
+        // registry order (the same on every process, whatever regions it
+        // owns); a channel a region lacks reads 0 there.
+        for (const std::string &name : channel_names)
+          channel_fields.push_back(bulk_recombination_channels().create(name)->field_name());
+      }
 
       std::vector<std::string>
       get_names() const override
       {
-        return {"potential_V",    "quasi_fermi_n_eV", "quasi_fermi_p_eV", "n_per_cm3",
-                "p_per_cm3",      "J_n_mA_per_cm2",   "J_n_mA_per_cm2",   "J_p_mA_per_cm2",
-                "J_p_mA_per_cm2", "J_mA_per_cm2",     "J_mA_per_cm2",     "field_V_per_cm",
-                "G_per_cm3_s",    "R_per_cm3_s",      "R_srh_per_cm3_s",  "R_radiative_per_cm3_s",
-                "R_auger_per_cm3_s"};
+        std::vector<std::string> names = {"potential_V",    "quasi_fermi_n_eV", "quasi_fermi_p_eV",
+                                          "n_per_cm3",      "p_per_cm3",        "J_n_mA_per_cm2",
+                                          "J_n_mA_per_cm2", "J_p_mA_per_cm2",   "J_p_mA_per_cm2",
+                                          "J_mA_per_cm2",   "J_mA_per_cm2",     "field_V_per_cm",
+                                          "G_per_cm3_s",    "R_per_cm3_s"};
+        names.insert(names.end(), channel_fields.begin(), channel_fields.end());
+        return names;
       }
 
       std::vector<DataComponentInterpretation::DataComponentInterpretation>
       get_data_component_interpretation() const override
       {
         using I = DataComponentInterpretation::DataComponentInterpretation;
-        const I s = DataComponentInterpretation::component_is_scalar;
-        const I v = DataComponentInterpretation::component_is_part_of_vector;
-        return {s, s, s, s, s, v, v, v, v, v, v, s, s, s, s, s, s};
+        const I        s = DataComponentInterpretation::component_is_scalar;
+        const I        v = DataComponentInterpretation::component_is_part_of_vector;
+        std::vector<I> out = {s, s, s, s, s, v, v, v, v, v, v, s, s, s};
+        out.insert(out.end(), channel_fields.size(), s);
+        return out;
       }
 
       UpdateFlags
@@ -64,14 +78,14 @@ namespace backcomb::fem
             const double n = std::exp(u[0] - u[1] + r.a_n);
             const double p = std::exp(u[2] - u[0] + r.a_p);
             // Total and per channel (a channel a region lacks reads 0).
-            Rate   k;
-            double channel[3] = {0, 0, 0};
+            Rate                k;
+            std::vector<double> channel(channel_names.size(), 0.0);
             for (const auto &ch : r.channels)
               {
                 const double rate = ch->rate(n, p).R;
                 k.R += rate;
-                const std::string name = ch->name();
-                channel[name == "srh" ? 0 : name == "radiative" ? 1 : 2] += rate;
+                const auto at = std::find(channel_names.begin(), channel_names.end(), ch->name());
+                channel[at - channel_names.begin()] += rate;
               }
             const Tensor<1, 2> Jn = -r.mu_n * n * g[1] * s.J0;
             const Tensor<1, 2> Jp = -r.mu_p * p * g[2] * s.J0;
@@ -88,14 +102,16 @@ namespace backcomb::fem
             const auto &x = in.evaluation_points[q];
             o(12) = (r.absorber && device.generation) ? light * device.generation(x[0], x[1]) : 0.0;
             o(13) = k.R * s.R0;
-            for (unsigned c = 0; c < 3; ++c)
+            for (unsigned c = 0; c < channel.size(); ++c)
               o(14 + c) = channel[c] * s.R0;
           }
       }
 
     private:
-      const DeviceModel &device;
-      double             light;
+      const DeviceModel       &device;
+      double                   light;
+      std::vector<std::string> channel_names;  // registry names
+      std::vector<std::string> channel_fields; // their VTK field names
     };
   } // namespace
 

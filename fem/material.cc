@@ -1,6 +1,8 @@
 #include "fem/material.h"
 
 #include "fem/constants.h"
+#include "fem/physics/recombination_channel.h"
+#include "fem/physics/registry.h"
 #include "base/entries.h"
 
 #include <cmath>
@@ -29,21 +31,9 @@ namespace backcomb::fem
                    "Ionised donor density N_D in cm^-3, >= 0.");
     declare_number(prm, "Acceptor density", default_text(d.acceptors),
                    "Ionised acceptor density N_A in cm^-3, >= 0.");
-    declare_number(prm, "Electron lifetime", default_text(d.tau_n),
-                   "SRH electron lifetime tau_n in s, > 0.");
-    declare_number(prm, "Hole lifetime", default_text(d.tau_p), "SRH hole lifetime tau_p in s, > 0.");
-    declare_number(prm, "Trap level", default_text(d.trap_level),
-                   "SRH trap energy in eV measured from midgap (positive towards the "
-                   "conduction band), |value| < E_g/2.");
-    declare_number(prm, "Radiative coefficient", default_text(d.B_rad),
-                   "Band-to-band radiative coefficient B in cm^3/s, >= 0.");
-    declare_number(prm, "Photon recycling probability", default_text(d.photon_recycling),
-                   "Fraction of radiative events re-absorbed in the film, 0..1 "
-                   "(the net radiative rate is (1 - P_r) B (np - n_i^2)).");
-    declare_number(prm, "Auger electron coefficient", default_text(d.C_n),
-                   "Auger coefficient C_n (n n p process) in cm^6/s, >= 0.");
-    declare_number(prm, "Auger hole coefficient", default_text(d.C_p),
-                   "Auger coefficient C_p (n p p process) in cm^6/s, >= 0.");
+    // The recombination channels' own entries.
+    for (const std::string &name : bulk_recombination_channels().names())
+      bulk_recombination_channels().create(name)->declare_parameters(prm, section, d);
     prm.leave_subsection();
   }
 
@@ -60,17 +50,8 @@ namespace backcomb::fem
     mu_p              = get_in_range(prm, section, "Hole mobility", 1e-8, 1e6);
     donors            = get_in_range(prm, section, "Donor density", 0.0, 1e23);
     acceptors         = get_in_range(prm, section, "Acceptor density", 0.0, 1e23);
-    tau_n             = get_in_range(prm, section, "Electron lifetime", 1e-15, 1.0);
-    tau_p             = get_in_range(prm, section, "Hole lifetime", 1e-15, 1.0);
-    trap_level        = get_in_range(prm, section, "Trap level", -5.0, 5.0);
-    B_rad             = get_in_range(prm, section, "Radiative coefficient", 0.0, 1e-5);
-    photon_recycling  = get_in_range(prm, section, "Photon recycling probability", 0.0, 1.0);
-    C_n               = get_in_range(prm, section, "Auger electron coefficient", 0.0, 1e-20);
-    C_p               = get_in_range(prm, section, "Auger hole coefficient", 0.0, 1e-20);
-    if (!(std::abs(trap_level) < 0.5 * band_gap))
-      throw InputError(section + "/Trap level", prm.get("Trap level"),
-                       "must lie inside the gap: |level| < Band gap/2 = " +
-                         default_text(0.5 * band_gap) + " eV");
+    for (const std::string &name : bulk_recombination_channels().names())
+      bulk_recombination_channels().create(name)->parse_parameters(prm, section, *this);
     prm.leave_subsection();
   }
 

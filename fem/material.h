@@ -5,10 +5,17 @@
 
 #include <deal.II/base/parameter_handler.h>
 
+#include <map>
 #include <string>
 
 namespace backcomb::fem
 {
+  // The recombination parameters below belong to the channels of
+  // fem/physics/ (srh.h, radiative.h, auger.h), which declare, check and
+  // read them; they stay named members because tests and callers set them
+  // directly. A channel added later keeps its numbers in `model_numbers`,
+  // keyed by its entry's path below the section, so that it need not touch
+  // this struct.
   struct Material
   {
     double band_gap          = 1.6;   // eV
@@ -27,8 +34,10 @@ namespace backcomb::fem
     double photon_recycling  = 0.0;   // probability 0..1
     double C_n               = 0.0;   // cm^6/s, Auger (eeh)
     double C_p               = 0.0;   // cm^6/s, Auger (ehh)
+    std::map<std::string, double> model_numbers; // further channels' entries
 
-    // Declares the entries of section `section` with the given defaults.
+    // Declares the entries of section `section` with the given defaults,
+    // those of every registered bulk recombination channel included.
     static void declare_parameters(dealii::ParameterHandler &prm,
                                    const std::string &section,
                                    const Material &defaults);

@@ -1,5 +1,8 @@
 #include "fem/optics.h"
 
+#include "fem/physics/generation_model.h"
+#include "fem/physics/registry.h"
+
 #include "fem/constants.h"
 #include "base/entries.h"
 
@@ -233,23 +236,6 @@ namespace backcomb::fem
              quantity + (strictly_positive ? " must be > 0" : " must be >= 0"));
     }
 
-    // Piecewise-linear interpolation in a sorted table; x must lie inside.
-    double
-    interpolate(const std::vector<double> &x,
-                const std::vector<double> &y,
-                const double               at)
-    {
-      if (x.size() == 1)
-        return y[0];
-      const auto   upper = std::upper_bound(x.begin(), x.end(), at);
-      const auto   i     = std::clamp<std::ptrdiff_t>(upper - x.begin(),
-                                                1,
-                                                static_cast<std::ptrdiff_t>(
-                                                  x.size()) - 1);
-      const double s     = (at - x[i - 1]) / (x[i] - x[i - 1]);
-      return y[i - 1] + s * (y[i] - y[i - 1]);
-    }
-
     // The refractiveindex.info YAML layout: find "DATA:", the entry
     // "- type: tabulated nk" and its block "data: |"; the block ends at the
     // first non-blank line indented no deeper than the "data:" key.
@@ -302,14 +288,46 @@ namespace backcomb::fem
       return rows;
     }
 
-    std::string
-    format_range(const double lo, const double hi, const std::string &unit)
-    {
-      std::ostringstream s;
-      s << lo << "-" << hi << " " << unit;
-      return s.str();
-    }
   } // namespace
+
+  double
+  interpolate(const std::vector<double> &x,
+              const std::vector<double> &y,
+              const double               at)
+  {
+    if (x.size() == 1)
+      return y[0];
+    const auto   upper = std::upper_bound(x.begin(), x.end(), at);
+    const auto   i     = std::clamp<std::ptrdiff_t>(upper - x.begin(),
+                                              1,
+                                              static_cast<std::ptrdiff_t>(
+                                                x.size()) - 1);
+    const double s     = (at - x[i - 1]) / (x[i] - x[i - 1]);
+    return y[i - 1] + s * (y[i] - y[i - 1]);
+  }
+
+  std::string
+  format_range(const double lo, const double hi, const std::string &unit)
+  {
+    std::ostringstream s;
+    s << lo << "-" << hi << " " << unit;
+    return s.str();
+  }
+
+  std::filesystem::path
+  case_file_path(const dealii::ParameterHandler &prm,
+                 const std::string              &name,
+                 const std::filesystem::path    &base_folder,
+                 const std::filesystem::path    &fallback)
+  {
+    const std::string text = trim(prm.get(name));
+    if (text.empty())
+      return fallback;
+    std::filesystem::path p(text);
+    if (p.is_relative() && !base_folder.empty())
+      p = base_folder / p;
+    return p.lexically_normal();
+  }
 
   // ------------------------------------------------------------- readers
 
@@ -636,36 +654,15 @@ namespace backcomb::fem
   void
   IlluminationParameters::declare_parameters(dealii::ParameterHandler &prm)
   {
-    using dealii::Patterns::Anything;
     using dealii::Patterns::Selection;
+    const auto                  &models = generation_models();
+    const IlluminationParameters defaults;
+    std::string                  doc = "How the generation rate in the absorber is obtained.";
+    for (const std::string &name : models.names())
+      doc += " " + models.create(name)->description();
+    doc += " All are scaled by 'Intensity'.";
     prm.enter_subsection("Illumination");
-    prm.declare_entry(
-      "Generation model",
-      "spectrum",
-      Selection("spectrum|uniform|depth table"),
-      "How the generation rate in the absorber is obtained. 'spectrum': "
-      "Beer-Lambert absorption of the solar spectrum with the absorber's "
-      "optical constants, cut off at the band gap. 'uniform': the constant "
-      "'Uniform generation rate'. 'depth table': G(depth) read from "
-      "'Depth table file'. All three are scaled by 'Intensity'.");
-    prm.declare_entry(
-      "Spectrum file",
-      "",
-      Anything(),
-      "Spectral irradiance, comma separated, wavelength in nm and irradiance "
-      "in W m^-2 nm^-1; either two columns or the four columns of the "
-      "ASTM G173-03 tables (the global-tilt column is used). Empty: the "
-      "shipped ASTM G173-03 AM1.5G spectrum. Relative paths are relative to "
-      "the case file's folder.");
-    prm.declare_entry(
-      "Optical constants file",
-      "",
-      Anything(),
-      "Absorber optical constants: a .yml file with a 'tabulated nk' block "
-      "(rows: wavelength in um, n, k), or a table with header "
-      "'wavelength_nm,alpha_per_cm' (alpha in cm^-1). Empty: the shipped "
-      "MAPbI3 n,k table. Relative paths are relative to the case file's "
-      "folder.");
+    prm.declare_entry("Generation model", defaults.model, Selection(models.selection()), doc);
     declare_number(prm,
                    "Intensity",
                    "1",
@@ -682,32 +679,9 @@ namespace backcomb::fem
                    "0.85",
                    "Fraction of the light transmitted through the fingers "
                    "when lit through the substrate (dimensionless, 0..1).");
-    declare_number(prm,
-                   "Front reflectance",
-                   "0",
-                   "Fraction of the light reflected before it enters the "
-                   "absorber (dimensionless, 0..1; spectrum model only).");
-    declare_number(prm,
-                   "Back reflectance",
-                   "0",
-                   "Fraction of the light reaching the far side of the "
-                   "absorber that is reflected back for a second pass "
-                   "(dimensionless, 0..1; 0 = single pass; spectrum model "
-                   "only).");
-    declare_number(prm,
-                   "Uniform generation rate",
-                   "1e21",
-                   "Generation rate at 1 sun for the uniform model, in "
-                   "cm^-3 s^-1 (>= 0).");
-    prm.declare_entry(
-      "Depth table file",
-      "",
-      Anything(),
-      "Generation rate at 1 sun versus depth below the illuminated surface "
-      "for the depth table model: '#' comment lines, then the header "
-      "'depth_nm,generation_per_cm3_s', then rows depth in nm, G in "
-      "cm^-3 s^-1, interpolated linearly; the table must span the whole "
-      "absorber. Relative paths are relative to the case file's folder.");
+    // Every model's own entries (files, rates, reflectances).
+    for (const std::string &name : models.names())
+      models.create(name)->declare_parameters(prm, defaults);
     prm.leave_subsection();
   }
 
@@ -717,43 +691,18 @@ namespace backcomb::fem
     const std::filesystem::path &base_folder)
   {
     const std::string section = "Illumination";
+    const auto       &models  = generation_models();
     prm.enter_subsection(section);
-
-    const auto resolve = [&](const std::string           &name,
-                             const std::filesystem::path &fallback) {
-      const std::string text = trim(prm.get(name));
-      if (text.empty())
-        return fallback;
-      std::filesystem::path p(text);
-      if (p.is_relative() && !base_folder.empty())
-        p = base_folder / p;
-      return p.lexically_normal();
-    };
-
-    const std::string model_name = prm.get("Generation model");
-    model = model_name == "uniform"     ? Model::uniform :
-            model_name == "depth table" ? Model::depth_table :
-                                          Model::spectrum;
-    const IlluminationParameters defaults;
-    spectrum_file = resolve("Spectrum file", defaults.spectrum_file);
-    optical_constants_file =
-      resolve("Optical constants file", defaults.optical_constants_file);
-    depth_table_file = resolve("Depth table file", {});
-    if (model == Model::depth_table && depth_table_file.empty())
-      throw InputError(section + "/Depth table file",
-                       "",
-                       "a file is required when 'Generation model' is "
-                       "'depth table'");
-
+    model = prm.get("Generation model");
+    // Every model's entries are read and checked, also those of the models
+    // not chosen; the chosen one may require more.
+    for (const std::string &name : models.names())
+      models.create(name)->parse_parameters(prm, base_folder, name == model, *this);
     intensity_suns = get_nonnegative(prm, section, "Intensity");
     side = prm.get("Illuminated side") == "substrate" ? Side::substrate :
                                                         Side::film;
     finger_transmittance =
       get_in_range(prm, section, "Finger transmittance", 0, 1);
-    front_reflectance = get_in_range(prm, section, "Front reflectance", 0, 1);
-    back_reflectance  = get_in_range(prm, section, "Back reflectance", 0, 1);
-    uniform_rate_per_cm3_s =
-      get_nonnegative(prm, section, "Uniform generation rate");
     prm.leave_subsection();
   }
 
@@ -775,91 +724,16 @@ namespace backcomb::fem
         layout.hole_finger_half_width_um < 0)
       throw std::invalid_argument("Generation: negative finger layout size");
 
-    const double suns = parameters.intensity_suns;
-    // Micrometres to centimetres, and A to mA, for q int G dd.
-    const double to_mA_per_cm2 = 1e3 * constants::q * 1e-4;
-
-    switch (parameters.model)
-      {
-        case IlluminationParameters::Model::spectrum:
-          {
-            const auto spectrum = read_spectrum(parameters.spectrum_file);
-            const auto constants =
-              read_optical_constants(parameters.optical_constants_file);
-            const auto above =
-              above_gap_spectrum(spectrum, constants, band_gap_eV);
-            const BeerLambert optics{thickness_um,
-                                     suns,
-                                     parameters.front_reflectance,
-                                     parameters.back_reflectance};
-            photon_current_  = suns * photon_current_mA_per_cm2(above);
-            absorbed_current_ = beer_lambert_absorbed_current(above, optics);
-            OpticalBudget b;
-            // W/m^2 to mW/cm^2: 0.1.
-            b.incident  = 0.1 * suns *
-                         integrate_trapezoid(spectrum.wavelength_nm,
-                                             spectrum.irradiance);
-            b.reflected = parameters.front_reflectance * b.incident;
-            b.absorbed  = beer_lambert_absorbed_power(above, optics);
-            b.absorbed_current = absorbed_current_;
-            column_budget_     = b;
-
-            // Linear interpolation of e^{-alpha d} on a step h errs by at
-            // most (alpha h)^2 / 8 relative; alpha h <= 0.02 keeps every
-            // wavelength's term, hence the sum, within 5e-5.
-            const double alpha_max =
-              above.alpha_per_cm.empty() ?
-                0. :
-                *std::max_element(above.alpha_per_cm.begin(),
-                                  above.alpha_per_cm.end());
-            const double intervals =
-              std::clamp(std::ceil(alpha_max * 1e-4 * thickness_um / 0.02),
-                         2000.,
-                         100000.);
-            const auto n = static_cast<std::size_t>(intervals);
-            for (std::size_t j = 0; j <= n; ++j)
-              {
-                const double d = thickness_um * static_cast<double>(j) / n;
-                depth_um_.push_back(d);
-                profile_.push_back(beer_lambert_generation(above, optics, d));
-              }
-            break;
-          }
-        case IlluminationParameters::Model::uniform:
-          {
-            const double g = suns * parameters.uniform_rate_per_cm3_s;
-            depth_um_        = {0., thickness_um};
-            profile_         = {g, g};
-            absorbed_current_ = to_mA_per_cm2 * g * thickness_um;
-            break;
-          }
-        case IlluminationParameters::Model::depth_table:
-          {
-            const auto   table    = read_depth_table(parameters.depth_table_file);
-            const double needed_nm = 1e3 * thickness_um;
-            if (table.depth_nm.front() > 0 || table.depth_nm.back() < needed_nm)
-              throw InputError(table.file,
-                               format_range(table.depth_nm.front(),
-                                            table.depth_nm.back(),
-                                            "nm"),
-                               "the depth table covers too little: " +
-                                 format_range(0, needed_nm, "nm") +
-                                 " is needed (the absorber thickness)");
-            for (std::size_t i = 0; i < table.depth_nm.size(); ++i)
-              if (table.depth_nm[i] < needed_nm)
-                {
-                  depth_um_.push_back(1e-3 * table.depth_nm[i]);
-                  profile_.push_back(suns * table.generation_per_cm3_s[i]);
-                }
-            depth_um_.push_back(thickness_um);
-            profile_.push_back(suns * interpolate(table.depth_nm,
-                                                  table.generation_per_cm3_s,
-                                                  needed_nm));
-            absorbed_current_ =
-              to_mA_per_cm2 * integrate_trapezoid(depth_um_, profile_);
-            break;
-          }
-      }
+    // The chosen model's unshadowed depth profile; the shadow of the
+    // fingers and the lateral position are added by rate().
+    const GenerationProfile profile =
+      generation_models().create(parameters.model, "Illumination/Generation model")
+        ->profile(parameters, band_gap_eV, thickness_um);
+    depth_um_         = profile.depth_um;
+    profile_          = profile.rate_per_cm3_s;
+    absorbed_current_ = profile.absorbed_current;
+    photon_current_   = profile.photon_current;
+    column_budget_    = profile.column_budget;
   }
 
   double

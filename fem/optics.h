@@ -11,6 +11,7 @@
 
 #include <filesystem>
 #include <istream>
+#include <map>
 #include <optional>
 #include <string>
 #include <vector>
@@ -174,31 +175,33 @@ namespace backcomb::fem
 
   // --------------------------------------------------------- case file
 
-  // Section "Illumination" of the case file.
+  // Section "Illumination" of the case file. The generation model is
+  // chosen by name (`model`, the entry "Generation model") among the
+  // models registered in fem/physics/registry.cc, each of which declares
+  // and reads its own entries. The named members after `side` belong to the
+  // shipped models; they stay named because tests and callers set them
+  // directly. A model added later keeps its values in `model_numbers` and
+  // `model_files`, keyed by entry name.
   struct IlluminationParameters
   {
-    enum class Model
-    {
-      spectrum,
-      uniform,
-      depth_table
-    };
     enum class Side
     {
       film,
       substrate
     };
 
-    Model                 model = Model::spectrum;
-    std::filesystem::path spectrum_file;          // resolved path
-    std::filesystem::path optical_constants_file; // resolved path
-    std::filesystem::path depth_table_file;       // resolved path, or empty
+    std::string           model = "spectrum";
     double                intensity_suns         = 1;
     Side                  side                   = Side::film;
     double                finger_transmittance   = 0.85;
+    std::filesystem::path spectrum_file;          // resolved path
+    std::filesystem::path optical_constants_file; // resolved path
+    std::filesystem::path depth_table_file;       // resolved path, or empty
     double                front_reflectance      = 0;
     double                back_reflectance       = 0;
     double                uniform_rate_per_cm3_s = 1e21;
+    std::map<std::string, double>                model_numbers;
+    std::map<std::string, std::filesystem::path> model_files;
 
     // The data files shipped with backcomb (data/ of the source tree).
     IlluminationParameters();
@@ -211,6 +214,26 @@ namespace backcomb::fem
     parse_parameters(dealii::ParameterHandler    &prm,
                      const std::filesystem::path &base_folder = {});
   };
+
+  // The path in the file-name entry `name` of the current section:
+  // `fallback` if the entry is empty, relative names resolved against
+  // `base_folder` (the case file's folder).
+  std::filesystem::path
+  case_file_path(const dealii::ParameterHandler &prm,
+                 const std::string              &name,
+                 const std::filesystem::path    &base_folder,
+                 const std::filesystem::path    &fallback);
+
+  // Piecewise-linear interpolation in a table sorted by x; `at` must lie
+  // inside.
+  double
+  interpolate(const std::vector<double> &x,
+              const std::vector<double> &y,
+              double                     at);
+
+  // "lo-hi unit", for messages.
+  std::string
+  format_range(double lo, double hi, const std::string &unit);
 
   // Depth-resolved generation from a table file: comment lines start with
   // '#', the first other line is the header

@@ -34,8 +34,9 @@ namespace backcomb::fem
     const unsigned   nq  = cell_quadrature.size();
     std::vector<types::global_dof_index> idx(dpc);
 
-    // Every process must sum the same channel names, also those of regions
-    // it owns no cell of.
+    // Bulk recombination per channel, keyed by the channel's name: every
+    // channel that some region has gets its term. Every process must sum
+    // the same channel names, also those of regions it owns no cell of.
     std::map<std::string, double> channel;
     for (const auto &[id, region] : device.regions)
       for (const auto &ch : region.channels)
@@ -78,19 +79,17 @@ namespace backcomb::fem
               channel[ch->name()] += ch->rate(n, p).R * dmu * dx;
           }
 
+        // Surface channels, summed per surface (top surface, gap
+        // interface), whatever channels a surface has.
         for (const unsigned f : cell->face_indices())
           {
             if (!cell->face(f)->at_boundary())
               continue;
             const auto           bid     = cell->face(f)->boundary_id();
-            const ScaledSurface *surface = bid == ids::top_surface   ? &device.top_surface
-                                           : bid == ids::gap_interface ? &device.gap_interface
-                                                                       : nullptr;
-            if (!surface || (surface->S_n == 0 && surface->S_p == 0))
+            const ScaledSurface *surface = device.surface_at(bid);
+            if (!surface || surface->next_to(cell->material_id()).empty())
               continue;
-            const SurfaceRecombination srec(surface->S_n, surface->S_p,
-                                            std::exp(r.ln_nc - r.half_gap + surface->trap_level),
-                                            std::exp(r.ln_nv - r.half_gap - surface->trap_level), r.ni2);
+            const auto &channels = surface->next_to(cell->material_id());
             ffv.reinit(cell, f);
             for (unsigned q = 0; q < face_quadrature.size(); ++q)
               {
@@ -100,7 +99,7 @@ namespace backcomb::fem
                 const double n = std::exp(v[c_psi] - v[c_phin] + r.a_n);
                 const double p = std::exp(v[c_phip] - v[c_psi] + r.a_p);
                 sums[bid == ids::top_surface ? 5 : 6] +=
-                  srec.rate(n, p).R * (v[c_phip] - v[c_phin]) * ffv.JxW(q);
+                  surface_rate(channels, n, p).R * (v[c_phip] - v[c_phin]) * ffv.JxW(q);
               }
           }
       }

@@ -1,6 +1,8 @@
 #include "simulator/guard_rails.h"
 
 #include "fem/constants.h"
+#include "fem/physics/recombination_channel.h"
+#include "fem/physics/registry.h"
 #include "geometry/ids.h"
 
 #include <algorithm>
@@ -57,16 +59,26 @@ namespace backcomb::simulator
   }
 
   std::pair<double, double>
-  minority_lifetimes(const fem::Material &m)
+  minority_lifetimes(const fem::Material &m, const double temperature)
   {
     // Majority densities at low injection: the net doping of the kind
     // present (zero in an undoped film, where only SRH remains).
     const double p0 = std::max(m.acceptors - m.donors, 0.0), n0 = std::max(m.donors - m.acceptors, 0.0);
-    const double B  = m.B_rad * (1 - m.photon_recycling);
-    // Electrons as minority carriers in p-type material: R = n/tau_n
-    // (SRH), B n p0 (radiative), C_p n p0^2 (Auger ehh); holes alike.
-    const double rate_n = 1 / m.tau_n + B * p0 + m.C_p * p0 * p0;
-    const double rate_p = 1 / m.tau_p + B * n0 + m.C_n * n0 * n0;
+    // Each bulk channel the material switches on, set up in physical units,
+    // adds its 1/tau (SRH 1/tau_n, radiative B p0, Auger C_p p0^2 and so
+    // on for electrons in p-type material; holes alike), in registry order.
+    const fem::ChannelUnits units = fem::ChannelUnits::physical(m, temperature);
+    double                  rate_n = 0, rate_p = 0;
+    for (const std::string &name : fem::bulk_recombination_channels().names())
+      {
+        const auto channel = fem::bulk_recombination_channels().create(name);
+        if (!channel->active(m))
+          continue;
+        channel->setup(m, units);
+        const fem::InverseLifetimes l = channel->low_injection(n0, p0);
+        rate_n += l.electrons;
+        rate_p += l.holes;
+      }
     return {1 / rate_n, 1 / rate_p};
   }
 
@@ -115,7 +127,7 @@ namespace backcomb::simulator
           f.contacts.push_back(r);
       }
 
-    const auto [tau_n, tau_p] = minority_lifetimes(c.absorber);
+    const auto [tau_n, tau_p] = minority_lifetimes(c.absorber, c.device.temperature);
     f.electron_diffusion_um   = diffusion_length_um(c.absorber.mu_n, T, tau_n);
     f.hole_diffusion_um       = diffusion_length_um(c.absorber.mu_p, T, tau_p);
     // The gap: between the finger edges of a comb period; a test strip
@@ -154,8 +166,8 @@ namespace backcomb::simulator
       w.push_back(std::string("Absorber: the ") + (electron ? "electron" : "hole") + " diffusion length " +
                   format("%.3g um", L) + " (sqrt(D tau), D = mu kT/q, tau the low-injection minority-carrier "
                                          "lifetime, " +
-                  format("%.3g s", electron ? minority_lifetimes(c.absorber).first
-                                            : minority_lifetimes(c.absorber).second) +
+                  format("%.3g s", electron ? minority_lifetimes(c.absorber, c.device.temperature).first
+                                            : minority_lifetimes(c.absorber, c.device.temperature).second) +
                   ") is more than " + format("%g", diffusion_cell_factor) +
                   " times shorter than the lateral cell in the gap, " + format("%.3g um", f.gap_cell_um) +
                   ": collection in the gap is not resolved; set Mesh/Largest lateral cell to " +

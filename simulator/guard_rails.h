@@ -10,9 +10,10 @@
 //      cannot represent the space-charge layer there.
 //  (b) The diffusion length in the absorber, L = sqrt(D tau) with
 //      D = mu kT/q (Einstein relation) and tau the low-injection
-//      minority-carrier lifetime of the bulk channels: SRH lifetime of the
-//      carrier, radiative (net of photon recycling) and Auger at the net
-//      doping (nothing extra in an undoped film). Low injection, because
+//      minority-carrier lifetime of the bulk channels: each channel of
+//      fem/physics/ reports its 1/tau at the net doping and the rates add
+//      (SRH lifetime of the carrier, radiative net of photon recycling,
+//      Auger, band tails; only SRH in an undoped film). Low injection, because
 //      collection is judged at short circuit, where the carriers are
 //      extracted. The shorter of the electron and hole lengths counts. A
 //      lateral cell in the gap wider than diffusion_cell_factor * L cannot
@@ -42,8 +43,8 @@ namespace backcomb::simulator
   double diffusion_length_um(double mobility, double temperature, double lifetime);
 
   // The low-injection minority-carrier lifetimes of electrons and holes in
-  // a material (s), as described above.
-  std::pair<double, double> minority_lifetimes(const fem::Material &m);
+  // a material (s) at `temperature` (K), as described above.
+  std::pair<double, double> minority_lifetimes(const fem::Material &m, double temperature = 300.0);
 
   // The figures behind the warnings.
   struct GuardRailFigures

@@ -47,7 +47,7 @@ TEST(CollectionProbability, DopedStripMatchesDiffusionSolution)
   const double D = m.mu_n * Vt;
   m.tau_n = m.tau_p = 1e-8 / D; // L = 1 um
   ContactParameters c;
-  c.ohmic         = true;
+  c.model         = "ohmic";
   c.work_function = m.electron_affinity + m.band_gap - Vt * std::log(m.Nv / m.acceptors);
   const double g  = 5.0; // g/L = 5
   dealii::Triangulation<2> tria;

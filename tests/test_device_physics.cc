@@ -22,7 +22,7 @@ namespace
   ohmic_contact()
   {
     ContactParameters c;
-    c.ohmic = true;
+    c.model = "ohmic";
     return c;
   }
 
@@ -73,7 +73,7 @@ TEST(Equilibrium, IntrinsicDensityAndNeutralRegion)
   dealii::Triangulation<2> tria;
   test_support::make_strip(tria, 10.0, 1.0, 0.0, 0.01);
   ContactParameters c;
-  c.ohmic = true;
+  c.model = "ohmic";
   // Work functions of an ideal ohmic contact to this n-type material.
   const double ni      = std::sqrt(m.Nc * m.Nv) * std::exp(-m.band_gap / (2 * Vt));
   c.work_function      = m.electron_affinity + Vt * std::log(m.Nc / 1e16);

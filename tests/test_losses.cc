@@ -79,7 +79,7 @@ TEST(PowerBalance, JouleHeatOfUniformResistor)
   dealii::Triangulation<2> tria;
   test_support::make_uniform_strip(tria, L_um, t_um, 100, 2);
   ContactParameters c;
-  c.ohmic         = true;
+  c.model         = "ohmic";
   const double Vt = constants::k_B * T / constants::q;
   c.work_function = m.electron_affinity + Vt * std::log(m.Nc / m.donors); // flat bands
   DeviceModel dev(T, {{ids::absorber, m}}, {ids::absorber}, c, c, SurfaceParameters(), SurfaceParameters(),

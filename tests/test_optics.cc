@@ -296,7 +296,7 @@ TEST_F(OpticsFiles, IlluminatedSideAndFingerShadow)
 TEST(Generation, UniformModel)
 {
   IlluminationParameters p;
-  p.model                  = IlluminationParameters::Model::uniform;
+  p.model                  = "uniform";
   p.uniform_rate_per_cm3_s = 2e21;
   p.intensity_suns         = 0.5;
   const Generation g(p, 1.6, 0.4, no_fingers);
@@ -311,7 +311,7 @@ TEST(Generation, UniformModel)
 TEST_F(OpticsFiles, DepthTableModel)
 {
   IlluminationParameters p;
-  p.model = IlluminationParameters::Model::depth_table;
+  p.model = "depth table";
   p.depth_table_file =
     write("g.csv",
           "# linear profile\ndepth_nm,generation_per_cm3_s\n0,4e21\n"
@@ -444,7 +444,7 @@ TEST_F(OpticsFiles, ParametersParseAndResolve)
                               "end\n");
   IlluminationParameters p;
   p.parse_parameters(prm, "/cases/demo");
-  EXPECT_EQ(p.model, IlluminationParameters::Model::depth_table);
+  EXPECT_EQ(p.model, "depth table");
   EXPECT_EQ(p.depth_table_file, fs::path("/cases/demo/tables/g.csv"));
   EXPECT_EQ(p.optical_constants_file, fs::path("/abs/alpha.csv"));
   EXPECT_EQ(p.spectrum_file, data_dir / "astm-g173-03.csv");

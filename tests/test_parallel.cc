@@ -36,7 +36,7 @@ namespace
     p.B_rad = n.B_rad = 1e-10;
     p.tau_n = p.tau_p = n.tau_n = n.tau_p = 1e-8;
     ContactParameters left, right;
-    left.ohmic = right.ohmic = true;
+    left.model = right.model = "ohmic";
     left.work_function  = n.electron_affinity + 0.05;
     right.work_function = p.electron_affinity + p.band_gap - 0.05;
     DeviceModel dev(300, {{ids::absorber, n}, {ids::absorber_right, p}},

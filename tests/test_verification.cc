@@ -38,7 +38,7 @@ TEST(ManufacturedSolution, PoissonConvergesWithSecondOrder)
   m.band_gap = 1.0;
   m.Nc = m.Nv = 1e19;
   ContactParameters e, h;
-  e.ohmic = h.ohmic = true;
+  e.model = h.model = "ohmic";
   e.work_function   = 4.5;
   h.work_function   = 4.6;
   std::vector<double> errors;

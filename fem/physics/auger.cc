@@ -1,0 +1,56 @@
+#include "fem/physics/auger.h"
+
+#include "base/entries.h"
+
+namespace backcomb::fem
+{
+  namespace
+  {
+    const NumberEntry electron_coefficient{"Auger electron coefficient", 0.0, "cm^6/s",
+                                           Range::closed(0.0, 1e-20), "Auger coefficient C_n (n n p process) in cm^6/s"};
+    const NumberEntry hole_coefficient{"Auger hole coefficient", 0.0, "cm^6/s", Range::closed(0.0, 1e-20),
+                                       "Auger coefficient C_p (n p p process) in cm^6/s"};
+  } // namespace
+
+  AugerChannel::AugerChannel(double C_n_, double C_p_, double ni2_)
+    : C_n(C_n_), C_p(C_p_), ni2(ni2_)
+  {}
+
+  void
+  AugerChannel::declare_parameters(dealii::ParameterHandler &prm, const std::string &section,
+                                   const Material &d) const
+  {
+    declare(prm, section, electron_coefficient, d.C_n);
+    declare(prm, section, hole_coefficient, d.C_p);
+  }
+
+  void
+  AugerChannel::parse_parameters(dealii::ParameterHandler &prm, const std::string &section, Material &m) const
+  {
+    m.C_n = get(prm, section, electron_coefficient);
+    m.C_p = get(prm, section, hole_coefficient);
+  }
+
+  void
+  AugerChannel::setup(const Material &m, const ChannelUnits &u)
+  {
+    // A coefficient in cm^6/s times N0^2 t0.
+    C_n = m.C_n * u.N0 * u.N0 * u.t0;
+    C_p = m.C_p * u.N0 * u.N0 * u.t0;
+    ni2 = u.ni2;
+  }
+
+  Rate
+  AugerChannel::rate(const double n, const double p) const
+  {
+    const double c   = C_n * n + C_p * p;
+    const double num = n * p - ni2;
+    return {c * num, C_n * num + c * p, C_p * num + c * n};
+  }
+
+  InverseLifetimes
+  AugerChannel::low_injection(const double n0, const double p0) const
+  {
+    return {C_p * p0 * p0, C_n * n0 * n0};
+  }
+} // namespace backcomb::fem
