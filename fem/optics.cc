@@ -633,76 +633,97 @@ namespace backcomb::fem
                              "absorber-nk-mapi.yml")
   {}
 
+  namespace
+  {
+    const std::string illumination_section = "Illumination";
+
+    // The numeric entries of section "Illumination", each described once.
+    const NumberEntry intensity{
+      "Intensity", 1, "suns", Range::at_least(0),
+      "Illumination intensity (1 sun = the spectrum as given, about "
+      "100 mW/cm^2; 0 = dark)"};
+    const NumberEntry finger_transmittance_entry{
+      "Finger transmittance", 0.85, "", Range::closed(0, 1),
+      "Fraction of the light transmitted through the fingers when lit "
+      "through the substrate"};
+    const NumberEntry front_reflectance_entry{
+      "Front reflectance", 0, "", Range::closed(0, 1),
+      "Fraction of the light reflected before it enters the absorber "
+      "(spectrum model only)"};
+    const NumberEntry back_reflectance_entry{
+      "Back reflectance", 0, "", Range::closed(0, 1),
+      "Fraction of the light reaching the far side of the absorber that is "
+      "reflected back for a second pass (0 = single pass; spectrum model "
+      "only)"};
+    const NumberEntry uniform_generation_rate{
+      "Uniform generation rate", 1e21, "cm^-3 s^-1", Range::at_least(0),
+      "Generation rate at 1 sun for the uniform model"};
+  } // namespace
+
   void
   IlluminationParameters::declare_parameters(dealii::ParameterHandler &prm)
   {
     using dealii::Patterns::Anything;
     using dealii::Patterns::Selection;
-    prm.enter_subsection("Illumination");
-    prm.declare_entry(
+    const std::string &s = illumination_section;
+    prm.enter_subsection(s);
+    declare_text(
+      prm,
+      s,
       "Generation model",
       "spectrum",
       Selection("spectrum|uniform|depth table"),
+      "",
       "How the generation rate in the absorber is obtained. 'spectrum': "
       "Beer-Lambert absorption of the solar spectrum with the absorber's "
       "optical constants, cut off at the band gap. 'uniform': the constant "
       "'Uniform generation rate'. 'depth table': G(depth) read from "
       "'Depth table file'. All three are scaled by 'Intensity'.");
-    prm.declare_entry(
+    declare_text(
+      prm,
+      s,
       "Spectrum file",
       "",
       Anything(),
+      "",
       "Spectral irradiance, comma separated, wavelength in nm and irradiance "
       "in W m^-2 nm^-1; either two columns or the four columns of the "
       "ASTM G173-03 tables (the global-tilt column is used). Empty: the "
       "shipped ASTM G173-03 AM1.5G spectrum. Relative paths are relative to "
       "the case file's folder.");
-    prm.declare_entry(
+    declare_text(
+      prm,
+      s,
       "Optical constants file",
       "",
       Anything(),
+      "",
       "Absorber optical constants: a .yml file with a 'tabulated nk' block "
       "(rows: wavelength in um, n, k), or a table with header "
       "'wavelength_nm,alpha_per_cm' (alpha in cm^-1). Empty: the shipped "
       "MAPbI3 n,k table. Relative paths are relative to the case file's "
       "folder.");
-    declare_number(prm,
-                   "Intensity",
-                   "1",
-                   "Illumination intensity in suns (>= 0; 1 sun = the "
-                   "spectrum as given, about 100 mW/cm^2; 0 = dark).");
-    prm.declare_entry("Illuminated side",
-                      "film",
-                      Selection("film|substrate"),
-                      "Where the light enters: 'film' = through the free top "
-                      "surface of the absorber; 'substrate' = through the "
-                      "substrate and the electrode fingers.");
-    declare_number(prm,
-                   "Finger transmittance",
-                   "0.85",
-                   "Fraction of the light transmitted through the fingers "
-                   "when lit through the substrate (dimensionless, 0..1).");
-    declare_number(prm,
-                   "Front reflectance",
-                   "0",
-                   "Fraction of the light reflected before it enters the "
-                   "absorber (dimensionless, 0..1; spectrum model only).");
-    declare_number(prm,
-                   "Back reflectance",
-                   "0",
-                   "Fraction of the light reaching the far side of the "
-                   "absorber that is reflected back for a second pass "
-                   "(dimensionless, 0..1; 0 = single pass; spectrum model "
-                   "only).");
-    declare_number(prm,
-                   "Uniform generation rate",
-                   "1e21",
-                   "Generation rate at 1 sun for the uniform model, in "
-                   "cm^-3 s^-1 (>= 0).");
-    prm.declare_entry(
+    declare(prm, s, intensity);
+    declare_text(prm,
+                 s,
+                 "Illuminated side",
+                 "film",
+                 Selection("film|substrate"),
+                 "",
+                 "Where the light enters: 'film' = through the free top "
+                 "surface of the absorber; 'substrate' = through the "
+                 "substrate and the electrode fingers.");
+    declare(prm, s, finger_transmittance_entry);
+    declare(prm, s, front_reflectance_entry);
+    declare(prm, s, back_reflectance_entry);
+    declare(prm, s, uniform_generation_rate);
+    declare_text(
+      prm,
+      s,
       "Depth table file",
       "",
       Anything(),
+      "",
       "Generation rate at 1 sun versus depth below the illuminated surface "
       "for the depth table model: '#' comment lines, then the header "
       "'depth_nm,generation_per_cm3_s', then rows depth in nm, G in "
@@ -716,7 +737,7 @@ namespace backcomb::fem
     dealii::ParameterHandler    &prm,
     const std::filesystem::path &base_folder)
   {
-    const std::string section = "Illumination";
+    const std::string &section = illumination_section;
     prm.enter_subsection(section);
 
     const auto resolve = [&](const std::string           &name,
@@ -745,15 +766,13 @@ namespace backcomb::fem
                        "a file is required when 'Generation model' is "
                        "'depth table'");
 
-    intensity_suns = get_nonnegative(prm, section, "Intensity");
+    intensity_suns = get(prm, section, intensity);
     side = prm.get("Illuminated side") == "substrate" ? Side::substrate :
                                                         Side::film;
-    finger_transmittance =
-      get_in_range(prm, section, "Finger transmittance", 0, 1);
-    front_reflectance = get_in_range(prm, section, "Front reflectance", 0, 1);
-    back_reflectance  = get_in_range(prm, section, "Back reflectance", 0, 1);
-    uniform_rate_per_cm3_s =
-      get_nonnegative(prm, section, "Uniform generation rate");
+    finger_transmittance   = get(prm, section, finger_transmittance_entry);
+    front_reflectance      = get(prm, section, front_reflectance_entry);
+    back_reflectance       = get(prm, section, back_reflectance_entry);
+    uniform_rate_per_cm3_s = get(prm, section, uniform_generation_rate);
     prm.leave_subsection();
   }
 

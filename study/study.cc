@@ -1080,7 +1080,11 @@ namespace backcomb::study
         for (const auto &other : plan.entries)
           if (other.path == e.path)
             throw InputError("--vary " + e.path, e.values.front(), "is given with --vary more than once");
-        e.unit = unit_from_documentation(*doc);
+        // The unit declared with the entry; the documentation's prose for
+        // entries not yet declared with one.
+        e.unit = entry_unit(e.path);
+        if (e.unit.empty())
+          e.unit = unit_from_documentation(*doc);
         plan.entries.push_back(std::move(e));
       }
 
