@@ -4,6 +4,7 @@
 #include "base/entries.h"
 #include "simulator/case_file.h"
 #include "simulator/case_run.h"
+#include "simulator/legacy_entries.h"
 #include "study/study.h"
 
 #include <deal.II/base/exceptions.h>
@@ -11,7 +12,10 @@
 
 #include <cstdio>
 #include <cstring>
+#include <filesystem>
+#include <fstream>
 #include <iostream>
+#include <sstream>
 #include <string>
 #include <vector>
 
@@ -30,6 +34,9 @@ namespace
     "  sweep CASE.prm --vary \"Section/Name=VALUES\" [--vary ...] [options]\n"
     "                           solve every case of the grid, then write\n"
     "                           sweep.csv, sweep.json, sweep.svg/.png\n"
+    "  upgrade CASE.prm         print the case file with the current section and\n"
+    "                           entry names (for a file written for an older\n"
+    "                           backcomb); comments and layout are kept\n"
     "  merge FOLDER             table, plot and recommendation from the finished\n"
     "                           cases of a sweep folder (after --task runs)\n"
     "\n"
@@ -142,6 +149,35 @@ main(int argc, char **argv)
       if (args.command == "template")
         {
           std::cout << simulator::default_case_text();
+          return exit_ok;
+        }
+      if (args.command == "upgrade")
+        {
+          if (args.case_file.empty() || !args.overrides.empty() || !args.out.empty())
+            {
+              std::fprintf(stderr, "backcomb: upgrade takes only the case file\n\n%s", usage);
+              return exit_usage;
+            }
+          std::error_code ec;
+          std::ifstream   in(args.case_file);
+          if (!std::filesystem::is_regular_file(args.case_file, ec) || !in)
+            throw InputError(args.case_file + ": not a readable case file (missing, or not a regular file)");
+          std::ostringstream text;
+          text << in.rdbuf();
+          const std::string upgraded = simulator::upgrade_case_text(text.str());
+          // Print only a file that reads: one that fails for another reason
+          // is reported as it would be by 'solve'.
+          try
+            {
+              std::istringstream check(upgraded);
+              simulator::read_case(check, args.case_file, {});
+            }
+          catch (const InputError &e)
+            {
+              throw InputError(std::string(e.what()) +
+                               " (in the case file as upgraded to the current names; nothing printed)");
+            }
+          std::cout << upgraded;
           return exit_ok;
         }
       if (args.command == "merge")

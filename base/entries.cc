@@ -36,28 +36,6 @@ namespace backcomb
   } // namespace
 
   double
-  get_positive(const dealii::ParameterHandler &prm,
-               const std::string &section,
-               const std::string &name)
-  {
-    const double v = get_finite(prm, section, name);
-    if (!(v > 0))
-      throw InputError(section + "/" + name, prm.get(name), "must be > 0");
-    return v;
-  }
-
-  double
-  get_nonnegative(const dealii::ParameterHandler &prm,
-                  const std::string &section,
-                  const std::string &name)
-  {
-    const double v = get_finite(prm, section, name);
-    if (!(v >= 0))
-      throw InputError(section + "/" + name, prm.get(name), "must be >= 0");
-    return v;
-  }
-
-  double
   get_in_range(const dealii::ParameterHandler &prm,
                const std::string &section,
                const std::string &name,
@@ -86,22 +64,6 @@ namespace backcomb
                       default_value,
                       dealii::Patterns::Anything(),
                       documentation);
-  }
-} // namespace backcomb
-
-namespace backcomb
-{
-  unsigned
-  get_whole_number(const dealii::ParameterHandler &prm,
-                   const std::string &section,
-                   const std::string &name,
-                   const unsigned lo,
-                   const unsigned hi)
-  {
-    const double v = get_in_range(prm, section, name, lo, hi);
-    if (v != std::floor(v))
-      throw InputError(section + "/" + name, prm.get(name), "must be a whole number");
-    return static_cast<unsigned>(v);
   }
 } // namespace backcomb
 
@@ -148,8 +110,11 @@ namespace backcomb
   Range::text() const
   {
     std::ostringstream s;
-    s << default_text(lo) << (lo_open ? " < " : " <= ") << "value" << (hi_open ? " < " : " <= ")
-      << default_text(hi);
+    if (std::isinf(hi))
+      s << "value" << (lo_open ? " > " : " >= ") << default_text(lo);
+    else
+      s << default_text(lo) << (lo_open ? " < " : " <= ") << "value" << (hi_open ? " < " : " <= ")
+        << default_text(hi);
     if (whole)
       s << ", a whole number";
     return s.str();
@@ -182,6 +147,52 @@ namespace backcomb
       throw InputError(full_path(section, e.name), prm.get(e.name),
                        "must satisfy " + e.range.text() + (e.unit.empty() ? "" : " (" + e.unit + ")"));
     return v;
+  }
+
+  void
+  declare(dealii::ParameterHandler &prm, const std::string &section, const NumberListEntry &e)
+  {
+    std::string doc = e.documentation;
+    if (!doc.empty() && doc.back() != '.')
+      doc += '.';
+    doc += " A comma-separated list of at most " + std::to_string(e.max_items) +
+           " numbers; empty: none." +
+           (e.unit.empty() ? std::string(" Dimensionless.") : " Unit: " + e.unit + ".") +
+           " Allowed for each: " + e.item_range.text() + ".";
+    prm.declare_entry(e.name, e.default_text, dealii::Patterns::Anything(), doc);
+    unit_registry()[full_path(section, e.name)] = e.unit;
+  }
+
+  std::vector<double>
+  get(const dealii::ParameterHandler &prm, const std::string &section, const NumberListEntry &e)
+  {
+    const std::string path = full_path(section, e.name);
+    const std::string text = prm.get(e.name);
+    std::vector<double> out;
+    if (text.find_first_not_of(" \t") == std::string::npos)
+      return out;
+    std::stringstream in(text);
+    for (std::string item; std::getline(in, item, ',');)
+      {
+        // The same number reading as for a single entry: the whole item,
+        // finite and of normal size.
+        const char *begin = item.c_str();
+        char       *end   = nullptr;
+        errno             = 0;
+        const double v    = std::strtod(begin, &end);
+        while (end != begin && (*end == ' ' || *end == '\t'))
+          ++end;
+        if (end == begin || *end != '\0' || !std::isfinite(v) || errno == ERANGE)
+          throw InputError(path, text, "expected a comma-separated list of numbers");
+        if (!e.item_range.contains(v))
+          throw InputError(path, text,
+                           "every item must satisfy " + e.item_range.text() +
+                             (e.unit.empty() ? "" : " (" + e.unit + ")"));
+        out.push_back(v);
+      }
+    if (out.size() > e.max_items)
+      throw InputError(path, text, "at most " + std::to_string(e.max_items) + " items");
+    return out;
   }
 
   void

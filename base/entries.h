@@ -11,21 +11,15 @@
 
 #include <deal.II/base/parameter_handler.h>
 
+#include <cmath>
 #include <string>
 #include <vector>
 
 namespace backcomb
 {
-  // Helpers for parse_parameters(): `prm` must be inside the section whose
-  // path is `section` (used only for messages).
-  double
-  get_positive(const dealii::ParameterHandler &prm,
-               const std::string &section,
-               const std::string &name);
-  double
-  get_nonnegative(const dealii::ParameterHandler &prm,
-                  const std::string &section,
-                  const std::string &name);
+  // The older helpers, still used by the material, contact and surface
+  // sections (being converted to the NumberEntry API below): `prm` must be
+  // inside the section whose path is `section` (used only for messages).
   // A finite double in [lo, hi].
   double
   get_in_range(const dealii::ParameterHandler &prm,
@@ -33,14 +27,6 @@ namespace backcomb
                const std::string &name,
                double lo,
                double hi);
-
-  // A whole number in [lo, hi].
-  unsigned
-  get_whole_number(const dealii::ParameterHandler &prm,
-                   const std::string &section,
-                   const std::string &name,
-                   unsigned lo,
-                   unsigned hi);
 
   // A number as the default text of a case-file entry.
   std::string
@@ -73,9 +59,12 @@ namespace backcomb
     static Range above(double lo, double hi) { return {lo, hi, true, false, false}; }  // lo < v <= hi
     static Range open(double lo, double hi) { return {lo, hi, true, true, false}; }    // lo < v < hi
     static Range whole_numbers(double lo, double hi) { return {lo, hi, false, false, true}; }
+    // No upper bound (the number must still be finite): v > lo, v >= lo.
+    static Range greater_than(double lo) { return {lo, HUGE_VAL, true, false, false}; }
+    static Range at_least(double lo) { return {lo, HUGE_VAL, false, false, false}; }
 
     bool        contains(double v) const;
-    std::string text() const; // "0 < value <= 10"
+    std::string text() const; // "0 < value <= 10", "value >= 0"
   };
 
   struct NumberEntry
@@ -97,6 +86,24 @@ namespace backcomb
   // The checked value of `e`; InputError "section/name = text: must satisfy
   // <range> (unit)" otherwise.
   double get(const dealii::ParameterHandler &prm, const std::string &section, const NumberEntry &e);
+
+  // A comma-separated list of numbers in one unit, each in `item_range`,
+  // at most `max_items` of them; the empty text is the empty list.
+  struct NumberListEntry
+  {
+    std::string name;
+    std::string default_text; // "0, 0.5"
+    std::string unit;
+    Range       item_range;
+    unsigned    max_items;
+    std::string documentation;
+  };
+
+  void declare(dealii::ParameterHandler &prm, const std::string &section, const NumberListEntry &e);
+
+  // The checked list; InputError naming the entry and its text otherwise.
+  std::vector<double> get(const dealii::ParameterHandler &prm, const std::string &section,
+                          const NumberListEntry &e);
 
   // A non-numeric entry (selection, flag, list, file name): declared with its
   // pattern, and its unit recorded (e.g. "V" for a list of biases).

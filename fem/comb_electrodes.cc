@@ -42,35 +42,50 @@ namespace backcomb::fem
            electron_contact_resistivity == 0 && hole_contact_resistivity == 0;
   }
 
+  namespace
+  {
+    // The numeric entries of section "Electrodes"; the defaults are those of
+    // ElectrodeParameters.
+    const ElectrodeParameters electrode_defaults;
+    const NumberEntry finger_length{
+      "Finger length", electrode_defaults.finger_length_mm, "mm", Range::above(0, 1000),
+      "Length of the fingers from busbar to free end. Used for the whole-cell J-V when a "
+      "resistance below is set"};
+    const NumberEntry hole_sheet_resistance_entry{
+      "Hole finger sheet resistance", electrode_defaults.hole_sheet_resistance, "ohm/sq",
+      Range::closed(0, 1e9), "Sheet resistance of the hole comb's fingers (0 = ideal conductor)"};
+    const NumberEntry electron_sheet_resistance_entry{
+      "Electron finger sheet resistance", electrode_defaults.electron_sheet_resistance, "ohm/sq",
+      Range::closed(0, 1e9),
+      "Sheet resistance of the electron comb's fingers (0 = ideal conductor)"};
+    const NumberEntry hole_contact_resistivity_entry{
+      "Hole contact resistivity", electrode_defaults.hole_contact_resistivity, "ohm cm^2",
+      Range::closed(0, 1e6),
+      "Specific contact resistivity between the film and the hole fingers (0 = none)"};
+    const NumberEntry electron_contact_resistivity_entry{
+      "Electron contact resistivity", electrode_defaults.electron_contact_resistivity,
+      "ohm cm^2", Range::closed(0, 1e6),
+      "Specific contact resistivity between the film and the electron fingers (0 = none)"};
+    const NumberEntry finger_elements_entry{
+      "Finger elements", double(electrode_defaults.finger_elements), "",
+      Range::whole_numbers(2, 100000), "Number of 1D finite elements along a finger"};
+  } // namespace
+
   void
   ElectrodeParameters::declare_parameters(dealii::ParameterHandler &prm)
   {
-    const ElectrodeParameters d;
     prm.enter_subsection(section);
-    declare_number(prm, "Finger length", default_text(d.finger_length_mm),
-                   "Length of the fingers from busbar to free end, in mm; > 0 and <= 1000. "
-                   "Used for the whole-cell J-V when a resistance below is set.");
-    declare_number(prm, "Hole finger sheet resistance", default_text(d.hole_sheet_resistance),
-                   "Sheet resistance of the hole comb's fingers in ohm/sq, >= 0 (0 = ideal "
-                   "conductor).");
-    declare_number(prm, "Electron finger sheet resistance",
-                   default_text(d.electron_sheet_resistance),
-                   "Sheet resistance of the electron comb's fingers in ohm/sq, >= 0 (0 = ideal "
-                   "conductor).");
-    declare_number(prm, "Hole contact resistivity", default_text(d.hole_contact_resistivity),
-                   "Specific contact resistivity between the film and the hole fingers in "
-                   "ohm cm^2, >= 0 (0 = none).");
-    declare_number(prm, "Electron contact resistivity",
-                   default_text(d.electron_contact_resistivity),
-                   "Specific contact resistivity between the film and the electron fingers in "
-                   "ohm cm^2, >= 0 (0 = none).");
-    prm.declare_entry("Busbar layout", "opposite ends",
-                      dealii::Patterns::Selection("opposite ends|same end"),
-                      "opposite ends: the hole busbar joins the fingers at one end and the "
-                      "electron busbar at the other (interdigitated comb); same end: both "
-                      "busbars at the same end (e.g. two metallisation levels).");
-    declare_number(prm, "Finger elements", default_text(d.finger_elements),
-                   "Number of 1D finite elements along a finger, whole number in 2..100000.");
+    declare(prm, section, finger_length);
+    declare(prm, section, hole_sheet_resistance_entry);
+    declare(prm, section, electron_sheet_resistance_entry);
+    declare(prm, section, hole_contact_resistivity_entry);
+    declare(prm, section, electron_contact_resistivity_entry);
+    declare_text(prm, section, "Busbar layout", "opposite ends",
+                 dealii::Patterns::Selection("opposite ends|same end"), "",
+                 "opposite ends: the hole busbar joins the fingers at one end and the "
+                 "electron busbar at the other (interdigitated comb); same end: both "
+                 "busbars at the same end (e.g. two metallisation levels).");
+    declare(prm, section, finger_elements_entry);
     prm.leave_subsection();
   }
 
@@ -78,18 +93,14 @@ namespace backcomb::fem
   ElectrodeParameters::parse_parameters(dealii::ParameterHandler &prm)
   {
     prm.enter_subsection(section);
-    finger_length_mm = get_in_range(prm, section, "Finger length", 0, 1000);
-    if (!(finger_length_mm > 0))
-      throw InputError(section + "/Finger length", prm.get("Finger length"), "must be > 0");
-    hole_sheet_resistance = get_in_range(prm, section, "Hole finger sheet resistance", 0, 1e9);
-    electron_sheet_resistance =
-      get_in_range(prm, section, "Electron finger sheet resistance", 0, 1e9);
-    hole_contact_resistivity = get_in_range(prm, section, "Hole contact resistivity", 0, 1e6);
-    electron_contact_resistivity =
-      get_in_range(prm, section, "Electron contact resistivity", 0, 1e6);
+    finger_length_mm             = get(prm, section, finger_length);
+    hole_sheet_resistance        = get(prm, section, hole_sheet_resistance_entry);
+    electron_sheet_resistance    = get(prm, section, electron_sheet_resistance_entry);
+    hole_contact_resistivity     = get(prm, section, hole_contact_resistivity_entry);
+    electron_contact_resistivity = get(prm, section, electron_contact_resistivity_entry);
     busbar_layout = prm.get("Busbar layout") == "same end" ? BusbarLayout::same_end
                                                            : BusbarLayout::opposite_ends;
-    finger_elements = get_whole_number(prm, section, "Finger elements", 2, 100000);
+    finger_elements = static_cast<unsigned>(get(prm, section, finger_elements_entry));
     prm.leave_subsection();
   }
 
@@ -437,7 +448,7 @@ namespace backcomb::fem
                   << " V the film voltage along the finger reaches " << law.film_voltage
                   << " V, outside the period J-V table [" << film_.min_voltage() << ", "
                   << film_.max_voltage()
-                  << "] V; extend the J-V sweep (the table must reach Voc)";
+                  << "] V; extend the J-V scan (the table must reach Voc)";
                 throw std::domain_error(s.str());
               }
             I += w * law.current;

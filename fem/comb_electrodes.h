@@ -125,7 +125,7 @@ namespace backcomb::fem
 
     // The cell at one terminal voltage, from a uniform initial guess.
     // Throws std::domain_error when the converged solution needs the period
-    // J-V outside its table (extend the J-V sweep: the table must cover the
+    // J-V outside its table (extend the J-V scan: the table must cover the
     // film voltages, which lie between the terminal voltage and Voc), and
     // std::runtime_error when Newton does not converge.
     CombOperatingPoint solve(double terminal_voltage) const;

@@ -67,23 +67,36 @@ namespace backcomb::fem
     prm.leave_subsection();
   }
 
+  namespace
+  {
+    // The entries of section "Numerics"; the defaults are those of
+    // NumericsParameters.
+    const NumericsParameters numerics_defaults;
+    const NumberEntry newton_tolerance{
+      "Newton tolerance", numerics_defaults.tolerance, "kT/q", Range::closed(1e-14, 1e-2),
+      "Converged when the largest Newton update is below this"};
+    const NumberEntry newton_iterations{
+      "Newton iterations", double(numerics_defaults.max_iterations), "",
+      Range::whole_numbers(1, 1000), "Largest number of Newton steps per operating point"};
+    const NumberEntry update_limit{
+      "Update limit", numerics_defaults.max_update, "kT/q", Range::closed(0.1, 100),
+      "Largest change of any potential per Newton step"};
+    const NumberEntry step_halvings{
+      "Step halvings", double(numerics_defaults.max_halvings), "", Range::whole_numbers(0, 30),
+      "How often a continuation step (light or bias) may be halved before the operating "
+      "point is reported as failed"};
+    const NumberEntry quadrature_points{
+      "Quadrature points", double(numerics_defaults.quadrature), "", Range::whole_numbers(2, 5),
+      "Gauss points per cell direction"};
+  } // namespace
+
   void
   NumericsParameters::declare_parameters(dealii::ParameterHandler &prm)
   {
-    const NumericsParameters d;
     prm.enter_subsection("Numerics");
-    declare_number(prm, "Newton tolerance", default_text(d.tolerance),
-                   "Converged when the largest Newton update is below this, in units "
-                   "of kT/q; 1e-14..1e-2.");
-    declare_number(prm, "Newton iterations", default_text(d.max_iterations),
-                   "Largest number of Newton steps per operating point, 1..1000.");
-    declare_number(prm, "Update limit", default_text(d.max_update),
-                   "Largest change of any potential per Newton step, in kT/q; 0.1..100.");
-    declare_number(prm, "Step halvings", default_text(d.max_halvings),
-                   "How often a continuation step (light or bias) may be halved "
-                   "before the operating point is reported as failed; 0..30.");
-    declare_number(prm, "Quadrature points", default_text(d.quadrature),
-                   "Gauss points per cell direction, 2..5.");
+    for (const NumberEntry *e :
+         {&newton_tolerance, &newton_iterations, &update_limit, &step_halvings, &quadrature_points})
+      declare(prm, "Numerics", *e);
     prm.leave_subsection();
   }
 
@@ -91,11 +104,11 @@ namespace backcomb::fem
   NumericsParameters::parse_parameters(dealii::ParameterHandler &prm)
   {
     prm.enter_subsection("Numerics");
-    tolerance      = get_in_range(prm, "Numerics", "Newton tolerance", 1e-14, 1e-2);
-    max_iterations = get_whole_number(prm, "Numerics", "Newton iterations", 1, 1000);
-    max_update     = get_in_range(prm, "Numerics", "Update limit", 0.1, 100);
-    max_halvings   = get_whole_number(prm, "Numerics", "Step halvings", 0, 30);
-    quadrature     = get_whole_number(prm, "Numerics", "Quadrature points", 2, 5);
+    tolerance      = get(prm, "Numerics", newton_tolerance);
+    max_iterations = static_cast<unsigned>(get(prm, "Numerics", newton_iterations));
+    max_update     = get(prm, "Numerics", update_limit);
+    max_halvings   = static_cast<unsigned>(get(prm, "Numerics", step_halvings));
+    quadrature     = static_cast<unsigned>(get(prm, "Numerics", quadrature_points));
     prm.leave_subsection();
   }
 

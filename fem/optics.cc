@@ -651,34 +651,39 @@ namespace backcomb::fem
                              "absorber-nk-mapi.yml")
   {}
 
+  namespace
+  {
+    const std::string illumination_section = "Illumination";
+
+    // The numeric entries of section "Illumination", each described once.
+    const NumberEntry intensity{
+      "Intensity", 1, "suns", Range::at_least(0),
+      "Illumination intensity (1 sun = the spectrum as given, about "
+      "100 mW/cm^2; 0 = dark)"};
+    const NumberEntry finger_transmittance_entry{
+      "Finger transmittance", 0.85, "", Range::closed(0, 1),
+      "Fraction of the light transmitted through the fingers when lit "
+      "through the substrate"};
+  } // namespace
+
   void
   IlluminationParameters::declare_parameters(dealii::ParameterHandler &prm)
   {
     using dealii::Patterns::Selection;
     const auto                  &models = generation_models();
     const IlluminationParameters defaults;
-    std::string                  doc = "How the generation rate in the absorber is obtained.";
+    const std::string           &s      = illumination_section;
+    std::string                  doc    = "How the generation rate in the absorber is obtained.";
     for (const std::string &name : models.names())
       doc += " " + models.create(name)->description();
     doc += " All are scaled by 'Intensity'.";
-    prm.enter_subsection("Illumination");
-    prm.declare_entry("Generation model", defaults.model, Selection(models.selection()), doc);
-    declare_number(prm,
-                   "Intensity",
-                   "1",
-                   "Illumination intensity in suns (>= 0; 1 sun = the "
-                   "spectrum as given, about 100 mW/cm^2; 0 = dark).");
-    prm.declare_entry("Illuminated side",
-                      "film",
-                      Selection("film|substrate"),
-                      "Where the light enters: 'film' = through the free top "
-                      "surface of the absorber; 'substrate' = through the "
-                      "substrate and the electrode fingers.");
-    declare_number(prm,
-                   "Finger transmittance",
-                   "0.85",
-                   "Fraction of the light transmitted through the fingers "
-                   "when lit through the substrate (dimensionless, 0..1).");
+    prm.enter_subsection(s);
+    declare_text(prm, s, "Generation model", defaults.model, Selection(models.selection()), "", doc);
+    declare(prm, s, intensity);
+    declare_text(prm, s, "Illuminated side", "film", Selection("film|substrate"), "",
+                 "Where the light enters: 'film' = through the free top surface of the absorber; "
+                 "'substrate' = through the substrate and the electrode fingers.");
+    declare(prm, s, finger_transmittance_entry);
     // Every model's own entries (files, rates, reflectances).
     for (const std::string &name : models.names())
       models.create(name)->declare_parameters(prm, defaults);
@@ -690,19 +695,17 @@ namespace backcomb::fem
     dealii::ParameterHandler    &prm,
     const std::filesystem::path &base_folder)
   {
-    const std::string section = "Illumination";
-    const auto       &models  = generation_models();
+    const std::string &section = illumination_section;
+    const auto        &models  = generation_models();
     prm.enter_subsection(section);
     model = prm.get("Generation model");
     // Every model's entries are read and checked, also those of the models
     // not chosen; the chosen one may require more.
     for (const std::string &name : models.names())
       models.create(name)->parse_parameters(prm, base_folder, name == model, *this);
-    intensity_suns = get_nonnegative(prm, section, "Intensity");
-    side = prm.get("Illuminated side") == "substrate" ? Side::substrate :
-                                                        Side::film;
-    finger_transmittance =
-      get_in_range(prm, section, "Finger transmittance", 0, 1);
+    intensity_suns = get(prm, section, intensity);
+    side = prm.get("Illuminated side") == "substrate" ? Side::substrate : Side::film;
+    finger_transmittance = get(prm, section, finger_transmittance_entry);
     prm.leave_subsection();
   }
 

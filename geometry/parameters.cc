@@ -26,79 +26,83 @@ namespace backcomb::geometry
     }
   } // namespace
 
+  namespace
+  {
+    // The numeric entries of section "Geometry", each described once: the
+    // declaration (and so `backcomb template`) and the check in
+    // parse_parameters() both come from these.
+    const NumberEntry electron_finger_width{
+      "Electron finger width", 10, "um", Range::greater_than(0),
+      "Full width of an electron-selective finger"};
+    const NumberEntry hole_finger_width{
+      "Hole finger width", 10, "um", Range::greater_than(0),
+      "Full width of a hole-selective finger"};
+    const NumberEntry gap{
+      "Gap", 20, "um", Range::greater_than(0),
+      "Distance between neighbouring electron and hole fingers"};
+    const NumberEntry absorber_thickness{
+      "Absorber thickness", 0.4, "um", Range::greater_than(0),
+      "Film thickness from the substrate to the top surface"};
+    const NumberEntry electron_interlayer{
+      "Electron interlayer thickness", 0, "nm", Range::at_least(0),
+      "Thickness of the electron transport layer over the electron fingers; "
+      "below the absorber thickness (0 = no interlayer; comb period only)"};
+    const NumberEntry hole_interlayer{
+      "Hole interlayer thickness", 0, "nm", Range::at_least(0),
+      "Thickness of the hole transport layer over the hole fingers; below the "
+      "absorber thickness (0 = no interlayer; comb period only)"};
+    const NumberEntry strip_length{
+      "Strip length", 10, "um", Range::greater_than(0),
+      "Length of the test strip between its two end contacts (test strip only)"};
+    const NumberEntry junction_position{
+      "Junction position", 0, "um", Range::at_least(0),
+      "Distance of the junction from the left end of the test strip; below "
+      "the strip length (0 = one region; test strip only)"};
+  } // namespace
+
   void
   GeometryParameters::declare_parameters(dealii::ParameterHandler &prm)
   {
-    prm.enter_subsection(geometry_section);
-    prm.declare_entry("Layout",
-                      "comb period",
-                      dealii::Patterns::Selection("comb period|test strip"),
-                      "Simulated cross-section: 'comb period' is one "
-                      "symmetric electrode period (centre of an electron "
-                      "finger to centre of a hole finger); 'test strip' is "
-                      "a rectangle with the electron contact at its left "
-                      "end and the hole contact at its right end.");
-    declare_number(prm,
-                   "Electron finger width",
-                   "10",
-                   "Full width of an electron-selective finger, in um; "
-                   "> 0.");
-    declare_number(prm,
-                   "Hole finger width",
-                   "10",
-                   "Full width of a hole-selective finger, in um; > 0.");
-    declare_number(prm,
-                   "Gap",
-                   "20",
-                   "Distance between neighbouring electron and hole "
-                   "fingers, in um; > 0.");
-    declare_number(prm,
-                   "Absorber thickness",
-                   "0.4",
-                   "Film thickness from the substrate to the top surface, "
-                   "in um; > 0.");
-    declare_number(prm,
-                   "Electron interlayer thickness",
-                   "0",
-                   "Thickness of the electron transport layer over the "
-                   "electron fingers, in nm; >= 0 and below the absorber "
-                   "thickness (0 = no interlayer; comb period only).");
-    declare_number(prm,
-                   "Hole interlayer thickness",
-                   "0",
-                   "Thickness of the hole transport layer over the hole "
-                   "fingers, in nm; >= 0 and below the absorber thickness "
-                   "(0 = no interlayer; comb period only).");
-    declare_number(prm,
-                   "Strip length",
-                   "10",
-                   "Length of the test strip between its two end contacts, "
-                   "in um; > 0 (test strip only).");
-    declare_number(prm,
-                   "Junction position",
-                   "0",
-                   "Distance of the junction from the left end of the test "
-                   "strip, in um; >= 0 and below the strip length (0 = one "
-                   "region; test strip only).");
+    const std::string &s = geometry_section;
+    prm.enter_subsection(s);
+    declare_text(prm,
+                 s,
+                 "Layout",
+                 "comb period",
+                 dealii::Patterns::Selection("comb period|test strip"),
+                 "",
+                 "Simulated cross-section: 'comb period' is one symmetric "
+                 "electrode period (centre of an electron finger to centre of "
+                 "a hole finger); 'test strip' is a rectangle with the "
+                 "electron contact at its left end and the hole contact at "
+                 "its right end.");
+    for (const NumberEntry *e : {&electron_finger_width,
+                                 &hole_finger_width,
+                                 &gap,
+                                 &absorber_thickness,
+                                 &electron_interlayer,
+                                 &hole_interlayer,
+                                 &strip_length,
+                                 &junction_position})
+      declare(prm, s, *e);
     prm.leave_subsection();
   }
 
   void
   GeometryParameters::parse_parameters(dealii::ParameterHandler &prm)
   {
-    prm.enter_subsection(geometry_section);
     const std::string &s = geometry_section;
+    prm.enter_subsection(s);
     layout = prm.get("Layout") == "test strip" ? Layout::test_strip :
                                                  Layout::comb_period;
-    electron_finger_width_um = get_positive(prm, s, "Electron finger width");
-    hole_finger_width_um     = get_positive(prm, s, "Hole finger width");
-    gap_um                   = get_positive(prm, s, "Gap");
-    absorber_thickness_um    = get_positive(prm, s, "Absorber thickness");
-    electron_interlayer_nm =
-      get_nonnegative(prm, s, "Electron interlayer thickness");
-    hole_interlayer_nm = get_nonnegative(prm, s, "Hole interlayer thickness");
-    strip_length_um    = get_positive(prm, s, "Strip length");
-    junction_position_um = get_nonnegative(prm, s, "Junction position");
+    electron_finger_width_um = get(prm, s, electron_finger_width);
+    hole_finger_width_um     = get(prm, s, hole_finger_width);
+    gap_um                   = get(prm, s, gap);
+    absorber_thickness_um    = get(prm, s, absorber_thickness);
+    electron_interlayer_nm   = get(prm, s, electron_interlayer);
+    hole_interlayer_nm       = get(prm, s, hole_interlayer);
+    strip_length_um          = get(prm, s, strip_length);
+    junction_position_um     = get(prm, s, junction_position);
     prm.leave_subsection();
     validate();
   }
@@ -142,47 +146,47 @@ namespace backcomb::geometry
     return electron_finger_width_um / 2 + gap_um + hole_finger_width_um / 2;
   }
 
+  namespace
+  {
+    // The entries of section "Mesh".
+    const NumberEntry smallest_cell{
+      "Smallest cell", 2, "nm", Range::greater_than(0),
+      "Size of the cells at the finger edges and at the bottom contacts (in "
+      "both directions); no larger than the gap, the absorber thickness and "
+      "half a finger width"};
+    const NumberEntry growth_ratio_entry{
+      "Growth ratio", 1.25, "", Range::above(1, 3),
+      "Largest size ratio of neighbouring cells"};
+    const NumberEntry largest_lateral_cell{
+      "Largest lateral cell", 2, "um", Range::greater_than(0),
+      "Largest cell size along the substrate; no smaller than the smallest "
+      "cell"};
+    const NumberEntry largest_vertical_cell{
+      "Largest vertical cell", 20, "nm", Range::greater_than(0),
+      "Largest cell size across the film; no smaller than the smallest cell"};
+  } // namespace
+
   void
   MeshParameters::declare_parameters(dealii::ParameterHandler &prm)
   {
     prm.enter_subsection(mesh_section);
-    declare_number(prm,
-                   "Smallest cell",
-                   "2",
-                   "Size of the cells at the finger edges and at the "
-                   "bottom contacts (in both directions), in nm; > 0 and "
-                   "no larger than the gap, the absorber thickness and "
-                   "half a finger width.");
-    declare_number(prm,
-                   "Growth ratio",
-                   "1.25",
-                   "Largest size ratio of neighbouring cells; in (1, 3].");
-    declare_number(prm,
-                   "Largest lateral cell",
-                   "2",
-                   "Largest cell size along the substrate, in um; > 0 and "
-                   "no smaller than the smallest cell.");
-    declare_number(prm,
-                   "Largest vertical cell",
-                   "20",
-                   "Largest cell size across the film, in nm; > 0 and no "
-                   "smaller than the smallest cell.");
+    for (const NumberEntry *e : {&smallest_cell,
+                                 &growth_ratio_entry,
+                                 &largest_lateral_cell,
+                                 &largest_vertical_cell})
+      declare(prm, mesh_section, *e);
     prm.leave_subsection();
   }
 
   void
   MeshParameters::parse_parameters(dealii::ParameterHandler &prm)
   {
-    prm.enter_subsection(mesh_section);
     const std::string &s = mesh_section;
-    smallest_cell_nm     = get_positive(prm, s, "Smallest cell");
-    growth_ratio         = get_in_range(prm, s, "Growth ratio", 1, 3);
-    if (growth_ratio == 1)
-      throw InputError(path(s, "Growth ratio"),
-                       prm.get("Growth ratio"),
-                       "must be larger than 1");
-    largest_lateral_cell_um  = get_positive(prm, s, "Largest lateral cell");
-    largest_vertical_cell_nm = get_positive(prm, s, "Largest vertical cell");
+    prm.enter_subsection(s);
+    smallest_cell_nm         = get(prm, s, smallest_cell);
+    growth_ratio             = get(prm, s, growth_ratio_entry);
+    largest_lateral_cell_um  = get(prm, s, largest_lateral_cell);
+    largest_vertical_cell_nm = get(prm, s, largest_vertical_cell);
     prm.leave_subsection();
     validate();
   }

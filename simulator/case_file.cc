@@ -1,6 +1,7 @@
 #include "simulator/case_file.h"
 
 #include "base/entries.h"
+#include "simulator/legacy_entries.h"
 
 #include <cctype>
 #include <cmath>
@@ -38,24 +39,6 @@ namespace backcomb::simulator
       c.S_n           = electron ? 1e7 : 10;
       c.S_p           = electron ? 10 : 1e7;
       return c;
-    }
-
-    std::vector<double>
-    parse_list(const std::string &entry, const std::string &text)
-    {
-      std::vector<double> out;
-      std::stringstream   in(text);
-      std::string         item;
-      while (std::getline(in, item, ','))
-        {
-          std::istringstream s(item);
-          double             v;
-          std::string        rest;
-          if (!(s >> v) || (s >> rest) || !std::isfinite(v))
-            throw InputError(entry, text, "expected a comma-separated list of numbers");
-          out.push_back(v);
-        }
-      return out;
     }
 
     // Line of "set <name>" inside the section path of `file`, or 0.
@@ -213,6 +196,48 @@ namespace backcomb::simulator
     }
   } // namespace
 
+  namespace
+  {
+    // The entries of sections "Device", "J-V scan" and "Output", each
+    // described once; declare_case() declares them and read_case() checks
+    // them against the same ranges.
+    const DeviceSettings device_defaults;
+    const JVSettings     jv_defaults;
+    const OutputSettings output_defaults;
+
+    const NumberEntry temperature{"Temperature", device_defaults.temperature, "K",
+                                  Range::closed(100, 1000), "Device temperature"};
+
+    // Biases are applied to the hole comb against the electron comb.
+    const Range       bias_range = Range::closed(-5, 5);
+    const NumberEntry start_voltage{"Start voltage", jv_defaults.start, "V", bias_range,
+                                    "First bias of the scan (hole comb against electron comb)"};
+    const NumberEntry stop_voltage{"Stop voltage", jv_defaults.stop, "V", bias_range,
+                                   "Last bias of the scan; larger than the start voltage"};
+    const NumberEntry voltage_step{"Voltage step", jv_defaults.step, "V", Range::closed(1e-4, 1),
+                                   "Bias step of the scan (at most 20000 biases)"};
+    const NumberEntry mpp_resolution{
+      "Maximum power point resolution", jv_defaults.refine_to, "V", Range::closed(1e-5, 1),
+      "Bias step to which the scan is refined around the maximum power point"};
+    const NumberListEntry suns_voc_intensities{
+      "Suns-Voc intensities", "1, 0.3, 0.1, 0.03, 0.01, 0.003, 0.001", "",
+      Range::above(0, 1), 50,
+      "Light levels, as fractions of the Illumination intensity, at which the open-circuit "
+      "voltage is found for the suns-Voc pseudo J-V and the series resistance"};
+
+    const NumberEntry dead_zone_threshold{
+      "Dead zone threshold", output_defaults.dead_zone_threshold, "", Range::open(0, 1),
+      "Collection probability below which absorber is counted as dead zone (at short "
+      "circuit)"};
+    const NumberListEntry field_biases{
+      "Field biases", "0", "V", bias_range, 1000,
+      "Biases at which the fields are written; each within the J-V scan"};
+    const NumberListEntry power_balance_biases{
+      "Power balance biases", "", "V", bias_range, 1000,
+      "Biases (within the J-V scan) at which the power balance is reported besides short "
+      "circuit, maximum power point and open circuit"};
+  } // namespace
+
   void
   declare_case(dealii::ParameterHandler &prm)
   {
@@ -229,46 +254,39 @@ namespace backcomb::simulator
     fem::NumericsParameters::declare_parameters(prm);
     fem::ElectrodeParameters::declare_parameters(prm);
 
+    using dealii::Patterns::Anything;
+    using dealii::Patterns::Bool;
+    using dealii::Patterns::Selection;
+
     prm.enter_subsection("Device");
-    declare_number(prm, "Temperature", "300", "Device temperature in K, 100..1000.");
-    prm.declare_entry("Active area", "gap", dealii::Patterns::Selection("gap|period"),
-                      "Width counted as active for the per-active-area metrics: the gap "
-                      "between the fingers, or the whole period (= footprint).");
+    declare(prm, "Device", temperature);
+    declare_text(prm, "Device", "Active area", "gap", Selection("gap|period"), "",
+                 "Width counted as active for the per-active-area metrics: the gap "
+                 "between the fingers, or the whole period (= footprint).");
     prm.leave_subsection();
 
-    prm.enter_subsection("J-V sweep");
-    declare_number(prm, "Start voltage", "-0.1", "First bias in V (hole comb against electron comb), -5..5.");
-    declare_number(prm, "Stop voltage", "1.3", "Last bias in V, > Start voltage, -5..5.");
-    declare_number(prm, "Voltage step", "0.02", "Bias step in V, 1e-4..1.");
-    prm.declare_entry("Direction", "forward", dealii::Patterns::Selection("forward|reverse"),
-                      "forward: from Start to Stop voltage; reverse: from Stop to Start.");
-    prm.declare_entry("Dark sweep", "true", dealii::Patterns::Bool(),
-                      "Also compute the dark J-V over the same biases.");
-    declare_number(prm, "Maximum power point resolution", "0.002",
-                   "Bias step in V to which the sweep is refined around the maximum power "
-                   "point, 1e-5..1.");
-    prm.declare_entry("Suns-Voc intensities", "1, 0.3, 0.1, 0.03, 0.01, 0.003, 0.001", dealii::Patterns::Anything(),
-                      "Comma-separated light levels, as fractions of the Illumination "
-                      "intensity in (0, 1], at which the open-circuit voltage is found for "
-                      "the suns-Voc pseudo J-V and the series resistance; empty: none.");
+    const std::string jv = "J-V scan";
+    prm.enter_subsection(jv);
+    declare(prm, jv, start_voltage);
+    declare(prm, jv, stop_voltage);
+    declare(prm, jv, voltage_step);
+    declare_text(prm, jv, "Direction", "forward", Selection("forward|reverse"), "",
+                 "forward: from Start to Stop voltage; reverse: from Stop to Start.");
+    declare_text(prm, jv, "Dark scan", "true", Bool(), "",
+                 "Also compute the dark J-V over the same biases.");
+    declare(prm, jv, mpp_resolution);
+    declare(prm, jv, suns_voc_intensities);
     prm.leave_subsection();
 
     prm.enter_subsection("Output");
-    prm.declare_entry("Folder", "backcomb-out", dealii::Patterns::Anything(),
-                      "Folder for the results (created if missing), relative to the "
-                      "working directory.");
-    prm.declare_entry("Write fields", "true", dealii::Patterns::Bool(),
-                      "Write the VTK fields at the field biases.");
-    prm.declare_entry("Field biases", "0", dealii::Patterns::Anything(),
-                      "Comma-separated biases in V at which the fields are written "
-                      "(each must lie within the J-V sweep).");
-    declare_number(prm, "Dead zone threshold", "0.5",
-                   "Collection probability below which absorber is counted as dead "
-                   "zone (at short circuit), 0..1 exclusive.");
-    prm.declare_entry("Loss biases", "", dealii::Patterns::Anything(),
-                      "Comma-separated biases in V (within the J-V sweep) at which the power "
-                      "balance is reported besides short circuit, maximum power point and "
-                      "open circuit; empty: none.");
+    declare_text(prm, "Output", "Folder", output_defaults.folder, Anything(), "",
+                 "Folder for the results (created if missing), relative to the working "
+                 "directory; not empty.");
+    declare_text(prm, "Output", "Write fields", "true", Bool(), "",
+                 "Write the VTK fields at the field biases.");
+    declare(prm, "Output", field_biases);
+    declare(prm, "Output", dead_zone_threshold);
+    declare(prm, "Output", power_balance_biases);
     prm.leave_subsection();
   }
 
@@ -279,7 +297,7 @@ namespace backcomb::simulator
     declare_case(prm);
     std::ostringstream out;
     out << "# backcomb case file: all entries with their defaults.\n"
-        << "# Units are stated in each entry's documentation.\n";
+        << "# Each entry's documentation ends with its unit and allowed range.\n";
     prm.print_parameters(out, dealii::ParameterHandler::PRM);
     return out.str();
   }
@@ -318,6 +336,9 @@ namespace backcomb::simulator
       c.echo = s.str();
     }
     refuse_include(c.echo, file);
+    // A case file written for an older backcomb: say what each old name is
+    // called now, before deal.II reports it as unknown.
+    refuse_old_names(c.echo, file);
     dealii::ParameterHandler prm;
     declare_case(prm);
     try
@@ -343,6 +364,7 @@ namespace backcomb::simulator
     for (const auto &o : overrides)
       {
         const auto [path, value] = split_override(o);
+        refuse_old_override(path, value);
         if (!seen.insert(path).second)
           throw InputError("--set " + path, value, "given more than once");
         std::vector<std::string> parts;
@@ -385,31 +407,25 @@ namespace backcomb::simulator
         c.electrodes.parse_parameters(prm);
 
         prm.enter_subsection("Device");
-        c.device.temperature = get_in_range(prm, "Device", "Temperature", 100, 1000);
+        c.device.temperature = get(prm, "Device", temperature);
         c.device.active_area = prm.get("Active area") == "period" ? DeviceSettings::ActiveArea::period
                                                                    : DeviceSettings::ActiveArea::gap;
         prm.leave_subsection();
 
-        prm.enter_subsection("J-V sweep");
-        c.jv.start     = get_in_range(prm, "J-V sweep", "Start voltage", -5, 5);
-        c.jv.stop      = get_in_range(prm, "J-V sweep", "Stop voltage", -5, 5);
-        c.jv.step      = get_in_range(prm, "J-V sweep", "Voltage step", 1e-4, 1);
+        const std::string jv = "J-V scan";
+        prm.enter_subsection(jv);
+        c.jv.start     = get(prm, jv, start_voltage);
+        c.jv.stop      = get(prm, jv, stop_voltage);
+        c.jv.step      = get(prm, jv, voltage_step);
         c.jv.reverse   = prm.get("Direction") == "reverse";
-        c.jv.dark      = prm.get_bool("Dark sweep");
-        c.jv.refine_to = get_in_range(prm, "J-V sweep", "Maximum power point resolution", 1e-5, 1);
+        c.jv.dark      = prm.get_bool("Dark scan");
+        c.jv.refine_to = get(prm, jv, mpp_resolution);
         if (!(c.jv.stop > c.jv.start))
-          throw InputError("J-V sweep/Stop voltage", prm.get("Stop voltage"),
+          throw InputError(jv + "/Stop voltage", prm.get("Stop voltage"),
                            "must be larger than Start voltage = " + prm.get("Start voltage"));
-        c.jv.suns_voc = parse_list("J-V sweep/Suns-Voc intensities", prm.get("Suns-Voc intensities"));
-        for (const double v : c.jv.suns_voc)
-          if (!(v > 0 && v <= 1))
-            throw InputError("J-V sweep/Suns-Voc intensities", prm.get("Suns-Voc intensities"),
-                             "every light level must lie in (0, 1]");
-        if (c.jv.suns_voc.size() > 50)
-          throw InputError("J-V sweep/Suns-Voc intensities", prm.get("Suns-Voc intensities"),
-                           "at most 50 light levels");
+        c.jv.suns_voc = get(prm, jv, suns_voc_intensities);
         if ((c.jv.stop - c.jv.start) / c.jv.step > 20000)
-          throw InputError("J-V sweep/Voltage step", prm.get("Voltage step"),
+          throw InputError(jv + "/Voltage step", prm.get("Voltage step"),
                            "gives more than 20000 biases");
         prm.leave_subsection();
 
@@ -417,18 +433,18 @@ namespace backcomb::simulator
         c.output.folder = prm.get("Folder");
         if (c.output.folder.empty())
           throw InputError("Output/Folder", "", "must not be empty");
-        c.output.fields       = prm.get_bool("Write fields");
-        c.output.dead_zone_threshold = get_in_range(prm, "Output", "Dead zone threshold", 1e-6, 1 - 1e-6);
-        c.output.field_biases = parse_list("Output/Field biases", prm.get("Field biases"));
-        for (const double v : c.output.field_biases)
-          if (v < c.jv.start - 1e-12 || v > c.jv.stop + 1e-12)
-            throw InputError("Output/Field biases", prm.get("Field biases"),
-                             "every bias must lie within the J-V sweep [Start, Stop voltage]");
-        c.output.loss_biases = parse_list("Output/Loss biases", prm.get("Loss biases"));
-        for (const double v : c.output.loss_biases)
-          if (v < c.jv.start - 1e-12 || v > c.jv.stop + 1e-12)
-            throw InputError("Output/Loss biases", prm.get("Loss biases"),
-                             "every bias must lie within the J-V sweep [Start, Stop voltage]");
+        c.output.fields              = prm.get_bool("Write fields");
+        c.output.dead_zone_threshold = get(prm, "Output", dead_zone_threshold);
+        c.output.field_biases        = get(prm, "Output", field_biases);
+        c.output.loss_biases         = get(prm, "Output", power_balance_biases);
+        const auto check_within_scan = [&](const NumberListEntry &e, const std::vector<double> &biases) {
+          for (const double v : biases)
+            if (v < c.jv.start - 1e-12 || v > c.jv.stop + 1e-12)
+              throw InputError("Output/" + e.name, prm.get(e.name),
+                               "every bias must lie within the J-V scan [Start, Stop voltage]");
+        };
+        check_within_scan(field_biases, c.output.field_biases);
+        check_within_scan(power_balance_biases, c.output.loss_biases);
         prm.leave_subsection();
 
         // Contradictions between sections.

@@ -26,11 +26,11 @@ namespace backcomb::simulator
     enum class ActiveArea { gap, period } active_area = ActiveArea::gap;
   };
 
-  // Section "J-V sweep".
+  // Section "J-V scan": the bias scan of one J-V curve.
   struct JVSettings
   {
     double start = -0.1, stop = 1.3, step = 0.02; // V
-    bool   reverse      = false;  // sweep from stop to start
+    bool   reverse      = false;  // scan from stop to start
     bool   dark         = true;   // also a dark J-V
     double refine_to    = 0.002;  // V, step near the maximum power point
     // Light factors (of the case's intensity) at which V_oc is found for
@@ -45,7 +45,7 @@ namespace backcomb::simulator
     bool                fields = true;
     std::vector<double> field_biases{0.0}; // V at which fields are written
     double              dead_zone_threshold = 0.5; // f_c below this is dead
-    std::vector<double> loss_biases;       // V, power balance besides SC, MPP, OC
+    std::vector<double> loss_biases;       // V, "Power balance biases": besides SC, MPP, OC
   };
 
   struct Case

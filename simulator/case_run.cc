@@ -639,8 +639,8 @@ namespace backcomb::simulator
       {
         light.failures.push_back(std::string("comb cell and series resistance: ") + e.what() +
                                  (dynamic_cast<const std::domain_error *>(&e)
-                                    ? " (extend J-V sweep/Suns-Voc intensities to lower light, or the J-V "
-                                      "sweep to higher voltage)"
+                                    ? " (extend J-V scan/Suns-Voc intensities to lower light, or the J-V "
+                                      "scan to higher voltage)"
                                     : ""));
         if (status == Status::converged)
           status = Status::partial;

@@ -24,7 +24,7 @@ main(int argc, char **argv)
   const auto        out  = std::filesystem::temp_directory_path() / "backcomb-benchmark";
   std::filesystem::remove_all(out);
   const backcomb::simulator::Case c = backcomb::simulator::read_case(
-    demo, {"Geometry/Gap=50", "J-V sweep/Dark sweep=false", "J-V sweep/Voltage step=0.04",
+    demo, {"Geometry/Gap=50", "J-V scan/Dark scan=false", "J-V scan/Voltage step=0.04",
            "Output/Write fields=false"});
   backcomb::simulator::RunOptions o;
   o.folder       = out.string();

@@ -37,8 +37,8 @@ TEMPORARY = re.compile(r"\.tmp")
 
 # The solve case: the tiny sweep case with a dark J-V, fields and finer
 # bias steps, so that a run writes every kind of file and spends most of
-# its time in the J-V sweeps (where a kill must be resumable).
-SOLVE_SETS = ["J-V sweep/Dark sweep=true", "Output/Write fields=true", "Output/Field biases=0,0.6"]
+# its time in the J-V scans (where a kill must be resumable).
+SOLVE_SETS = ["J-V scan/Dark scan=true", "Output/Write fields=true", "Output/Field biases=0,0.6"]
 SWEEP_VARY = ["--vary", "Geometry/Strip length=0.5,1"]
 
 

@@ -122,7 +122,7 @@ TEST(Checkpoint, ResumedRunEqualsUninterruptedRun)
 {
   const fs::path dir = fresh_folder("resume");
   const simulator::Case c =
-    simulator::read_case(tiny_case, {"J-V sweep/Dark sweep=true", "J-V sweep/Voltage step=0.05"});
+    simulator::read_case(tiny_case, {"J-V scan/Dark scan=true", "J-V scan/Voltage step=0.05"});
   ASSERT_EQ(solve(c, dir / "reference"), 0);
   EXPECT_FALSE(fs::exists(dir / "reference" / "checkpoint"));
   const nlohmann::json ref = read_json(dir / "reference" / "summary.json");
@@ -202,7 +202,7 @@ TEST(Faults, FailedPointCutsTheCurve)
   const fs::path          dir = fresh_folder("cut");
   const simulator::Case c   = simulator::read_case(
     tiny_case, {"Numerics/Step halvings=0", "Numerics/Update limit=1", "Numerics/Newton iterations=34",
-                "J-V sweep/Voltage step=1", "J-V sweep/Start voltage=-0.2"});
+                "J-V scan/Voltage step=1", "J-V scan/Start voltage=-0.2"});
   EXPECT_EQ(solve(c, dir), 3);
   const nlohmann::json s = read_json(dir / "summary.json");
   EXPECT_EQ(s["status"], "failed");

@@ -170,11 +170,11 @@ namespace
   run_demo(const double gap_um, const fs::path &folder, const bool suns_voc)
   {
     const std::string demo = std::string(BACKCOMB_SOURCE_DIR) + "/cases/demo.prm";
-    std::vector<std::string> o = {"Geometry/Gap=" + std::to_string(gap_um), "J-V sweep/Dark sweep=false",
-                                  "J-V sweep/Start voltage=0", "J-V sweep/Voltage step=0.05",
+    std::vector<std::string> o = {"Geometry/Gap=" + std::to_string(gap_um), "J-V scan/Dark scan=false",
+                                  "J-V scan/Start voltage=0", "J-V scan/Voltage step=0.05",
                                   "Output/Write fields=false", "Output/Field biases=0"};
     if (!suns_voc)
-      o.push_back("J-V sweep/Suns-Voc intensities=");
+      o.push_back("J-V scan/Suns-Voc intensities=");
     const simulator::Case c = simulator::read_case(demo, o);
     simulator::RunOptions opt;
     opt.folder = folder.string();

@@ -108,11 +108,11 @@ subsection Illumination
   set Generation model = uniform
   set Uniform generation rate = 1e21
 end
-subsection J-V sweep
+subsection J-V scan
   set Start voltage = 0
   set Stop voltage = 1.2
   set Voltage step = 0.05
-  set Dark sweep = false
+  set Dark scan = false
 end
 )");
   const simulator::Case c = simulator::read_case(file, {});
@@ -141,8 +141,8 @@ TEST(Pipeline, DemoIsMeshIndependent)
 {
   const fs::path dir = fresh_folder("mesh-independence");
   const std::string demo = std::string(BACKCOMB_SOURCE_DIR) + "/cases/demo.prm";
-  const std::vector<std::string> common{"Geometry/Gap=5", "J-V sweep/Dark sweep=false",
-                                        "J-V sweep/Start voltage=0", "J-V sweep/Voltage step=0.05",
+  const std::vector<std::string> common{"Geometry/Gap=5", "J-V scan/Dark scan=false",
+                                        "J-V scan/Start voltage=0", "J-V scan/Voltage step=0.05",
                                         "Output/Write fields=false", "Output/Field biases=0"};
   nlohmann::json result[2];
   for (int k = 0; k < 2; ++k)

@@ -7,7 +7,7 @@ namespace backcomb::fem
 {
   namespace
   {
-    const NumberEntry uniform_rate{"Uniform generation rate", 1e21, "cm^-3 s^-1", Range::closed(0.0, 1e300),
+    const NumberEntry uniform_rate{"Uniform generation rate", 1e21, "cm^-3 s^-1", Range::at_least(0.0),
                                    "Generation rate at 1 sun for the uniform model, in cm^-3 s^-1"};
   } // namespace
 
