@@ -1,5 +1,7 @@
 #include "base/entries.h"
 
+#include "base/format.h"
+
 #include <cerrno>
 #include <cmath>
 #include <cstdlib>
@@ -35,36 +37,6 @@ namespace backcomb
     }
   } // namespace
 
-  double
-  get_in_range(const dealii::ParameterHandler &prm,
-               const std::string &section,
-               const std::string &name,
-               const double lo,
-               const double hi)
-  {
-    const double v = get_finite(prm, section, name);
-    if (!(v >= lo && v <= hi))
-      {
-        std::ostringstream r;
-        r << "must lie in [" << lo << ", " << hi << "]";
-        throw InputError(section + "/" + name, prm.get(name), r.str());
-      }
-    return v;
-  }
-
-  void
-  declare_number(dealii::ParameterHandler &prm,
-                 const std::string &name,
-                 const std::string &default_value,
-                 const std::string &documentation)
-  {
-    // Patterns::Anything: the range and number checks happen in
-    // get_positive() & co., which name the entry and the value.
-    prm.declare_entry(name,
-                      default_value,
-                      dealii::Patterns::Anything(),
-                      documentation);
-  }
 } // namespace backcomb
 
 namespace backcomb
@@ -72,9 +44,7 @@ namespace backcomb
   std::string
   default_text(const double value)
   {
-    std::ostringstream s;
-    s << value;
-    return s.str();
+    return format_number(value, 6);
   }
 } // namespace backcomb
 

@@ -17,29 +17,10 @@
 
 namespace backcomb
 {
-  // The older helpers, still used by the material, contact and surface
-  // sections (being converted to the NumberEntry API below): `prm` must be
-  // inside the section whose path is `section` (used only for messages).
-  // A finite double in [lo, hi].
-  double
-  get_in_range(const dealii::ParameterHandler &prm,
-               const std::string &section,
-               const std::string &name,
-               double lo,
-               double hi);
-
-  // A number as the default text of a case-file entry.
+  // A number as the default text of a case-file entry (6 significant
+  // digits, base/format.h).
   std::string
   default_text(double value);
-
-  // Declares a double entry with a documentation string that states unit
-  // and range; the pattern admits any finite number so that the semantic
-  // checks above produce the error (with the entry's name and value).
-  void
-  declare_number(dealii::ParameterHandler &prm,
-                 const std::string &name,
-                 const std::string &default_value,
-                 const std::string &documentation);
 
   // ----- Entries declared once ------------------------------------------
   //

@@ -10,6 +10,14 @@
 
 namespace backcomb::fem
 {
+  namespace
+  {
+    const NumberEntry work_function_entry{
+      "Work function", 4.0, "eV", Range::closed(0.0, 10.0),
+      "Contact work function; sets the equilibrium potential (Schottky-Mott, no pinning) and the "
+      "equilibrium densities at the contact"};
+  } // namespace
+
   void
   ContactParameters::declare_parameters(dealii::ParameterHandler &prm,
                                         const std::string &section,
@@ -22,10 +30,8 @@ namespace backcomb::fem
     for (const std::string &name : models.names())
       doc += (doc.empty() ? "" : " ") + models.create(name)->description();
     prm.enter_subsection(section);
-    prm.declare_entry("Model", d.model, dealii::Patterns::Selection(models.selection()), doc);
-    declare_number(prm, "Work function", default_text(d.work_function),
-                   "Contact work function in eV, 0..10; sets the equilibrium potential "
-                   "(Schottky-Mott, no pinning) and the equilibrium densities at the contact.");
+    declare_text(prm, section, "Model", d.model, dealii::Patterns::Selection(models.selection()), "", doc);
+    declare(prm, section, work_function_entry, d.work_function);
     for (const std::string &name : models.names())
       models.create(name)->declare_parameters(prm, section, d);
     prm.leave_subsection();
@@ -37,7 +43,7 @@ namespace backcomb::fem
     const auto &models = contact_models();
     prm.enter_subsection(section);
     model         = prm.get("Model");
-    work_function = get_in_range(prm, section, "Work function", 0.0, 10.0);
+    work_function = get(prm, section, work_function_entry);
     // Every model's entries are read and checked, also those of the models
     // not chosen, as they were declared.
     for (const std::string &name : models.names())

@@ -10,30 +10,57 @@
 
 namespace backcomb::fem
 {
+  namespace
+  {
+    // A material's own entries, grouped by concern into subsections of the
+    // material section; the recombination channels add theirs under
+    // "Recombination" (fem/physics).
+    const std::string bands     = "Bands and permittivity";
+    const std::string transport = "Transport";
+    const std::string doping    = "Doping";
+
+    const NumberEntry band_gap_entry{"Band gap", 1.6, "eV", Range::closed(1e-3, 10.0), "Band gap E_g"};
+    const NumberEntry affinity_entry{"Electron affinity", 3.9, "eV", Range::closed(0.0, 10.0),
+                               "Electron affinity chi (vacuum level to conduction band edge)"};
+    const NumberEntry permittivity_entry{"Relative permittivity", 25, "", Range::closed(1.0, 1e4),
+                                   "Static relative permittivity"};
+    const NumberEntry Nc_entry{"Conduction band density of states", 2e18, "cm^-3", Range::closed(1e10, 1e24),
+                         "Effective density of states N_c of the conduction band"};
+    const NumberEntry Nv_entry{"Valence band density of states", 2e18, "cm^-3", Range::closed(1e10, 1e24),
+                         "Effective density of states N_v of the valence band"};
+    const NumberEntry mu_n_entry{"Electron mobility", 2, "cm^2/(V s)", Range::closed(1e-8, 1e6), "Electron mobility mu_n"};
+    const NumberEntry mu_p_entry{"Hole mobility", 2, "cm^2/(V s)", Range::closed(1e-8, 1e6), "Hole mobility mu_p"};
+    const NumberEntry donors_entry{"Donor density", 0, "cm^-3", Range::closed(0.0, 1e23),
+                             "Ionised donor density N_D (complete ionisation)"};
+    const NumberEntry acceptors_entry{"Acceptor density", 0, "cm^-3", Range::closed(0.0, 1e23),
+                                "Ionised acceptor density N_A (complete ionisation)"};
+  } // namespace
+
   void
   Material::declare_parameters(dealii::ParameterHandler &prm,
                                const std::string &section,
                                const Material &d)
   {
     prm.enter_subsection(section);
-    declare_number(prm, "Band gap", default_text(d.band_gap), "Band gap E_g in eV, > 0 and <= 10.");
-    declare_number(prm, "Electron affinity", default_text(d.electron_affinity),
-                   "Electron affinity chi in eV (vacuum level to conduction band edge), 0..10.");
-    declare_number(prm, "Relative permittivity", default_text(d.permittivity),
-                   "Static relative permittivity, >= 1.");
-    declare_number(prm, "Conduction band density of states", default_text(d.Nc),
-                   "Effective density of states N_c in cm^-3, > 0.");
-    declare_number(prm, "Valence band density of states", default_text(d.Nv),
-                   "Effective density of states N_v in cm^-3, > 0.");
-    declare_number(prm, "Electron mobility", default_text(d.mu_n), "mu_n in cm^2/(V s), > 0.");
-    declare_number(prm, "Hole mobility", default_text(d.mu_p), "mu_p in cm^2/(V s), > 0.");
-    declare_number(prm, "Donor density", default_text(d.donors),
-                   "Ionised donor density N_D in cm^-3, >= 0.");
-    declare_number(prm, "Acceptor density", default_text(d.acceptors),
-                   "Ionised acceptor density N_A in cm^-3, >= 0.");
-    // The recombination channels' own entries.
+    prm.enter_subsection(bands);
+    declare(prm, section + "/" + bands, band_gap_entry, d.band_gap);
+    declare(prm, section + "/" + bands, affinity_entry, d.electron_affinity);
+    declare(prm, section + "/" + bands, Nc_entry, d.Nc);
+    declare(prm, section + "/" + bands, Nv_entry, d.Nv);
+    declare(prm, section + "/" + bands, permittivity_entry, d.permittivity);
+    prm.leave_subsection();
+    prm.enter_subsection(transport);
+    declare(prm, section + "/" + transport, mu_n_entry, d.mu_n);
+    declare(prm, section + "/" + transport, mu_p_entry, d.mu_p);
+    prm.leave_subsection();
+    prm.enter_subsection(doping);
+    declare(prm, section + "/" + doping, donors_entry, d.donors);
+    declare(prm, section + "/" + doping, acceptors_entry, d.acceptors);
+    prm.leave_subsection();
+    prm.enter_subsection(recombination_subsection);
     for (const std::string &name : bulk_recombination_channels().names())
-      bulk_recombination_channels().create(name)->declare_parameters(prm, section, d);
+      bulk_recombination_channels().create(name)->declare_parameters(prm, section + "/" + recombination_subsection, d);
+    prm.leave_subsection();
     prm.leave_subsection();
   }
 
@@ -41,17 +68,26 @@ namespace backcomb::fem
   Material::parse_parameters(dealii::ParameterHandler &prm, const std::string &section)
   {
     prm.enter_subsection(section);
-    band_gap          = get_in_range(prm, section, "Band gap", 1e-3, 10.0);
-    electron_affinity = get_in_range(prm, section, "Electron affinity", 0.0, 10.0);
-    permittivity      = get_in_range(prm, section, "Relative permittivity", 1.0, 1e4);
-    Nc                = get_in_range(prm, section, "Conduction band density of states", 1e10, 1e24);
-    Nv                = get_in_range(prm, section, "Valence band density of states", 1e10, 1e24);
-    mu_n              = get_in_range(prm, section, "Electron mobility", 1e-8, 1e6);
-    mu_p              = get_in_range(prm, section, "Hole mobility", 1e-8, 1e6);
-    donors            = get_in_range(prm, section, "Donor density", 0.0, 1e23);
-    acceptors         = get_in_range(prm, section, "Acceptor density", 0.0, 1e23);
+    prm.enter_subsection(bands);
+    band_gap          = get(prm, section + "/" + bands, band_gap_entry);
+    electron_affinity = get(prm, section + "/" + bands, affinity_entry);
+    Nc                = get(prm, section + "/" + bands, Nc_entry);
+    Nv                = get(prm, section + "/" + bands, Nv_entry);
+    permittivity      = get(prm, section + "/" + bands, permittivity_entry);
+    prm.leave_subsection();
+    prm.enter_subsection(transport);
+    mu_n = get(prm, section + "/" + transport, mu_n_entry);
+    mu_p = get(prm, section + "/" + transport, mu_p_entry);
+    prm.leave_subsection();
+    prm.enter_subsection(doping);
+    donors    = get(prm, section + "/" + doping, donors_entry);
+    acceptors = get(prm, section + "/" + doping, acceptors_entry);
+    prm.leave_subsection();
+    prm.enter_subsection(recombination_subsection);
     for (const std::string &name : bulk_recombination_channels().names())
-      bulk_recombination_channels().create(name)->parse_parameters(prm, section, *this);
+      bulk_recombination_channels().create(name)->parse_parameters(prm, section + "/" + recombination_subsection,
+                                                                   *this);
+    prm.leave_subsection();
     prm.leave_subsection();
   }
 

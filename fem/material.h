@@ -49,6 +49,10 @@ namespace backcomb::fem
     double intrinsic_density(double temperature) const;
   };
 
+  // The subsection of a material section that holds the recombination
+  // channels' entries (each channel in a subsection of its own).
+  inline const std::string recombination_subsection = "Recombination";
+
   // Thermal voltage kT/q in V.
   double thermal_voltage(double temperature);
 } // namespace backcomb::fem

@@ -147,7 +147,7 @@ namespace backcomb::simulator
             const std::string v = prm.get("Trap level");
             prm.leave_subsection();
             throw InputError(name + "/Trap level", v,
-                             "must lie inside the absorber's gap: |level| < Absorber/Band gap / 2 = " +
+                             "must lie inside the absorber's gap: |level| < Absorber/Bands and permittivity/Band gap / 2 = " +
                                std::to_string(0.5 * c.absorber.band_gap) + " eV");
           }
       // The intrinsic density must stay representable: n_i^2 =
@@ -160,7 +160,7 @@ namespace backcomb::simulator
           const double ln_ni2 = std::log(m->Nc * m->Nv) - m->band_gap / kT;
           if (ln_ni2 < -600)
             throw InputError("Device/Temperature", std::to_string(c.device.temperature) + " K",
-                             "too low for " + name + "/Band gap = " + std::to_string(m->band_gap) +
+                             "too low for " + name + "/Bands and permittivity/Band gap = " + std::to_string(m->band_gap) +
                                " eV: E_g/kT = " + std::to_string(m->band_gap / kT) +
                                " makes the intrinsic density underflow");
         }

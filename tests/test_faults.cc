@@ -323,7 +323,7 @@ TEST(GuardRails, WarningsNameTheNumbersAndTheEntry)
   // widest cell, 0.118 um, the largest x side of the mesh statistics).
   {
     const simulator::Case c =
-      simulator::read_case(tiny_case, {"Absorber/Electron lifetime=1e-12", "Absorber/Hole lifetime=1e-12"});
+      simulator::read_case(tiny_case, {"Absorber/Recombination/SRH/Electron lifetime=1e-12", "Absorber/Recombination/SRH/Hole lifetime=1e-12"});
     dealii::Triangulation<2> tria;
     geometry::build_triangulation(c.geometry, c.mesh, tria);
     const auto f = simulator::guard_rail_figures(c, tria);

@@ -418,18 +418,18 @@ TEST(PhysicsRegistry, BandTailEntriesDefaultOffAndChecked)
   Material m;
   m.parse_parameters(prm, "Absorber");
   EXPECT_FALSE(bulk_recombination_channels().create("band_tail")->active(m));
-  EXPECT_EQ(entry_unit("Absorber/Band tail recombination/Conduction tail energy"), "eV");
-  EXPECT_EQ(entry_unit("Absorber/Electron lifetime"), "s");
+  EXPECT_EQ(entry_unit("Absorber/Recombination/Band tail/Conduction tail energy"), "eV");
+  EXPECT_EQ(entry_unit("Absorber/Recombination/SRH/Electron lifetime"), "s");
 
-  prm.parse_input_from_string("subsection Absorber\n subsection Band tail recombination\n"
+  prm.parse_input_from_string("subsection Absorber\n subsection Recombination\n subsection Band tail\n"
                               "  set Conduction tail density = 1e17\n  set Conduction tail energy = 0.04\n"
-                              " end\nend\n");
+                              " end\n end\nend\n");
   m.parse_parameters(prm, "Absorber");
   EXPECT_TRUE(bulk_recombination_channels().create("band_tail")->active(m));
   EXPECT_EQ(BandTailChannel::parameters_of(m).conduction_energy, 0.04);
 
-  prm.parse_input_from_string("subsection Absorber\n subsection Band tail recombination\n"
-                              "  set Valence tail energy = 0\n end\nend\n");
+  prm.parse_input_from_string("subsection Absorber\n subsection Recombination\n subsection Band tail\n"
+                              "  set Valence tail energy = 0\n end\n end\nend\n");
   try
     {
       m.parse_parameters(prm, "Absorber");
@@ -437,7 +437,7 @@ TEST(PhysicsRegistry, BandTailEntriesDefaultOffAndChecked)
     }
   catch (const InputError &e)
     {
-      EXPECT_NE(std::string(e.what()).find("Absorber/Band tail recombination/Valence tail energy = 0"),
+      EXPECT_NE(std::string(e.what()).find("Absorber/Recombination/Band tail/Valence tail energy = 0"),
                 std::string::npos)
         << e.what();
     }

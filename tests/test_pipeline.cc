@@ -91,18 +91,24 @@ subsection Geometry
   set Absorber thickness = 0.4
 end
 subsection Absorber
-  set Electron mobility = 10
-  set Hole mobility = 10
-  set Electron lifetime = 1e-3
-  set Hole lifetime = 1e-3
+  subsection Transport
+    set Electron mobility = 10
+    set Hole mobility = 10
+  end
+  subsection Recombination
+    subsection SRH
+      set Electron lifetime = 1e-3
+      set Hole lifetime = 1e-3
+    end
+  end
 end
 subsection Electron contact
   set Work function = 4.0
-  set Hole recombination velocity = 0
+  set Hole transfer velocity = 0
 end
 subsection Hole contact
   set Work function = 5.4
-  set Electron recombination velocity = 0
+  set Electron transfer velocity = 0
 end
 subsection Illumination
   set Generation model = uniform

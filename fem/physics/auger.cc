@@ -6,9 +6,9 @@ namespace backcomb::fem
 {
   namespace
   {
-    const NumberEntry electron_coefficient{"Auger electron coefficient", 0.0, "cm^6/s",
+    const NumberEntry electron_coefficient{"Electron-electron-hole coefficient", 0.0, "cm^6/s",
                                            Range::closed(0.0, 1e-20), "Auger coefficient C_n (n n p process) in cm^6/s"};
-    const NumberEntry hole_coefficient{"Auger hole coefficient", 0.0, "cm^6/s", Range::closed(0.0, 1e-20),
+    const NumberEntry hole_coefficient{"Electron-hole-hole coefficient", 0.0, "cm^6/s", Range::closed(0.0, 1e-20),
                                        "Auger coefficient C_p (n p p process) in cm^6/s"};
   } // namespace
 
@@ -20,15 +20,19 @@ namespace backcomb::fem
   AugerChannel::declare_parameters(dealii::ParameterHandler &prm, const std::string &section,
                                    const Material &d) const
   {
-    declare(prm, section, electron_coefficient, d.C_n);
-    declare(prm, section, hole_coefficient, d.C_p);
+    prm.enter_subsection(subsection);
+    declare(prm, section + "/" + subsection, electron_coefficient, d.C_n);
+    declare(prm, section + "/" + subsection, hole_coefficient, d.C_p);
+    prm.leave_subsection();
   }
 
   void
   AugerChannel::parse_parameters(dealii::ParameterHandler &prm, const std::string &section, Material &m) const
   {
-    m.C_n = get(prm, section, electron_coefficient);
-    m.C_p = get(prm, section, hole_coefficient);
+    prm.enter_subsection(subsection);
+    m.C_n = get(prm, section + "/" + subsection, electron_coefficient);
+    m.C_p = get(prm, section + "/" + subsection, hole_coefficient);
+    prm.leave_subsection();
   }
 
   void

@@ -2,7 +2,9 @@
 // electron-electron-hole and C_p for the electron-hole-hole process
 // (S. M. Sze, K. K. Ng, Physics of Semiconductor Devices, 3rd ed. 2007,
 // section 1.5.4). On when C_n > 0 or C_p > 0.
-// Entries: Auger electron coefficient, Auger hole coefficient.
+// Entries (in <material>/Recombination/Auger), named by the process: Electron-electron-hole
+// coefficient C_n (two electrons and a hole meet; the energy goes to the second electron),
+// Electron-hole-hole coefficient C_p.
 #pragma once
 
 #include "fem/physics/recombination_channel.h"
@@ -12,6 +14,9 @@ namespace backcomb::fem
   class AugerChannel : public RecombinationChannel
   {
   public:
+    // The subsection of "<material>/Recombination" holding the entries.
+    static constexpr const char *subsection = "Auger";
+
     AugerChannel() = default;
     // Directly in one unit system (tests).
     AugerChannel(double C_n, double C_p, double ni2);

@@ -41,7 +41,7 @@
 // solver; the tails end at the opposite band edge instead of merging into
 // the other tail or into deep defects.
 //
-// Entries, in the subsection "Band tail recombination" of a material
+// Entries, in the subsection "Recombination/Band tail" of a material
 // section: Conduction tail density, Conduction tail energy, Valence tail
 // density, Valence tail energy, Electron capture coefficient, Hole capture
 // coefficient. Both densities default to 0: the channel is off.
@@ -57,7 +57,7 @@ namespace backcomb::fem
   {
   public:
     // The subsection of a material section holding the entries.
-    static constexpr const char *subsection = "Band tail recombination";
+    static constexpr const char *subsection = "Band tail";
 
     // The parameters in physical units (eV, cm^-3, cm^3/s).
     struct Parameters

@@ -6,7 +6,7 @@ namespace backcomb::fem
 {
   namespace
   {
-    const NumberEntry coefficient{"Radiative coefficient", 0.0, "cm^3/s", Range::closed(0.0, 1e-5),
+    const NumberEntry coefficient{"Coefficient", 0.0, "cm^3/s", Range::closed(0.0, 1e-5),
                                   "Band-to-band radiative coefficient B in cm^3/s"};
     const NumberEntry recycling{"Photon recycling probability", 0.0, "", Range::closed(0.0, 1.0),
                                 "Fraction of radiative events re-absorbed in the film (the net radiative "
@@ -21,16 +21,20 @@ namespace backcomb::fem
   RadiativeChannel::declare_parameters(dealii::ParameterHandler &prm, const std::string &section,
                                        const Material &d) const
   {
-    declare(prm, section, coefficient, d.B_rad);
-    declare(prm, section, recycling, d.photon_recycling);
+    prm.enter_subsection(subsection);
+    declare(prm, section + "/" + subsection, coefficient, d.B_rad);
+    declare(prm, section + "/" + subsection, recycling, d.photon_recycling);
+    prm.leave_subsection();
   }
 
   void
   RadiativeChannel::parse_parameters(dealii::ParameterHandler &prm, const std::string &section,
                                      Material &m) const
   {
-    m.B_rad            = get(prm, section, coefficient);
-    m.photon_recycling = get(prm, section, recycling);
+    prm.enter_subsection(subsection);
+    m.B_rad            = get(prm, section + "/" + subsection, coefficient);
+    m.photon_recycling = get(prm, section + "/" + subsection, recycling);
+    prm.leave_subsection();
   }
 
   void

@@ -3,7 +3,7 @@
 // (W. van Roosbroeck, W. Shockley, Phys. Rev. 94 (1954) 1558 for B; the
 // recycled fraction P_r of the emitted photons is re-absorbed in the film
 // and so does not count as a loss). On when B > 0.
-// Entries: Radiative coefficient, Photon recycling probability.
+// Entries (in <material>/Recombination/Radiative): Coefficient, Photon recycling probability.
 #pragma once
 
 #include "fem/physics/recombination_channel.h"
@@ -13,6 +13,9 @@ namespace backcomb::fem
   class RadiativeChannel : public RecombinationChannel
   {
   public:
+    // The subsection of "<material>/Recombination" holding the entries.
+    static constexpr const char *subsection = "Radiative";
+
     RadiativeChannel() = default;
     // B_effective = (1 - P_r) B, directly in one unit system (tests).
     RadiativeChannel(double B_effective, double ni2);

@@ -7,12 +7,14 @@ namespace backcomb::fem
 {
   namespace
   {
-    const NumberEntry electron_velocity{"Electron recombination velocity", 1e7, "cm/s", Range::closed(0.0, 1e12),
-                                        "Electron surface velocity S_n at the contact in cm/s (0 = blocks electrons). "
-                                        "Ignored when Model = ohmic"};
-    const NumberEntry hole_velocity{"Hole recombination velocity", 1e7, "cm/s", Range::closed(0.0, 1e12),
-                                    "Hole surface velocity S_p at the contact in cm/s (0 = blocks holes). Ignored "
-                                    "when Model = ohmic"};
+    const NumberEntry electron_velocity{"Electron transfer velocity", 1e7, "cm/s", Range::closed(0.0, 1e12),
+                                        "Velocity S_n with which electrons pass from the film into the contact: flux S_n (n - n0), n0 the "
+                                        "equilibrium density there. Large for the carrier the contact collects, small for "
+                                        "the one it should block (0 = blocks electrons). Ignored when Model = ohmic"};
+    const NumberEntry hole_velocity{"Hole transfer velocity", 1e7, "cm/s", Range::closed(0.0, 1e12),
+                                    "Velocity S_p with which holes pass from the film into the contact: flux S_p (p - p0). "
+                                    "Large for the carrier the contact collects, small for the one it should block "
+                                    "(0 = blocks holes). Ignored when Model = ohmic"};
   } // namespace
 
   void

@@ -3,7 +3,7 @@
 // the contact in equilibrium (a surface-recombination-velocity boundary
 // condition; S = 0 blocks a carrier, S -> infinity approaches the ohmic
 // contact).
-// Entries: Electron recombination velocity, Hole recombination velocity.
+// Entries: Electron transfer velocity, Hole transfer velocity.
 #pragma once
 
 #include "fem/physics/contact_model.h"

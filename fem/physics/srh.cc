@@ -23,19 +23,26 @@ namespace backcomb::fem
   SrhChannel::declare_parameters(dealii::ParameterHandler &prm, const std::string &section,
                                  const Material &d) const
   {
-    declare(prm, section, electron_lifetime, d.tau_n);
-    declare(prm, section, hole_lifetime, d.tau_p);
-    declare(prm, section, trap_level, d.trap_level);
+    const std::string s = section + "/" + subsection;
+    prm.enter_subsection(subsection);
+    declare(prm, s, electron_lifetime, d.tau_n);
+    declare(prm, s, hole_lifetime, d.tau_p);
+    declare(prm, s, trap_level, d.trap_level);
+    prm.leave_subsection();
   }
 
   void
   SrhChannel::parse_parameters(dealii::ParameterHandler &prm, const std::string &section, Material &m) const
   {
-    m.tau_n      = get(prm, section, electron_lifetime);
-    m.tau_p      = get(prm, section, hole_lifetime);
-    m.trap_level = get(prm, section, trap_level);
+    const std::string s = section + "/" + subsection;
+    prm.enter_subsection(subsection);
+    m.tau_n      = get(prm, s, electron_lifetime);
+    m.tau_p      = get(prm, s, hole_lifetime);
+    m.trap_level = get(prm, s, trap_level);
+    const std::string level_text = prm.get("Trap level");
+    prm.leave_subsection();
     if (!(std::abs(m.trap_level) < 0.5 * m.band_gap))
-      throw InputError(section + "/Trap level", prm.get("Trap level"),
+      throw InputError(s + "/Trap level", level_text,
                        "must lie inside the gap: |level| < Band gap/2 = " + default_text(0.5 * m.band_gap) +
                          " eV");
   }

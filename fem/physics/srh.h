@@ -3,7 +3,7 @@
 // (W. Shockley, W. T. Read, Phys. Rev. 87 (1952) 835; R. N. Hall,
 // Phys. Rev. 87 (1952) 387), with n1, p1 the densities at which the Fermi
 // level sits at the trap. Always on (a lifetime of 1 s makes it negligible).
-// Entries: Electron lifetime, Hole lifetime, Trap level.
+// Entries (in <material>/Recombination/SRH): Electron lifetime, Hole lifetime, Trap level.
 #pragma once
 
 #include "fem/physics/recombination_channel.h"
@@ -13,6 +13,9 @@ namespace backcomb::fem
   class SrhChannel : public RecombinationChannel
   {
   public:
+    // The subsection of "<material>/Recombination" holding the entries.
+    static constexpr const char *subsection = "SRH";
+
     SrhChannel() = default;
     // Directly in one unit system (tests).
     SrhChannel(double tau_n, double tau_p, double n1, double p1, double ni2);
