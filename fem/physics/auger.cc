@@ -7,9 +7,11 @@ namespace backcomb::fem
   namespace
   {
     const NumberEntry electron_coefficient{"Electron-electron-hole coefficient", 0.0, "cm^6/s",
-                                           Range::closed(0.0, 1e-20), "Auger coefficient C_n (n n p process) in cm^6/s"};
+                                           Range::closed(0.0, 1e-20), "Auger coefficient C_n of the process in which two electrons and a hole meet and the energy goes to the "
+                                           "second electron"};
     const NumberEntry hole_coefficient{"Electron-hole-hole coefficient", 0.0, "cm^6/s", Range::closed(0.0, 1e-20),
-                                       "Auger coefficient C_p (n p p process) in cm^6/s"};
+                                       "Auger coefficient C_p of the process in which an electron and two holes meet and the energy goes "
+                                       "to the second hole"};
   } // namespace
 
   AugerChannel::AugerChannel(double C_n_, double C_p_, double ni2_)
