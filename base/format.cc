@@ -13,6 +13,15 @@ namespace backcomb
   }
 
   std::string
+  trim(const std::string &s)
+  {
+    const auto first = s.find_first_not_of(" \t\r\n");
+    if (first == std::string::npos)
+      return "";
+    return s.substr(first, s.find_last_not_of(" \t\r\n") - first + 1);
+  }
+
+  std::string
   format_fixed(const double v, const int decimals)
   {
     char buffer[400];

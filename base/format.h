@@ -15,4 +15,8 @@ namespace backcomb
   // `v` with exactly `decimals` digits after the point ("0.6200"): biases in
   // file names and labels, where fixed width sorts and reads well.
   std::string format_fixed(double v, int decimals);
+
+  // `s` without leading and trailing blanks, tabs and line ends (the text
+  // of a value in a case file, a table cell, a --vary item).
+  std::string trim(const std::string &s);
 } // namespace backcomb

@@ -5,6 +5,7 @@
 
 #include "fem/constants.h"
 #include "base/entries.h"
+#include "base/format.h"
 
 #include <algorithm>
 #include <cctype>
@@ -32,16 +33,6 @@ namespace backcomb::fem
       int                 line = 0;
       std::string         text;
     };
-
-    std::string
-    trim(const std::string &s)
-    {
-      const auto first = s.find_first_not_of(" \t\r\n");
-      if (first == std::string::npos)
-        return "";
-      const auto last = s.find_last_not_of(" \t\r\n");
-      return s.substr(first, last - first + 1);
-    }
 
     [[noreturn]] void
     fail(const std::string &file,

@@ -17,46 +17,45 @@ namespace backcomb::simulator
   renamed_entries()
   {
     using K = Rename::Kind;
-    static std::vector<Rename> table = {
-      // "sweep" means the parameter sweep over cases; one J-V curve is a scan.
-      {K::section, "J-V sweep", "J-V scan"},
-      {K::entry, "J-V scan/Dark sweep", "J-V scan/Dark scan"},
-      // The entry lists biases at which the power balance is reported.
-      {K::entry, "Output/Loss biases", "Output/Power balance biases"},
-    };
-    static bool grouped = false;
-    if (!grouped)
-      {
-        grouped = true;
-        // A material's entries grouped by concern, the Auger coefficients
-        // named by their process; the same rows for every material section.
-        for (const std::string m : {"Absorber", "Electron interlayer", "Hole interlayer"})
-          for (const auto &[old_name, new_name] : std::vector<std::pair<std::string, std::string>>{
-                 {"Band gap", "Bands and permittivity/Band gap"},
-                 {"Electron affinity", "Bands and permittivity/Electron affinity"},
-                 {"Conduction band density of states", "Bands and permittivity/Conduction band density of states"},
-                 {"Valence band density of states", "Bands and permittivity/Valence band density of states"},
-                 {"Relative permittivity", "Bands and permittivity/Relative permittivity"},
-                 {"Electron mobility", "Transport/Electron mobility"},
-                 {"Hole mobility", "Transport/Hole mobility"},
-                 {"Donor density", "Doping/Donor density"},
-                 {"Acceptor density", "Doping/Acceptor density"},
-                 {"Electron lifetime", "Recombination/SRH/Electron lifetime"},
-                 {"Hole lifetime", "Recombination/SRH/Hole lifetime"},
-                 {"Trap level", "Recombination/SRH/Trap level"},
-                 {"Radiative coefficient", "Recombination/Radiative/Coefficient"},
-                 {"Photon recycling probability", "Recombination/Radiative/Photon recycling probability"},
-                 {"Auger electron coefficient", "Recombination/Auger/Electron-electron-hole coefficient"},
-                 {"Auger hole coefficient", "Recombination/Auger/Electron-hole-hole coefficient"}})
-            table.push_back({K::entry, m + "/" + old_name, m + "/" + new_name});
-        // A contact's velocities say what they do: the speed at which each
-        // carrier passes into the metal.
-        for (const std::string c : {"Electron contact", "Hole contact"})
-          {
-            table.push_back({K::entry, c + "/Electron recombination velocity", c + "/Electron transfer velocity"});
-            table.push_back({K::entry, c + "/Hole recombination velocity", c + "/Hole transfer velocity"});
-          }
-      }
+    static const std::vector<Rename> table = [] {
+      std::vector<Rename> t = {
+        // "sweep" means the parameter sweep over cases; one J-V curve is a scan.
+        {K::section, "J-V sweep", "J-V scan"},
+        {K::entry, "J-V scan/Dark sweep", "J-V scan/Dark scan"},
+        // The entry lists biases at which the power balance is reported.
+        {K::entry, "Output/Loss biases", "Output/Power balance biases"},
+      };
+      // A material's entries grouped by concern, the Auger coefficients
+      // named by their process; the same rows for every material section.
+      const std::pair<const char *, const char *> material_moves[] = {
+        {"Band gap", "Bands and permittivity/Band gap"},
+        {"Electron affinity", "Bands and permittivity/Electron affinity"},
+        {"Conduction band density of states", "Bands and permittivity/Conduction band density of states"},
+        {"Valence band density of states", "Bands and permittivity/Valence band density of states"},
+        {"Relative permittivity", "Bands and permittivity/Relative permittivity"},
+        {"Electron mobility", "Transport/Electron mobility"},
+        {"Hole mobility", "Transport/Hole mobility"},
+        {"Donor density", "Doping/Donor density"},
+        {"Acceptor density", "Doping/Acceptor density"},
+        {"Electron lifetime", "Recombination/SRH/Electron lifetime"},
+        {"Hole lifetime", "Recombination/SRH/Hole lifetime"},
+        {"Trap level", "Recombination/SRH/Trap level"},
+        {"Radiative coefficient", "Recombination/Radiative/Coefficient"},
+        {"Photon recycling probability", "Recombination/Radiative/Photon recycling probability"},
+        {"Auger electron coefficient", "Recombination/Auger/Electron-electron-hole coefficient"},
+        {"Auger hole coefficient", "Recombination/Auger/Electron-hole-hole coefficient"}};
+      for (const std::string m : {"Absorber", "Electron interlayer", "Hole interlayer"})
+        for (const auto &[old_name, new_name] : material_moves)
+          t.push_back({K::entry, m + "/" + old_name, m + "/" + new_name});
+      // A contact's velocities say what they do: the speed at which each
+      // carrier passes into the metal.
+      for (const std::string c : {"Electron contact", "Hole contact"})
+        {
+          t.push_back({K::entry, c + "/Electron recombination velocity", c + "/Electron transfer velocity"});
+          t.push_back({K::entry, c + "/Hole recombination velocity", c + "/Hole transfer velocity"});
+        }
+      return t;
+    }();
     return table;
   }
 

@@ -90,15 +90,6 @@ namespace backcomb::study
     return parts;
   }
 
-  std::string
-  trim(const std::string &s)
-  {
-    const auto b = s.find_first_not_of(" \t\r\n");
-    if (b == std::string::npos)
-      return "";
-    return s.substr(b, s.find_last_not_of(" \t\r\n") - b + 1);
-  }
-
   std::optional<double>
   to_number(const std::string &text)
   {

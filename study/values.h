@@ -43,9 +43,6 @@ namespace backcomb::study
   // trailing empty part ("5," -> "5", "").
   std::vector<std::string> split(const std::string &text, char separator);
 
-  // `s` without leading and trailing white space.
-  std::string trim(const std::string &s);
-
   // The whole text as one finite number, or nothing.
   std::optional<double> to_number(const std::string &text);
 

@@ -227,7 +227,9 @@ TEST(PowerBalance, DemoClosesAtThreeGaps)
           // (Pmax from a parabola through the refined curve) agree at the
           // maximum power point.
           if (std::string(name) == "max_power")
-            EXPECT_NEAR(output / s["metrics"]["Pmax_mW_per_cm2"].get<double>(), 1.0, 1e-3);
+            {
+              EXPECT_NEAR(output / s["metrics"]["Pmax_mW_per_cm2"].get<double>(), 1.0, 1e-3);
+            }
           if (std::string(name) == "open_circuit")
             {
               EXPECT_LT(std::abs(output), 1e-3 * input);

@@ -250,24 +250,36 @@ TEST(SweepRecommendation, BestAndNearBestRange)
   EXPECT_FALSE(recommend(plan, rows).valid);
 }
 
+// One converged row per gap of `plan` with PCE per footprint `period` and,
+// when given, the whole comb cell's PCE `cell` (numbers constructed).
+namespace
+{
+  std::vector<StudyRow>
+  gap_rows(const StudyPlan &plan, const std::vector<double> &period, const std::vector<double> &cell)
+  {
+    std::vector<StudyRow> rows;
+    for (std::size_t i = 0; i < period.size(); ++i)
+      {
+        StudyRow r;
+        r.id     = "Gap=" + plan.entries[0].values[i];
+        r.values = {plan.entries[0].values[i]};
+        r.status = Status::converged;
+        r.PCE    = period[i];
+        if (!cell.empty())
+          r.PCE_cell = cell[i];
+        rows.push_back(r);
+      }
+    return rows;
+  }
+} // namespace
+
 // With the whole comb cell computed, its PCE decides: the fingers'
 // resistance moves the best gap to a narrower pitch (numbers constructed).
 TEST(SweepRecommendation, WholeCellPceDecidesWhenPresent)
 {
   StudyPlan plan;
-  plan.entries = {{"Geometry/Gap", {"5", "10", "20"}, "um"}};
-  std::vector<StudyRow> rows;
-  const std::vector<double> period = {9.0, 9.5, 10.0}, cell = {9.1, 9.2, 8.0};
-  for (std::size_t i = 0; i < period.size(); ++i)
-    {
-      StudyRow r;
-      r.id       = "Gap=" + plan.entries[0].values[i];
-      r.values   = {plan.entries[0].values[i]};
-      r.status   = Status::converged;
-      r.PCE      = period[i];
-      r.PCE_cell = cell[i];
-      rows.push_back(r);
-    }
+  plan.entries                     = {{"Geometry/Gap", {"5", "10", "20"}, "um"}};
+  const std::vector<StudyRow> rows = gap_rows(plan, {9.0, 9.5, 10.0}, {9.1, 9.2, 8.0});
   const Recommendation rec = recommend(plan, rows);
   ASSERT_TRUE(rec.valid);
   EXPECT_EQ(rec.best, 1u);
@@ -284,17 +296,8 @@ TEST(SweepRecommendation, StatesTheCriterionThatDecided)
   StudyPlan plan;
   plan.case_file = "case.prm";
   plan.entries   = {{"Geometry/Gap", {"5", "10", "20"}, "um"}};
-  std::vector<StudyRow>     rows;
-  const std::vector<double> period = {9.0, 9.5, 10.0}, cell = {9.1, 9.2, 8.0};
-  for (std::size_t i = 0; i < period.size(); ++i)
-    {
-      StudyRow r;
-      r.id     = "Gap=" + plan.entries[0].values[i];
-      r.values = {plan.entries[0].values[i]};
-      r.status = Status::converged;
-      r.PCE    = period[i];
-      rows.push_back(r);
-    }
+  const std::vector<double> cell = {9.1, 9.2, 8.0};
+  std::vector<StudyRow>     rows = gap_rows(plan, {9.0, 9.5, 10.0}, {});
   const Recommendation footprint = recommend(plan, rows);
   ASSERT_TRUE(footprint.valid);
   EXPECT_EQ(footprint.criterion, Criterion::pce_per_footprint);
