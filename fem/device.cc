@@ -103,6 +103,10 @@ namespace backcomb::fem
     for (const NumberEntry *e :
          {&newton_tolerance, &newton_iterations, &update_limit, &step_halvings, &quadrature_points})
       declare(prm, "Numerics", *e);
+    declare_text(prm, "Numerics", "Reuse factorisations", "true", dealii::Patterns::Bool(), "",
+                 "Newton steps may solve with the factorisation of an earlier Jacobian (chord steps) "
+                 "while the updates contract fast; false gives plain Newton, a fresh Jacobian every step "
+                 "(slower, same converged result)");
     prm.leave_subsection();
   }
 
@@ -115,6 +119,7 @@ namespace backcomb::fem
     max_update     = get(prm, "Numerics", update_limit);
     max_halvings   = static_cast<unsigned>(get(prm, "Numerics", step_halvings));
     quadrature     = static_cast<unsigned>(get(prm, "Numerics", quadrature_points));
+    reuse_factorisations = prm.get_bool("Reuse factorisations");
     prm.leave_subsection();
   }
 

@@ -67,6 +67,8 @@ namespace backcomb::fem
     // an ohmic contact, where n varies over decades: the collection
     // probability next to such a contact was 11 % off (3 points: 0.5 %).
     unsigned quadrature     = 3;
+    // Chord steps with an earlier factorisation (see DriftDiffusionSolver).
+    bool     reuse_factorisations = true;
 
     static void declare_parameters(dealii::ParameterHandler &prm);
     void parse_parameters(dealii::ParameterHandler &prm);

@@ -604,6 +604,7 @@ namespace backcomb::fem
               worst = std::abs(delta[i]), where = i;
           }
         report.iterations = it + 1;
+        report.chord_steps += chord;
         if (chord && (!finite || !(worst < previous)))
           {
             // The old factorisation does not contract here: take this
@@ -802,11 +803,12 @@ namespace backcomb::fem
   {
     Vector<double> u = solution;
     set_boundary_values(u, voltage);
-    NewtonReport rep = newton(u, light, true);
-    if (!rep.converged)
+    NewtonReport rep = newton(u, light, numerics.reuse_factorisations);
+    if (!rep.converged && rep.chord_steps > 0)
       {
         // Chord steps can stall where full Newton steps still converge:
-        // try again from the same start with a fresh Jacobian every step.
+        // try again from the same start with a fresh Jacobian every step
+        // (unless the attempt took none, and so was plain Newton already).
         u = solution;
         set_boundary_values(u, voltage);
         NewtonReport full = newton(u, light, false);

@@ -43,6 +43,7 @@ namespace backcomb::fem
     double              worst_x = 0, worst_y = 0; // where the last update was largest, um
     double              seconds = 0;
     unsigned            factorisations = 0; // Jacobians assembled and factorised
+    unsigned            chord_steps    = 0; // steps with an earlier factorisation
     // Steps of a first attempt that reused factorisations and did not
     // converge (included in `iterations`; the history is the last attempt's).
     unsigned            chord_attempt_iterations = 0;
