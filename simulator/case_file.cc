@@ -261,7 +261,7 @@ namespace backcomb::simulator
           if (candidates.size() > 12)
             all += ", ...";
           return candidates.empty() ? std::string(" (print every entry with 'backcomb template')")
-                                    : " (the " + kind + " here: " + all + ")";
+                                    : " (" + kind + ": " + all + ")";
         }
       std::string text = " (did you mean ";
       for (std::size_t i = 0; i < close.size(); ++i)

@@ -100,7 +100,7 @@ TEST(Utf8, CaseFileWithLatin1ByteIsRefusedAtTheEdge)
   EXPECT_FALSE(first_invalid_utf8(m));
 
   std::istringstream line3("# ok\n#\n  set Gap = 5 # 5 \xE9tats\n");
-  EXPECT_NE(input_error_of([&] { simulator::read_case(line3, "y.prm", {}); }).find("y.prm:3: byte 0xE9 at offset 28"),
+  EXPECT_NE(input_error_of([&] { simulator::read_case(line3, "y.prm", {}); }).find("y.prm:3: byte 0xE9 at offset 25 (column 19)"),
             std::string::npos);
 }
 
@@ -144,7 +144,7 @@ TEST(Messages, UnknownEntryAndSectionSuggestTheNearestNames)
   EXPECT_NE(m.find("unknown section 'Illumintion' (did you mean 'Illumination'"), std::string::npos) << m;
   // Nothing close: the names that exist there.
   m = input_error_of([] { simulator::read_case(tiny, {"Device/Colour=blue"}); });
-  EXPECT_NE(m.find("the entries of section 'Device': 'Temperature', 'Active area'"), std::string::npos) << m;
+  EXPECT_NE(m.find("unknown entry 'Colour' (entries of section 'Device': 'Active area', 'Temperature')"), std::string::npos) << m;
 }
 
 TEST(Messages, SelectionValueListsTheAllowedValues)
