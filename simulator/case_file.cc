@@ -314,8 +314,12 @@ namespace backcomb::simulator
       const auto        at     = message.find(marker);
       if (at != std::string::npos)
         {
-          std::string wanted = trim(message.substr(at + marker.size()));
-          wanted             = wanted.substr(wanted.rfind('/') == std::string::npos ? 0 : wanted.rfind('/') + 1);
+          // deal.II names it with its path, the levels joined by '.'.
+          std::string       wanted = trim(message.substr(at + marker.size()));
+          std::string       dotted = section;
+          std::replace(dotted.begin(), dotted.end(), '/', '.');
+          if (!dotted.empty() && wanted.rfind(dotted + ".", 0) == 0)
+            wanted = wanted.substr(dotted.size() + 1);
           // The section path before this line, without the unknown one.
           const auto it = d.sections.find(section);
           return message + nearest_names(wanted, it == d.sections.end() ? std::vector<std::string>() : it->second,

@@ -312,7 +312,7 @@ namespace backcomb::study
     for (const auto &r : rows)
       if (r.status == Status::failed)
         text += "  " + r.id + " failed: " + r.reason + '\n';
-      else if (r.bound_violations.value_or(0) > 0)
+      else if (r.bound_violations.value_or(0) > 0 && !r.reason.empty())
         text += "  " + r.id + " " + r.reason + " (not recommended; its summary.json \"bounds\" has all)\n";
     return text;
   }
