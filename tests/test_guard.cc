@@ -11,6 +11,7 @@
 #include "study/layout.h"
 #include "study/plan.h"
 #include "study/rows.h"
+#include "study/study.h"
 #include "temp_folder.h"
 
 #include <gtest/gtest.h>
@@ -257,6 +258,34 @@ TEST(Fingerprint, MergeRefusesASummaryOfAnotherCase)
   // The plan read back computes the same fingerprints.
   const study::StudyPlan back = study::plan_from_json(study::plan_to_json(plan), "p.json");
   EXPECT_EQ(back.cases[1].fingerprint, b.fingerprint);
+}
+
+// Reproduction: a summary.json copied from another case made that row show
+// the other case's numbers, exit 0. Now merge reports the case as failed
+// with the reason (exit 3), and the resumed sweep with --retry-failed
+// recomputes it, after which the table is whole again.
+TEST(Fingerprint, SweepRecomputesACopiedSummary)
+{
+  const fs::path         dir  = fresh_folder("copied-summary");
+  const study::StudyPlan plan = study::make_plan(tiny, {}, {"Geometry/Strip length=0.8,1"});
+  study::StudyOptions    o;
+  o.folder = (dir / "out").string();
+  o.quiet  = true;
+  ASSERT_EQ(study::run_study(plan, o), exit_ok);
+  const std::string a = study::case_folder(o.folder, plan.cases[0].id) + "/summary.json";
+  const std::string b = study::case_folder(o.folder, plan.cases[1].id) + "/summary.json";
+  const std::string own_a = read_text(a);
+  fs::copy_file(b, a, fs::copy_options::overwrite_existing);
+
+  EXPECT_EQ(study::merge_study(o.folder, true), exit_no_convergence);
+  const std::string csv = read_text(dir / "out" / "sweep.csv");
+  EXPECT_NE(csv.find("does not belong to case " + plan.cases[0].id), std::string::npos) << csv;
+
+  o.retry_failed = true;
+  EXPECT_EQ(study::run_study(plan, o), exit_ok);
+  const nlohmann::json again = nlohmann::json::parse(read_text(a));
+  EXPECT_EQ(again["fingerprint"], plan.cases[0].fingerprint);
+  EXPECT_EQ(again["metrics"]["Jsc_mA_per_cm2"], nlohmann::json::parse(own_a)["metrics"]["Jsc_mA_per_cm2"]);
 }
 
 // ------------------------------------------------------- physical bounds
