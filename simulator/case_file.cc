@@ -328,6 +328,33 @@ namespace backcomb::simulator
       return message + allowed_values(message);
     }
 
+    // Characters that look like a blank or like nothing, which editors and
+    // copies from documents put into text, and which deal.II would report
+    // as an unparsable line or a strange name: refused with their place
+    // outside comments.
+    void
+    refuse_invisible_characters(const std::string &text, const std::string &file)
+    {
+      const std::pair<const char *, const char *> invisible[] = {{"\xC2\xA0", "U+00A0 no-break space"},
+                                                                 {"\xE2\x80\x8B", "U+200B zero-width space"},
+                                                                 {"\xE2\x80\x8C", "U+200C zero-width non-joiner"},
+                                                                 {"\xE2\x80\x8D", "U+200D zero-width joiner"},
+                                                                 {"\xE2\x81\xA0", "U+2060 word joiner"},
+                                                                 {"\xEF\xBB\xBF", "U+FEFF byte order mark"}};
+      std::istringstream in(text);
+      unsigned           no = 0;
+      for (std::string line; std::getline(in, line);)
+        {
+          ++no;
+          const std::string code = line.substr(0, line.find('#'));
+          for (const auto &[bytes, name] : invisible)
+            if (const auto at = code.find(bytes); at != std::string::npos)
+              throw InputError(file + ":" + std::to_string(no) + ": an invisible character (" + name +
+                               ") at byte " + std::to_string(at + 1) +
+                               " of the line; delete it or replace it with a normal space");
+        }
+    }
+
     // Checks that need entries of several sections.
     void
     check_consistency(const Case &c, dealii::ParameterHandler &prm)
@@ -583,6 +610,7 @@ namespace backcomb::simulator
     require_utf8(c.echo, file, true);
     for (const auto &o : overrides)
       require_utf8(o, "--set '" + o + "'", false);
+    refuse_invisible_characters(c.echo, file);
     refuse_include(c.echo, file);
     // A case file written for an older backcomb: say what each old name is
     // called now, before deal.II reports it as unknown.
