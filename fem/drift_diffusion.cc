@@ -81,6 +81,7 @@ namespace backcomb::fem
       }
     width = xmax - xmin;
     setup_system();
+    cache_cell_geometry();
     precompute_generation();
   }
 
@@ -93,8 +94,11 @@ namespace backcomb::fem
   // Direct LU solve with MUMPS through PETSc: J x = b or J^T x = b. The
   // KSP object lives as long as the solver, so that the symbolic
   // factorisation (ordering) is reused; PETSc refactorises numerically
-  // whenever the matrix values changed. Returns false if the factorisation
-  // failed (e.g. a singular Jacobian).
+  // only when the matrix values changed since the last solve, so a chord
+  // step (new right-hand side, same matrix) costs one back-substitution.
+  // The PETSc options database is read last (e.g. PETSC_OPTIONS=
+  // "-pc_factor_mat_solver_type umfpack" to compare direct solvers).
+  // Returns false if the factorisation failed (e.g. a singular Jacobian).
   bool
   DriftDiffusionSolver::lu_solve(const Vec b, Vec x, const bool transpose) const
   {
@@ -107,6 +111,7 @@ namespace backcomb::fem
         check(PCSetType(pc, PCLU), "PCSetType");
         check(PCFactorSetMatSolverType(pc, MATSOLVERMUMPS), "PCFactorSetMatSolverType");
         check(KSPSetErrorIfNotConverged(ksp, PETSC_FALSE), "KSPSetErrorIfNotConverged");
+        check(KSPSetFromOptions(ksp), "KSPSetFromOptions");
       }
     const auto t0 = std::chrono::steady_clock::now();
     struct Clock
@@ -115,9 +120,22 @@ namespace backcomb::fem
       double                               &total;
       ~Clock() { total += std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count(); }
     } clock{t0, t_solve};
-    const Mat A = static_cast<Mat>(jacobian);
+    Mat A = static_cast<Mat>(jacobian);
+    if (Utilities::MPI::n_mpi_processes(comm) == 1)
+      {
+        // One process: its diagonal block is the whole matrix, which the
+        // sequential solvers take without a copy.
+        Mat             off;
+        const PetscInt *columns;
+        check(MatMPIAIJGetSeqAIJ(A, &A, &off, &columns), "MatMPIAIJGetSeqAIJ");
+      }
     check(KSPSetOperators(ksp, A, A), "KSPSetOperators");
-    PetscErrorCode code = KSPSetUp(ksp);
+    // KSPSetUp factorises when the matrix changed since the last call and
+    // does nothing otherwise (a chord step).
+    const auto     t_setup = std::chrono::steady_clock::now();
+    PetscErrorCode code    = KSPSetUp(ksp);
+    if (!factors_valid)
+      t_factorise += std::chrono::duration<double>(std::chrono::steady_clock::now() - t_setup).count();
     if (code == 0)
       code = transpose ? KSPSolveTranspose(ksp, b, x) : KSPSolve(ksp, b, x);
     KSPConvergedReason reason = KSP_DIVERGED_BREAKDOWN;
@@ -186,6 +204,7 @@ namespace backcomb::fem
     SparsityTools::distribute_sparsity_pattern(dsp, owned, comm, relevant);
     jacobian.reinit(owned, owned, dsp, comm);
     rhs.reinit(owned, comm);
+    row_scale.reinit(owned, comm);
     solution.reinit(dofs.n_dofs());
 
     // Nodal positions of every DoF (for diagnostics).
@@ -247,6 +266,46 @@ namespace backcomb::fem
       }
   }
 
+  void
+  DriftDiffusionSolver::cache_cell_geometry()
+  {
+    // Shape values of the scalar Q1 element at the quadrature points are
+    // those of the reference cell; gradients and JxW are stored per cell
+    // (the mesh never changes), so that an assembly needs no mapping.
+    const FiniteElement<2> &base = fe.base_element(0);
+    const unsigned          nq   = cell_quadrature.size();
+    for (unsigned q = 0; q < nq; ++q)
+      for (unsigned a = 0; a < 4; ++a)
+        cell_cache.phi[q][a] = base.shape_value(a, cell_quadrature.point(q));
+    for (unsigned i = 0; i < fe.n_dofs_per_cell(); ++i)
+      {
+        cell_cache.component[i] = fe.system_to_component_index(i).first;
+        cell_cache.vertex[i]    = fe.system_to_component_index(i).second;
+      }
+    const std::size_t n = tria.n_active_cells();
+    cell_cache.grad.assign(n * nq * 8, 0.0);
+    cell_cache.jxw.assign(n * nq, 0.0);
+    cell_cache.dofs.assign(n * 12, 0);
+    FEValues<2>                          fv(base, cell_quadrature, update_gradients | update_JxW_values);
+    std::vector<types::global_dof_index> idx(fe.n_dofs_per_cell());
+    for (const auto &cell : dofs.active_cell_iterators())
+      {
+        const std::size_t c = cell->active_cell_index();
+        cell->get_dof_indices(idx);
+        std::copy(idx.begin(), idx.end(), cell_cache.dofs.begin() + c * 12);
+        if (!cell->is_locally_owned())
+          continue;
+        fv.reinit(typename Triangulation<2>::active_cell_iterator(cell));
+        for (unsigned q = 0; q < nq; ++q)
+          {
+            cell_cache.jxw[c * nq + q] = fv.JxW(q);
+            for (unsigned a = 0; a < 4; ++a)
+              for (unsigned d = 0; d < 2; ++d)
+                cell_cache.grad[(c * nq + q) * 8 + 2 * a + d] = fv.shape_grad(a, q)[d];
+          }
+      }
+  }
+
   template <typename CellIterator>
   void
   DriftDiffusionSolver::assemble_cell(const CellIterator &cell,
@@ -256,98 +315,81 @@ namespace backcomb::fem
                                       Vector<double> &F,
                                       const bool with_contacts) const
   {
-    const QGauss<2> &quad      = cell_quadrature;
     const QGauss<1> &face_quad = face_quadrature;
-    FEValues<2>     &fv  = *fe_values;
-    FEFaceValues<2> &ffv = *fe_face_values;
+    FEFaceValues<2> &ffv       = *fe_face_values;
 
-    const unsigned dpc = fe.n_dofs_per_cell();
-    const unsigned nq  = quad.size();
-    std::vector<types::global_dof_index> idx(dpc);
-    unsigned comp[GeometryInfo<2>::vertices_per_cell * 3];
-    for (unsigned i = 0; i < dpc; ++i)
-      comp[i] = fe.system_to_component_index(i).first;
+    constexpr unsigned dpc = 12; // Q1 for psi, phi_n, phi_p
+    const unsigned     nq  = cell_quadrature.size();
+    const std::size_t  ci  = cell->active_cell_index();
+    const types::global_dof_index *idx = &cell_cache.dofs[ci * dpc];
+    const unsigned *comp = cell_cache.component;
 
     const ScaledRegion &r = device.region(cell->material_id());
-    fv.reinit(cell);
-    cell->get_dof_indices(idx);
+    // Nodal values per component and vertex; residual and Jacobian in the
+    // same (component, vertex) layout, copied to the system order at the end.
+    double ul[3][4];
+    for (unsigned i = 0; i < dpc; ++i)
+      ul[comp[i]][cell_cache.vertex[i]] = u[idx[i]];
+    double f[3][4] = {};
+    double a[3][4][3][4];
     if (Aptr)
-      *Aptr = 0;
-    F = 0;
+      std::fill(&a[0][0][0][0], &a[0][0][0][0] + 144, 0.0);
     for (unsigned q = 0; q < nq; ++q)
       {
-        double       v[3] = {0, 0, 0};
-        Tensor<1, 2> g[3];
-        for (unsigned i = 0; i < dpc; ++i)
-          {
-            v[comp[i]] += u[idx[i]] * fv.shape_value(i, q);
-            g[comp[i]] += u[idx[i]] * fv.shape_grad(i, q);
-          }
-        const double n  = std::exp(v[c_psi] - v[c_phin] + r.a_n);
-        const double p  = std::exp(v[c_phip] - v[c_psi] + r.a_p);
-        const Rate   k  = bulk_rate(r, n, p);
-        const double G  = light * generation_qp[cell->active_cell_index() * nq + q];
-        const double fixed = fixed_charge_qp.empty() ? 0.0 : fixed_charge_qp[cell->active_cell_index() * nq + q];
-        const double dx = fv.JxW(q);
+        const double *phi = cell_cache.phi[q];
+        const double *gq  = &cell_cache.grad[(ci * nq + q) * 8];
+        double        v[3] = {0, 0, 0}, g[3][2] = {{0, 0}, {0, 0}, {0, 0}};
+        for (unsigned c = 0; c < 3; ++c)
+          for (unsigned k = 0; k < 4; ++k)
+            {
+              v[c] += ul[c][k] * phi[k];
+              g[c][0] += ul[c][k] * gq[2 * k];
+              g[c][1] += ul[c][k] * gq[2 * k + 1];
+            }
+        const double n     = std::exp(v[c_psi] - v[c_phin] + r.a_n);
+        const double p     = std::exp(v[c_phip] - v[c_psi] + r.a_p);
+        const Rate   k     = bulk_rate(r, n, p);
+        const double G     = light * generation_qp[ci * nq + q];
+        const double fixed = fixed_charge_qp.empty() ? 0.0 : fixed_charge_qp[ci * nq + q];
+        const double dx    = cell_cache.jxw[ci * nq + q];
         // Derivatives of R with respect to (psi, phi_n, phi_p).
         const double dR[3]   = {k.dR_dn * n - k.dR_dp * p, -k.dR_dn * n, k.dR_dp * p};
         const double jn_coef = r.mu_n * n, jp_coef = r.mu_p * p;
-        for (unsigned i = 0; i < dpc; ++i)
+        const double charge  = p - n + r.doping + fixed;
+        for (unsigned i = 0; i < 4; ++i)
           {
-            const double       vi = fv.shape_value(i, q);
-            const Tensor<1, 2> gi = fv.shape_grad(i, q);
-            switch (comp[i])
-              {
-                case c_psi:
-                  F(i) += (r.eps * (g[c_psi] * gi) - (p - n + r.doping + fixed) * vi) * dx;
-                  break;
-                case c_phin:
-                  F(i) += (jn_coef * (g[c_phin] * gi) - (k.R - G) * vi) * dx;
-                  break;
-                case c_phip:
-                  F(i) += (jp_coef * (g[c_phip] * gi) + (k.R - G) * vi) * dx;
-                  break;
-              }
+            const double vi = phi[i] * dx, gi0 = gq[2 * i] * dx, gi1 = gq[2 * i + 1] * dx;
+            const double gpsi = g[c_psi][0] * gi0 + g[c_psi][1] * gi1;
+            const double gn   = g[c_phin][0] * gi0 + g[c_phin][1] * gi1;
+            const double gp   = g[c_phip][0] * gi0 + g[c_phip][1] * gi1;
+            f[c_psi][i] += r.eps * gpsi - charge * vi;
+            f[c_phin][i] += jn_coef * gn - (k.R - G) * vi;
+            f[c_phip][i] += jp_coef * gp + (k.R - G) * vi;
             if (!Aptr)
               continue;
-            FullMatrix<double> &A  = *Aptr;
-            const double        gn = g[c_phin] * gi, gp = g[c_phip] * gi;
-            for (unsigned j = 0; j < dpc; ++j)
+            for (unsigned j = 0; j < 4; ++j)
               {
-                const double       wj = fv.shape_value(j, q);
-                const Tensor<1, 2> gj = fv.shape_grad(j, q);
-                const unsigned     cj = comp[j];
-                double             a  = 0;
-                switch (comp[i])
-                  {
-                    case c_psi:
-                      if (cj == c_psi)
-                        a = r.eps * (gj * gi) + (p + n) * wj * vi;
-                      else if (cj == c_phin)
-                        a = -n * wj * vi;
-                      else
-                        a = -p * wj * vi;
-                      break;
-                    case c_phin:
-                      if (cj == c_psi)
-                        a = jn_coef * wj * gn - dR[0] * wj * vi;
-                      else if (cj == c_phin)
-                        a = -jn_coef * wj * gn + jn_coef * (gj * gi) - dR[1] * wj * vi;
-                      else
-                        a = -dR[2] * wj * vi;
-                      break;
-                    case c_phip:
-                      if (cj == c_psi)
-                        a = -jp_coef * wj * gp + dR[0] * wj * vi;
-                      else if (cj == c_phin)
-                        a = dR[1] * wj * vi;
-                      else
-                        a = jp_coef * wj * gp + jp_coef * (gj * gi) + dR[2] * wj * vi;
-                      break;
-                  }
-                A(i, j) += a * dx;
+                const double wj = phi[j];
+                const double K  = gq[2 * j] * gi0 + gq[2 * j + 1] * gi1; // grad w_j . grad v_i dx
+                const double M  = wj * vi;                               // w_j v_i dx
+                a[c_psi][i][c_psi][j] += r.eps * K + (p + n) * M;
+                a[c_psi][i][c_phin][j] -= n * M;
+                a[c_psi][i][c_phip][j] -= p * M;
+                a[c_phin][i][c_psi][j] += jn_coef * wj * gn - dR[0] * M;
+                a[c_phin][i][c_phin][j] += -jn_coef * wj * gn + jn_coef * K - dR[1] * M;
+                a[c_phin][i][c_phip][j] -= dR[2] * M;
+                a[c_phip][i][c_psi][j] += -jp_coef * wj * gp + dR[0] * M;
+                a[c_phip][i][c_phin][j] += dR[1] * M;
+                a[c_phip][i][c_phip][j] += jp_coef * wj * gp + jp_coef * K + dR[2] * M;
               }
           }
+      }
+    for (unsigned i = 0; i < dpc; ++i)
+      {
+        F(i) = f[comp[i]][cell_cache.vertex[i]];
+        if (Aptr)
+          for (unsigned j = 0; j < dpc; ++j)
+            (*Aptr)(i, j) = a[comp[i]][cell_cache.vertex[i]][comp[j]][cell_cache.vertex[j]];
       }
 
     // Boundary terms: contact fluxes (contact models that do not pin the
@@ -430,8 +472,7 @@ namespace backcomb::fem
   }
 
   void
-  DriftDiffusionSolver::assemble_system(const Vector<double> &u, const double light,
-                                        const bool scale_rows) const
+  DriftDiffusionSolver::assemble_system(const Vector<double> &u, const double light) const
   {
     const unsigned     dpc = fe.n_dofs_per_cell();
     FullMatrix<double> A(dpc, dpc);
@@ -450,27 +491,52 @@ namespace backcomb::fem
       }
     jacobian.compress(VectorOperation::add);
     rhs.compress(VectorOperation::add);
-    t_assembly += std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-    if (!scale_rows)
-      return;
 
     // Row scaling: the continuity rows carry the carrier densities and span
     // many orders of magnitude; equilibrate each row by its largest entry
     // before the direct solve.
-    Vec scale;
-    check(VecDuplicate(static_cast<const Vec &>(rhs), &scale), "VecDuplicate");
-    check(MatGetRowMaxAbs(static_cast<Mat>(jacobian), scale, nullptr), "MatGetRowMaxAbs");
+    check(MatGetRowMaxAbs(static_cast<Mat>(jacobian), static_cast<const Vec &>(row_scale), nullptr),
+          "MatGetRowMaxAbs");
     PetscInt lo, hi;
-    check(VecGetOwnershipRange(scale, &lo, &hi), "VecGetOwnershipRange");
+    check(VecGetOwnershipRange(static_cast<const Vec &>(row_scale), &lo, &hi), "VecGetOwnershipRange");
     PetscScalar *s;
-    check(VecGetArray(scale, &s), "VecGetArray");
+    check(VecGetArray(static_cast<const Vec &>(row_scale), &s), "VecGetArray");
     for (PetscInt i = 0; i < hi - lo; ++i)
       s[i] = (s[i] > 0 && std::isfinite(s[i])) ? 1.0 / s[i] : 1.0;
-    check(VecRestoreArray(scale, &s), "VecRestoreArray");
-    check(MatDiagonalScale(static_cast<Mat>(jacobian), scale, nullptr), "MatDiagonalScale");
-    check(VecPointwiseMult(static_cast<const Vec &>(rhs), scale, static_cast<const Vec &>(rhs)),
+    check(VecRestoreArray(static_cast<const Vec &>(row_scale), &s), "VecRestoreArray");
+    check(MatDiagonalScale(static_cast<Mat>(jacobian), static_cast<const Vec &>(row_scale), nullptr),
+          "MatDiagonalScale");
+    check(VecPointwiseMult(static_cast<const Vec &>(rhs), static_cast<const Vec &>(row_scale),
+                           static_cast<const Vec &>(rhs)),
           "VecPointwiseMult");
-    check(VecDestroy(&scale), "VecDestroy");
+    // The next solve factorises the new matrix.
+    factors_valid = false;
+    ++n_factorisations;
+    t_assembly += std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  }
+
+  void
+  DriftDiffusionSolver::assemble_scaled_residual(const Vector<double> &u, const double light) const
+  {
+    const unsigned dpc = fe.n_dofs_per_cell();
+    Vector<double> F(dpc);
+    std::vector<types::global_dof_index> idx(dpc);
+    const auto t0 = std::chrono::steady_clock::now();
+    rhs = 0;
+    for (const auto &cell : dofs.active_cell_iterators())
+      {
+        if (!cell->is_locally_owned())
+          continue;
+        assemble_cell(cell, u, light, nullptr, F, true);
+        cell->get_dof_indices(idx);
+        zero_constraints.distribute_local_to_global(F, idx, rhs);
+      }
+    rhs.compress(VectorOperation::add);
+    check(VecPointwiseMult(static_cast<const Vec &>(rhs), static_cast<const Vec &>(row_scale),
+                           static_cast<const Vec &>(rhs)),
+          "VecPointwiseMult");
+    ++n_residuals;
+    t_assembly += std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
   }
 
   void
@@ -493,15 +559,36 @@ namespace backcomb::fem
   }
 
   NewtonReport
-  DriftDiffusionSolver::newton(Vector<double> &u, const double light) const
+  DriftDiffusionSolver::newton(Vector<double> &u, const double light, const bool reuse) const
   {
-    const auto   start = std::chrono::steady_clock::now();
-    NewtonReport report;
+    // A chord step solves with the factorisation of an earlier Jacobian
+    // (of this solve or of the last converged state) and costs one residual
+    // and one back-substitution instead of an assembly and a factorisation.
+    // It is kept while the updates contract by at least `chord_contraction`
+    // per step; a slower or growing update brings a fresh Jacobian (and a
+    // growing one is undone first). Converged means the same in both: the
+    // largest update below the tolerance, and with a contraction rate below
+    // 1/4 the distance to the solution is at most a third of that update.
+    constexpr double chord_contraction = 0.25;
+    const auto       start             = std::chrono::steady_clock::now();
+    NewtonReport     report;
     PETScWrappers::MPI::Vector delta_p(owned, comm);
+    // The last accepted update; a first chord step must stay below the
+    // update limit, where Newton's model is trusted.
+    double previous = numerics.max_update;
+    bool   fresh    = !reuse || !factors_valid;
     for (unsigned it = 0; it < numerics.max_iterations; ++it)
       {
-        assemble_system(u, light);
+        const bool chord = !fresh;
+        if (chord)
+          assemble_scaled_residual(u, light);
+        else
+          {
+            assemble_system(u, light);
+            ++report.factorisations;
+          }
         const bool ok = lu_solve(static_cast<const Vec &>(rhs), static_cast<const Vec &>(delta_p), false);
+        factors_valid = ok;
         // The update, complete on every process.
         Vector<double> delta(delta_p);
         zero_constraints.distribute(delta);
@@ -517,6 +604,13 @@ namespace backcomb::fem
               worst = std::abs(delta[i]), where = i;
           }
         report.iterations = it + 1;
+        if (chord && (!finite || !(worst < previous)))
+          {
+            // The old factorisation does not contract here: take this
+            // iterate again with a fresh Jacobian.
+            fresh = true;
+            continue;
+          }
         report.update_history.push_back(finite ? worst : std::numeric_limits<double>::infinity());
         if (!finite)
           break;
@@ -530,6 +624,10 @@ namespace backcomb::fem
             report.converged = true;
             break;
           }
+        // Chord steps next while a fresh Jacobian's step was small enough to
+        // be in Newton's region, or while chord steps contract fast.
+        fresh    = !reuse || (chord ? worst > chord_contraction * previous : worst > numerics.max_update);
+        previous = worst;
       }
     report.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     return report;
@@ -538,15 +636,22 @@ namespace backcomb::fem
   void
   DriftDiffusionSolver::solve_transposed(const Vector<double> &b, Vector<double> &z) const
   {
-    // Unscaled Jacobian: MUMPS scales internally, and the transpose of a
-    // row-scaled matrix would need the scaling undone afterwards.
-    assemble_system(solution, light_factor, false);
+    // The factorised matrix is the row-scaled Jacobian S J, so
+    // J^T z = b is (S J)^T y = b with z = S y. The Jacobian is that of the
+    // state itself (the factors of the last Newton step belong to the
+    // iterate before it, or to an earlier state after chord steps); the
+    // next Newton solve may start from these factors.
+    assemble_system(solution, light_factor);
     PETScWrappers::MPI::Vector b_p(owned, comm), y_p(owned, comm);
     for (const auto i : owned)
       b_p[i] = b[i];
     b_p.compress(VectorOperation::insert);
-    if (!lu_solve(static_cast<const Vec &>(b_p), static_cast<const Vec &>(y_p), true))
+    factors_valid = lu_solve(static_cast<const Vec &>(b_p), static_cast<const Vec &>(y_p), true);
+    if (!factors_valid)
       throw std::runtime_error("the transposed Jacobian could not be factorised");
+    check(VecPointwiseMult(static_cast<const Vec &>(y_p), static_cast<const Vec &>(row_scale),
+                           static_cast<const Vec &>(y_p)),
+          "VecPointwiseMult");
     z = Vector<double>(y_p);
   }
 
@@ -670,7 +775,7 @@ namespace backcomb::fem
       }
     set_boundary_values(solution, 0.0);
     Vector<double> u = solution;
-    const NewtonReport rep = newton(u, 0.0);
+    const NewtonReport rep = newton(u, 0.0, false);
     if (rep.converged)
       {
         solution     = u;
@@ -685,7 +790,20 @@ namespace backcomb::fem
   {
     Vector<double> u = solution;
     set_boundary_values(u, voltage);
-    const NewtonReport rep = newton(u, light);
+    NewtonReport rep = newton(u, light, true);
+    if (!rep.converged)
+      {
+        // Chord steps can stall where full Newton steps still converge:
+        // try again from the same start with a fresh Jacobian every step.
+        u = solution;
+        set_boundary_values(u, voltage);
+        NewtonReport full = newton(u, light, false);
+        full.chord_attempt_iterations = rep.iterations;
+        full.iterations += rep.iterations;
+        full.factorisations += rep.factorisations;
+        full.seconds += rep.seconds;
+        rep = full;
+      }
     if (rep.converged)
       {
         solution     = u;

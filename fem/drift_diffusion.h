@@ -42,6 +42,10 @@ namespace backcomb::fem
     std::vector<double> update_history; // max |update| per step, kT/q
     double              worst_x = 0, worst_y = 0; // where the last update was largest, um
     double              seconds = 0;
+    unsigned            factorisations = 0; // Jacobians assembled and factorised
+    // Steps of a first attempt that reused factorisations and did not
+    // converge (included in `iterations`; the history is the last attempt's).
+    unsigned            chord_attempt_iterations = 0;
   };
 
   // Terminal currents at the hole contact, generator convention: positive
@@ -148,9 +152,14 @@ namespace backcomb::fem
 
     unsigned n_dofs() const { return dofs.n_dofs(); }
 
-    // Time spent so far in assembly and in the direct solver (s).
+    // Time spent so far in assembly and in the direct solver (s), and the
+    // number of Jacobians factorised and of residuals assembled.
     double assembly_seconds() const { return t_assembly; }
     double linear_solve_seconds() const { return t_solve; }
+    unsigned factorisations() const { return n_factorisations; }
+    // Time spent in the numerical factorisations alone (s).
+    double factorisation_seconds() const { return t_factorise; }
+    unsigned residual_assemblies() const { return n_residuals; }
 
     // Local collection probability f_c = dI/dG (per generated pair; I the
     // terminal current in generator convention) at the current state, from
@@ -179,6 +188,7 @@ namespace backcomb::fem
 
   private:
     void setup_system();
+    void cache_cell_geometry();
     void precompute_generation();
     void set_boundary_values(dealii::Vector<double> &u, double voltage) const;
     // Local Jacobian (if A) and residual of one cell, including its
@@ -192,13 +202,19 @@ namespace backcomb::fem
                        dealii::Vector<double> &F,
                        bool with_contacts) const;
     // Jacobian and residual of the locally owned cells, with the Dirichlet
-    // rows of the Newton update, row-equilibrated.
-    void assemble_system(const dealii::Vector<double> &u, double light, bool scale_rows = true) const;
+    // rows of the Newton update, row-equilibrated; the row scale is kept
+    // with the factorisation that follows.
+    void assemble_system(const dealii::Vector<double> &u, double light) const;
+    // The residual alone, scaled by the rows of the last factorised
+    // Jacobian (for a chord step with that factorisation).
+    void assemble_scaled_residual(const dealii::Vector<double> &u, double light) const;
     // Residual without contact terms and constraints (complete vector; each
     // process holds the contributions of its own cells).
     void assemble_residual(const dealii::Vector<double> &u, double light,
                            dealii::Vector<double> &r) const;
-    NewtonReport newton(dealii::Vector<double> &u, double light) const;
+    // Newton's method; with `reuse` a step may take the factorisation of an
+    // earlier Jacobian (a chord step) while the updates contract fast.
+    NewtonReport newton(dealii::Vector<double> &u, double light, bool reuse) const;
     bool lu_solve(Vec b, Vec x, bool transpose) const;
     // All DoFs of component c on boundary b, on every process.
     std::vector<dealii::types::global_dof_index> boundary_dofs(unsigned b, unsigned c) const;
@@ -220,12 +236,26 @@ namespace backcomb::fem
     dealii::AffineConstraints<double> zero_constraints; // Dirichlet DoFs of the update
     mutable dealii::PETScWrappers::MPI::SparseMatrix jacobian;
     mutable dealii::PETScWrappers::MPI::Vector       rhs;
+    mutable dealii::PETScWrappers::MPI::Vector       row_scale; // of the factorised Jacobian
+    mutable bool                     factors_valid = false; // the KSP holds factors of `jacobian`
     dealii::Vector<double>           solution;
+    // Per-cell data of the assembly (the mesh never changes): DoF indices,
+    // shape gradients and JxW at the quadrature points, and the shape
+    // values of the reference cell.
+    struct CellCache
+    {
+      std::vector<dealii::types::global_dof_index> dofs; // 12 per cell
+      std::vector<double> grad;                          // [cell][q][vertex][2]
+      std::vector<double> jxw;                           // [cell][q]
+      double              phi[64][4];                    // [q][vertex]
+      unsigned            component[12], vertex[12];     // of each system DoF
+    } cell_cache;
     std::vector<double>              generation_qp; // scaled, per cell and quadrature point
     std::vector<double>              fixed_charge_qp; // scaled, empty if none
     std::vector<dealii::types::global_dof_index> hole_contact_dofs[3], electron_contact_dofs[3];
     std::vector<dealii::Point<2>>    support_points;
     double                           bias = 0, light_factor = 0, width = 0;
-    mutable double                   t_assembly = 0, t_solve = 0;
+    mutable double                   t_assembly = 0, t_solve = 0, t_factorise = 0;
+    mutable unsigned                 n_factorisations = 0, n_residuals = 0;
   };
 } // namespace backcomb::fem

@@ -40,17 +40,41 @@ namespace backcomb::fem
                 [](const ScanPoint &a, const ScanPoint &b) { return a.jv.voltage < b.jv.voltage; });
     }
 
-    // A first try from the solution extrapolated linearly through the two
-    // previous points; on failure the last converged state and step halving.
-    StepReport
-    predicted_step(DriftDiffusionSolver &solver, const dealii::Vector<double> &older, double v_older,
-                   const dealii::Vector<double> &old, double v_old, double v, double light,
-                   unsigned max_halvings)
+    // The last converged points of a scan side, newest last (at most three).
+    struct History
     {
-      if (older.size() == 0 || !(std::abs(v_old - v_older) > 0))
+      std::vector<double>                 v;
+      std::vector<dealii::Vector<double>> u;
+      void
+      push(const double voltage, const dealii::Vector<double> &state)
+      {
+        if (v.size() == 3)
+          v.erase(v.begin()), u.erase(u.begin());
+        v.push_back(voltage);
+        u.push_back(state);
+      }
+    };
+
+    // A first try from the solution extrapolated through the previous
+    // points (Lagrange polynomial through up to three: the error of the
+    // guess falls with the cube of the bias step, so that the first chord
+    // step starts close to the solution); on failure the last converged
+    // state and step halving.
+    StepReport
+    predicted_step(DriftDiffusionSolver &solver, const History &h, const double v, const double light,
+                   const unsigned max_halvings)
+    {
+      if (h.v.size() < 2)
         return move_to(solver, v, light, max_halvings);
-      dealii::Vector<double> guess = old;
-      guess.sadd(1.0 + (v - v_old) / (v_old - v_older), -(v - v_old) / (v_old - v_older), older);
+      dealii::Vector<double> guess(h.u.back().size());
+      for (std::size_t i = 0; i < h.v.size(); ++i)
+        {
+          double w = 1;
+          for (std::size_t j = 0; j < h.v.size(); ++j)
+            if (j != i)
+              w *= (v - h.v[j]) / (h.v[i] - h.v[j]);
+          guess.add(w, h.u[i]);
+        }
       solver.set_state(guess, v, light);
       const NewtonReport n = solver.solve(v, light);
       StepReport         r;
@@ -58,7 +82,7 @@ namespace backcomb::fem
       r.converged         = n.converged;
       if (!r.converged)
         {
-          solver.set_state(old, v_old, light);
+          solver.set_state(h.u.back(), h.v.back(), light);
           const StepReport again = move_to(solver, v, light, max_halvings);
           r.converged            = again.converged;
           r.halvings             = again.halvings;
@@ -75,8 +99,7 @@ namespace backcomb::fem
               const Resume &resume, bool extend_to_voc, double step)
     {
       const auto             t0 = std::chrono::steady_clock::now();
-      dealii::Vector<double> older, old;
-      double                 v_older = 0, v_old = 0;
+      History                history;
       std::vector<double>    todo(biases.rbegin(), biases.rend());
       double                 extended = 0;
       while (!todo.empty())
@@ -91,8 +114,7 @@ namespace backcomb::fem
             }
           else
             {
-              const StepReport r =
-                predicted_step(solver, older, v_older, old, v_old, v, light, max_halvings);
+              const StepReport r = predicted_step(solver, history, v, light, max_halvings);
               p.jv.voltage           = v;
               p.jv.converged         = r.converged;
               p.jv.newton_iterations = r.newton_iterations;
@@ -111,10 +133,7 @@ namespace backcomb::fem
             }
           out.newton += p.jv.newton_iterations;
           out.halvings += p.halvings;
-          older   = old;
-          v_older = v_old;
-          old     = p.state;
-          v_old   = v;
+          history.push(v, p.state);
           out.points.push_back(p);
           if (progress)
             progress(label + ": V = " + format_fixed(v, 3) + " V, J = " + format_fixed(p.jv.current, 3) +

@@ -13,10 +13,13 @@ namespace backcomb::fem
     {
       std::ostringstream s;
       s << "Newton did not converge at V = " << voltage << " V, light factor " << light
-        << " after " << r.iterations << " steps; largest update per step (kT/q):";
+        << " after " << r.iterations - r.chord_attempt_iterations << " steps; largest update per step (kT/q):";
       for (const double u : r.update_history)
         s << ' ' << u;
       s << "; last largest update at x = " << r.worst_x << " um, y = " << r.worst_y << " um";
+      if (r.chord_attempt_iterations > 0)
+        s << "; a first attempt of " << r.chord_attempt_iterations
+          << " steps reusing factorisations did not converge either";
       return s.str();
     }
   } // namespace
@@ -65,17 +68,27 @@ namespace backcomb::fem
         rep.diagnostic = "equilibrium: " + describe_failure(eq, 0, 0);
         return rep;
       }
+    // The light ramp in steps of two decades from 1e-4 of the full light;
+    // a step that fails is taken again one decade at a time (each with its
+    // own step halvings) from the last level reached.
     if (light > 0)
-      for (int e = -8; e <= 0; ++e)
+      for (int e = -4, reached = -9; e <= 0; e += 2)
         {
-          const StepReport r = move_to(solver, 0.0, light * std::pow(10.0, e), max_halvings);
+          StepReport r = move_to(solver, 0.0, light * std::pow(10.0, e), max_halvings);
           rep.newton_iterations += r.newton_iterations;
           rep.halvings += r.halvings;
+          for (int d = reached + 1; !r.converged && d <= e; ++d)
+            {
+              r = move_to(solver, 0.0, light * std::pow(10.0, d), max_halvings);
+              rep.newton_iterations += r.newton_iterations;
+              rep.halvings += r.halvings;
+            }
           if (!r.converged)
             {
               rep.diagnostic = "light ramp: " + r.diagnostic;
               return rep;
             }
+          reached = e;
         }
     rep.converged = true;
     return rep;

@@ -26,8 +26,9 @@ namespace backcomb::fem
                      double light,
                      unsigned max_halvings);
 
-  // Equilibrium, then the generation switched on in decades (1e-8, 1e-7,
-  // ..., 1) times `light`, at zero bias.
+  // Equilibrium, then the generation switched on in steps of two decades
+  // (1e-4, 1e-2, 1) times `light`, at zero bias; a step that fails is
+  // retried one decade at a time from the last level reached.
   StepReport illuminate(DriftDiffusionSolver &solver, double light, unsigned max_halvings);
 
   // The voltage where the terminal current vanishes at light factor

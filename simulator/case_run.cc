@@ -283,6 +283,9 @@ namespace backcomb::simulator
     Status          status    = Status::converged;
     fem::JVMetrics  metrics;
     double          light_assembly = 0, light_solve = 0;
+    unsigned        light_factorisations = 0, light_residuals = 0, dark_factorisations = 0;
+    unsigned        ramp_factorisations = 0; // equilibrium and the light ramp
+    double          ramp_seconds        = 0;
 
     json     fields = json::array(), dead_zone = nullptr, collection = nullptr;
     double   adjoint_seconds = 0;
@@ -540,7 +543,10 @@ namespace backcomb::simulator
   {
     dealii::TimerOutput::Scope scope(timer, t_light);
     const std::string          label = lit ? "light" : "dark";
-    on = fem::start_state(*solver, lit ? 1.0 : 0.0, c.numerics.max_halvings, label, resume);
+    dealii::Timer ramp;
+    on                  = fem::start_state(*solver, lit ? 1.0 : 0.0, c.numerics.max_halvings, label, resume);
+    ramp_seconds        = ramp.wall_time();
+    ramp_factorisations = solver->factorisations();
     light.newton += on.newton_iterations;
     light.halvings += on.halvings;
     if (!on.converged)
@@ -556,8 +562,10 @@ namespace backcomb::simulator
         if (lit)
           fem::refine(*solver, light, c.jv.refine_to, c.numerics.max_halvings, resume);
       }
-    light_assembly = solver->assembly_seconds();
-    light_solve    = solver->linear_solve_seconds();
+    light_assembly       = solver->assembly_seconds();
+    light_solve          = solver->linear_solve_seconds();
+    light_factorisations = solver->factorisations();
+    light_residuals      = solver->residual_assemblies();
   }
 
   // Fields at the requested biases from the stored states, with the adjoint
@@ -714,6 +722,7 @@ namespace backcomb::simulator
     dealii::TimerOutput::Scope scope(timer, t_dark);
     if (!lit || !c.jv.dark)
       return;
+    const unsigned        before = solver->factorisations();
     const fem::StepReport eq = fem::start_state(*solver, 0.0, c.numerics.max_halvings, "dark", resume);
     dark.newton += eq.newton_iterations;
     if (eq.converged)
@@ -721,6 +730,7 @@ namespace backcomb::simulator
                 [this](const std::string &s) { progress.line(s); }, "dark", resume);
     else
       dark.failures.push_back(eq.diagnostic);
+    dark_factorisations = solver->factorisations() - before;
   }
 
   // The whole comb cell (fingers and contact resistance, Electrodes
@@ -842,8 +852,18 @@ namespace backcomb::simulator
     s["active_width_um"]               = active;
     s["generation_current_mA_per_cm2"] = generated;
     s["collection_efficiency"]         = (jsc && generated > 0) ? json(*jsc / generated) : json(nullptr);
-    s["newton"] = {{"light_iterations", light.newton}, {"light_halvings", light.halvings},
-                   {"dark_iterations", dark.newton},   {"dark_halvings", dark.halvings}};
+    // Iterations count every linear solve (Newton and chord steps);
+    // factorisations only the fresh Jacobians.
+    s["newton"] = {{"light_iterations", light.newton},
+                   {"light_halvings", light.halvings},
+                   {"light_factorisations", light_factorisations},
+                   {"light_start_factorisations", ramp_factorisations},
+                   {"light_start_iterations", on.newton_iterations},
+                   {"light_residual_assemblies", light_residuals},
+                   {"dark_iterations", dark.newton},
+                   {"dark_halvings", dark.halvings},
+                   {"dark_factorisations", dark_factorisations},
+                   {"factorisations", solver ? solver->factorisations() : 0u}};
     s["fields"]         = fields;
     s["collection_map"] = collection;
     s["dead_zone"]      = dead_zone;
@@ -878,10 +898,15 @@ namespace backcomb::simulator
     json &t = s["timings_s"];
     for (const char *name : {t_mesh, t_light, t_fields, t_losses, t_dark, t_cell})
       t[name] = phase(name);
+    t["light_start"]        = ramp_seconds;
     t["light_assembly"]     = light_assembly;
     t["light_linear_solve"] = light_solve;
     t["adjoint_per_solve"]  = adjoint_solves > 0 ? json(adjoint_seconds / adjoint_solves) : json(nullptr);
     t["newton_step_light"]  = light.newton > 0 ? json(phase(t_light) / light.newton) : json(nullptr);
+    // The floor of one bias: one numerical factorisation of the Jacobian.
+    t["factorisation_mean"] = (solver && solver->factorisations() > 0)
+                                ? json(solver->factorisation_seconds() / solver->factorisations())
+                                : json(nullptr);
     return s;
   }
 

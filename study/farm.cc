@@ -12,11 +12,15 @@
 #include <mpi.h>
 #include <nlohmann/json.hpp>
 
+#include <cerrno>
 #include <chrono>
+#include <cmath>
+#include <cstring>
 #include <cstdio>
 #include <fcntl.h>
 #include <filesystem>
 #include <iostream>
+#include <memory>
 #include <unistd.h>
 
 namespace backcomb::study
@@ -167,19 +171,90 @@ namespace backcomb::study
         write_file_atomically(plan_file(folder), plan_to_json(plan).dump(2) + "\n");
     }
 
-    // The cases of this task's share, and those of them this rank runs
-    // (dealt round-robin to the ranks).
-    void
-    shares(const StudyPlan &plan, const StudyOptions &o, const int rank, const int size,
-           std::vector<std::size_t> &share, std::vector<std::size_t> &mine)
+    // The cases of this task's share (every task-th case of the plan),
+    // most expensive first: the widest electrode pitch has the most mesh
+    // columns and the slowest lateral transport (the test strip, without a
+    // pitch, counts as the cheapest). Ranks take the next unclaimed case
+    // when they are free, so that the long cases start first and a rank
+    // never idles while cases are left.
+    std::vector<std::size_t>
+    share_by_cost(const StudyPlan &plan, const StudyOptions &o)
     {
+      std::vector<std::size_t> share;
       for (std::size_t i = 0; i < plan.cases.size(); ++i)
         if (o.tasks == 0 || i % o.tasks == o.task - 1)
           share.push_back(i);
-      for (std::size_t j = 0; j < share.size(); ++j)
-        if (j % std::size_t(size) == std::size_t(rank))
-          mine.push_back(share[j]);
+      auto cost = [&plan](std::size_t i) {
+        const double p = plan.cases[i].pitch_um;
+        return std::isfinite(p) ? p : 0.0;
+      };
+      std::stable_sort(share.begin(), share.end(), [&](std::size_t a, std::size_t b) { return cost(a) > cost(b); });
+      return share;
     }
+
+    // Claims of the cases of one run of the study: a case belongs to the
+    // rank that creates its claim file first (O_EXCL, atomic on local and
+    // network file systems). The folder is the run's own (named by rank
+    // 0's host, process and start time), so claims of an interrupted run
+    // never block a rerun; rank 0 removes it when the run ends.
+    class CaseClaims
+    {
+    public:
+      CaseClaims(const std::string &folder, const StudyOptions &o, const int rank, const bool parallel)
+      {
+        char token[160] = "";
+        if (rank == 0)
+          {
+            char host[64] = "";
+            ::gethostname(host, sizeof host - 1);
+            std::snprintf(token, sizeof token, "%s-%ld-%lld-task%u", host, long(::getpid()),
+                          (long long)std::chrono::system_clock::now().time_since_epoch().count(), o.task);
+          }
+        if (parallel)
+          MPI_Bcast(token, sizeof token, MPI_CHAR, 0, MPI_COMM_WORLD);
+        dir = folder + "/claims/" + token;
+        int made = 1;
+        if (rank == 0)
+          {
+            std::error_code ec;
+            fs::create_directories(dir, ec);
+            made = ec ? 0 : 1;
+          }
+        if (parallel)
+          MPI_Bcast(&made, 1, MPI_INT, 0, MPI_COMM_WORLD);
+        if (!made)
+          throw OutputError("cannot create the folder " + dir + " for the claims of the cases");
+        owner = rank == 0;
+      }
+      ~CaseClaims()
+      {
+        if (!owner)
+          return;
+        std::error_code ec;
+        fs::remove_all(dir, ec);
+        fs::remove(fs::path(dir).parent_path(), ec); // only if empty
+      }
+      CaseClaims(const CaseClaims &)            = delete;
+      CaseClaims &operator=(const CaseClaims &) = delete;
+
+      bool
+      take(const std::string &id) const
+      {
+        const int fd = ::open((dir + "/" + id).c_str(), O_WRONLY | O_CREAT | O_EXCL, 0644);
+        if (fd < 0)
+          {
+            if (errno == EEXIST)
+              return false;
+            throw OutputError("cannot create the claim file " + dir + "/" + id + ": " + std::strerror(errno));
+          }
+        ::close(fd);
+        return true;
+      }
+
+    private:
+      std::string dir;
+      bool        owner = false;
+    };
 
     void
     print_start(const StudyPlan &plan, const StudyOptions &o, const std::size_t share_size,
@@ -196,13 +271,14 @@ namespace backcomb::study
       std::fflush(stdout);
     }
 
-    // Runs this rank's cases that need it; the exit code so far.
+    // Runs the cases of the share that need it and that this rank claims
+    // first; the exit code so far.
     int
-    run_cases(const StudyPlan &plan, const StudyOptions &o, const std::vector<std::size_t> &mine,
-              StudyProgress &progress)
+    run_cases(const StudyPlan &plan, const StudyOptions &o, const std::vector<std::size_t> &share,
+              const CaseClaims &claims, StudyProgress &progress)
     {
       int code = exit_ok;
-      for (const auto i : mine)
+      for (const auto i : share)
         {
           const StudyCase &c = plan.cases[i];
           const bool finished = is_finished(o.folder, c.id);
@@ -213,6 +289,8 @@ namespace backcomb::study
                 code = exit_no_convergence;
               continue;
             }
+          if (!claims.take(c.id))
+            continue;
           progress.starting(c);
           const StudyRow r = run_case(plan, c, o.folder);
           if (r.status == Status::failed)
@@ -263,29 +341,30 @@ namespace backcomb::study
       throw InputError("--task", std::to_string(o.task), "must lie in 1.." + std::to_string(o.tasks));
     check_folder_and_write_plan(plan, o.folder, rank);
 
-    std::vector<std::size_t> share, mine;
-    shares(plan, o, rank, size, share, mine);
+    const std::vector<std::size_t> share = share_by_cost(plan, o);
     auto needs_run = [&](std::size_t i) {
       const StudyCase &c = plan.cases[i];
       if (!is_finished(o.folder, c.id))
         return true;
       return o.retry_failed && read_row(o.folder, c).status == Status::failed;
     };
-    std::size_t to_run = 0, mine_to_run = 0;
+    std::size_t to_run = 0;
     for (const auto i : share)
       to_run += needs_run(i);
-    for (const auto i : mine)
-      mine_to_run += needs_run(i);
+    // This rank's expected part, for its estimate of the time left.
+    const std::size_t mine_to_run = (to_run + std::size_t(size) - 1) / std::size_t(size);
     if (rank == 0 && !o.quiet)
       print_start(plan, o, share.size(), to_run, size);
 
     int                code = exit_ok;
     std::exception_ptr error;
+    // Removed by rank 0 after every rank has passed the reduction below.
+    auto claims = std::make_unique<CaseClaims>(o.folder, o, rank, parallel);
     {
       StudyProgress progress(o.folder, plan, mine_to_run, o.quiet, size, rank);
       try
         {
-          code = run_cases(plan, o, mine, progress);
+          code = run_cases(plan, o, share, *claims, progress);
         }
       catch (...)
         {
@@ -297,6 +376,7 @@ namespace backcomb::study
     }
     if (parallel)
       MPI_Allreduce(MPI_IN_PLACE, &code, 1, MPI_INT, MPI_MAX, MPI_COMM_WORLD);
+    claims.reset();
     if (error)
       std::rethrow_exception(error);
     if (code == exit_io)

@@ -51,7 +51,7 @@ elif [[ $mode == mpi ]]; then
   export OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1
   expect_exit 0 "$binary" sweep "$case_file" "${vary[@]}" --out serial --quiet
   expect_exit 0 "$launcher" -np 2 --oversubscribe "$binary" sweep "$case_file" "${vary[@]}" --out parallel
-  # Each rank ran its own cases (round-robin), and rank 0 merged once.
+  # Each rank took cases as it became free (dynamic claims), and rank 0 merged once.
   grep -q "rank 0: \[" out.log || fail "no per-case line from rank 0"
   grep -q "rank 1: \[" out.log || fail "no per-case line from rank 1"
   [[ $(grep -c "^Best Geometry/Strip length" out.log) == 1 ]] || fail "expected one recommendation"

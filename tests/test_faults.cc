@@ -144,8 +144,12 @@ TEST(Checkpoint, ResumedRunEqualsUninterruptedRun)
   const nlohmann::json s = read_json(dir / "resumed" / "summary.json");
   EXPECT_EQ(s["resumed_points"], kept);
   EXPECT_FALSE(fs::exists(dir / "resumed" / "checkpoint"));
-  // Equal to Newton tolerance (1e-9 kT/q in the potentials): 1e-6 relative
-  // on every metric and every point is far above that.
+  // Equal to Newton tolerance (1e-9 kT/q in the potentials). The two runs
+  // reach each point by different Newton paths (a resumed run starts
+  // without the factorisation the uninterrupted one reuses), so points agree
+  // to the tolerance, not bit for bit: 1e-6 relative on every metric, and
+  // on every point's current 1e-6 of its own size or of Jsc (near V_oc the
+  // current is a small difference of two currents of the size of Jsc).
   for (const auto &[k, v] : ref["metrics"].items())
     {
       if (v.is_number())
@@ -157,7 +161,8 @@ TEST(Checkpoint, ResumedRunEqualsUninterruptedRun)
   for (std::size_t i = 0; i < s["points"].size(); ++i)
     {
       const double a = s["points"][i]["current_mA_per_cm2"], b = ref["points"][i]["current_mA_per_cm2"];
-      EXPECT_NEAR(a, b, 1e-6 * std::max(std::abs(b), 1e-3)) << s["points"][i].dump();
+      EXPECT_NEAR(a, b, 1e-6 * std::max(std::abs(b), std::abs(double(ref["metrics"]["Jsc_mA_per_cm2"]))))
+        << s["points"][i].dump();
     }
   fs::remove_all(dir);
 }
