@@ -758,6 +758,17 @@ namespace backcomb::fem
   NewtonReport
   DriftDiffusionSolver::solve_equilibrium()
   {
+    // Equilibrium depends on the device alone: a second call (the dark J-V
+    // after the light one) takes the state of the first.
+    if (equilibrium.size() > 0)
+      {
+        solution     = equilibrium;
+        bias         = 0;
+        light_factor = 0;
+        NewtonReport rep;
+        rep.converged = true;
+        return rep;
+      }
     // Initial guess: local charge neutrality with both quasi-Fermi levels at
     // zero, then the contact values.
     solution = 0;
@@ -778,6 +789,7 @@ namespace backcomb::fem
     const NewtonReport rep = newton(u, 0.0, false);
     if (rep.converged)
       {
+        equilibrium  = u;
         solution     = u;
         bias         = 0;
         light_factor = 0;

@@ -111,7 +111,8 @@ namespace backcomb::fem
                          const NumericsParameters &numerics);
 
     // Sets the initial guess (local charge neutrality, flat quasi-Fermi
-    // levels) and solves thermal equilibrium in the dark at zero bias.
+    // levels) and solves thermal equilibrium in the dark at zero bias; a
+    // later call takes the state the first one converged to.
     ~DriftDiffusionSolver();
     DriftDiffusionSolver(const DriftDiffusionSolver &) = delete;
     DriftDiffusionSolver &operator=(const DriftDiffusionSolver &) = delete;
@@ -239,6 +240,7 @@ namespace backcomb::fem
     mutable dealii::PETScWrappers::MPI::Vector       row_scale; // of the factorised Jacobian
     mutable bool                     factors_valid = false; // the KSP holds factors of `jacobian`
     dealii::Vector<double>           solution;
+    dealii::Vector<double>           equilibrium; // once solved
     // Per-cell data of the assembly (the mesh never changes): DoF indices,
     // shape gradients and JxW at the quadrature points, and the shape
     // values of the reference cell.

@@ -203,10 +203,18 @@ def compare_solve(folder, reference):
     for k, v in b["metrics"].items():
         if isinstance(v, (int, float)):
             close(a["metrics"][k], v, f"{folder}: {k} vs the uninterrupted run")
-    largest = max([abs(q["current_mA_per_cm2"]) for q in b["points"] if q["current_mA_per_cm2"] is not None] + [0])
-    for p, q in zip(a["points"], b["points"]):
-        close(p["current_mA_per_cm2"], q["current_mA_per_cm2"], f"{folder}: {p['sweep']} J({p['voltage_V']})",
-              floor=1e-6 * largest)
+    # A resumed run reaches the points after the resume by another Newton
+    # path (it starts without the factorisation the uninterrupted run
+    # reuses), so each current agrees to the Newton tolerance: to 1e-6 of
+    # itself or of the largest current of its curve, whichever is larger (a
+    # current near V_oc is a small difference of two large ones).
+    for label in ("light", "dark"):
+        largest = max([abs(q["current_mA_per_cm2"]) for q in b["points"]
+                       if q["sweep"] == label and q["current_mA_per_cm2"] is not None] + [0])
+        for p, q in zip(a["points"], b["points"]):
+            if q["sweep"] == label:
+                close(p["current_mA_per_cm2"], q["current_mA_per_cm2"],
+                      f"{folder}: {p['sweep']} J({p['voltage_V']})", floor=largest)
     check(len(a["points"]) == len(b["points"]), f"{folder}: {len(a['points'])} points, reference {len(b['points'])}")
     close(a["collection_efficiency"], b["collection_efficiency"], f"{folder}: collection efficiency")
     check(not os.path.exists(os.path.join(folder, "checkpoint")), f"{folder}: checkpoint left after success")
@@ -218,9 +226,13 @@ def compare_sweep(folder, reference):
     check(header == ref_header and len(rows) == len(ref_rows), f"{folder}: sweep.csv shape differs")
     for r, q in zip(rows, ref_rows):
         for h, x, y in zip(header, r, q):
+            if h in ("newton_iterations", "step_halvings"):
+                continue  # solver effort: a resumed case takes another Newton path
             try:
-                # Loss terms in mW/cm^2: below 1e-6 they are zero to the balance's accuracy.
-                close(float(x), float(y), f"{folder}: sweep.csv {r[0]} {h}", floor=1e-6 if h.startswith("loss_") else 1e-12)
+                # Loss terms in mW/cm^2 of an input of tens of mW/cm^2: they
+                # agree to 1e-6 of themselves or to 1e-8 mW/cm^2 (1e-6 of a
+                # 0.01 mW/cm^2 floor), the balance's accuracy at Newton tolerance.
+                close(float(x), float(y), f"{folder}: sweep.csv {r[0]} {h}", floor=1e-2 if h.startswith("loss_") else 1e-12)
             except ValueError:
                 check(x == y, f"{folder}: sweep.csv {r[0]} {h}: {x} vs {y}")
 
