@@ -52,7 +52,8 @@ namespace
     "  --retry-failed               recompute cases that failed before\n"
     "\n"
     "exit codes: 0 success, 1 usage, 2 invalid input, 3 no convergence,\n"
-    "            4 output could not be written, 5 internal error\n";
+    "            4 output could not be written, 5 internal error,\n"
+    "            6 finished, but a result breaks a physical bound\n";
 
   struct Arguments
   {

@@ -16,9 +16,13 @@ namespace backcomb
     exit_input          = 2, // invalid case file, override or data file
     exit_no_convergence = 3, // a solve failed after all step halvings
     exit_io             = 4, // output could not be written
-    exit_internal       = 5  // a bug: please report with the case file
+    exit_internal       = 5, // a bug: please report with the case file
+    exit_bounds         = 6  // finished, but a result breaks a physical bound
   };
 
+  // Messages of both error classes have bytes that are not UTF-8 written
+  // as \\xNN (base/text.h), so that they can be stored in JSON.
+  //
   // An invalid input value. `entry` is the full path "Section/Name" (or a
   // file name for data files), `value` the offending text.
   class InputError : public std::runtime_error
@@ -42,6 +46,6 @@ namespace backcomb
   class OutputError : public std::runtime_error
   {
   public:
-    using std::runtime_error::runtime_error;
+    explicit OutputError(const std::string &message);
   };
 } // namespace backcomb

@@ -1,9 +1,14 @@
 #include "simulator/case_file.h"
 
 #include "base/entries.h"
+#include "base/format.h"
+#include "base/text.h"
 #include "simulator/legacy_entries.h"
 
+#include <algorithm>
 #include <cctype>
+#include <cstdlib>
+#include <map>
 #include <cmath>
 #include <filesystem>
 #include <iomanip>
@@ -131,6 +136,223 @@ namespace backcomb::simulator
             }
         }
       check(joined, joined_from);
+    }
+
+    std::vector<std::string>
+    split(const std::string &text, const char separator)
+    {
+      std::vector<std::string> parts;
+      std::stringstream        in(text);
+      for (std::string part; std::getline(in, part, separator);)
+        parts.push_back(part);
+      return parts;
+    }
+
+    // Levenshtein distance of the lower-case forms (V. I. Levenshtein,
+    // Soviet Physics Doklady 10 (1966) 707).
+    std::size_t
+    edit_distance(const std::string &a, const std::string &b)
+    {
+      const auto lower = [](char ch) { return std::tolower(static_cast<unsigned char>(ch)); };
+      std::vector<std::size_t> row(b.size() + 1);
+      for (std::size_t j = 0; j <= b.size(); ++j)
+        row[j] = j;
+      for (std::size_t i = 1; i <= a.size(); ++i)
+        {
+          std::size_t diagonal = row[0];
+          row[0]               = i;
+          for (std::size_t j = 1; j <= b.size(); ++j)
+            {
+              const std::size_t up = row[j];
+              row[j] = std::min({row[j] + 1, row[j - 1] + 1, diagonal + (lower(a[i - 1]) != lower(b[j - 1]))});
+              diagonal = up;
+            }
+        }
+      return row[b.size()];
+    }
+
+    // The declared sections and entries: for each section path ("" for the
+    // top level, "Absorber/Transport" for a subsection) its entry names and
+    // its subsection names, read from the annotated template.
+    struct Declared
+    {
+      std::map<std::string, std::vector<std::string>> entries, sections;
+    };
+
+    const Declared &
+    declared_names()
+    {
+      static const Declared d = [] {
+        Declared           out;
+        std::istringstream in(default_case_text());
+        std::vector<std::string> stack;
+        const auto path = [&stack] {
+          std::string p;
+          for (const auto &s : stack)
+            p += (p.empty() ? "" : "/") + s;
+          return p;
+        };
+        for (std::string line; std::getline(in, line);)
+          {
+            std::istringstream w(line);
+            std::string        key, rest;
+            w >> key;
+            std::getline(w, rest);
+            rest = trim(rest);
+            if (key == "subsection")
+              {
+                out.sections[path()].push_back(rest);
+                stack.push_back(rest);
+              }
+            else if (key == "end" && !stack.empty())
+              stack.pop_back();
+            else if (key == "set")
+              out.entries[path()].push_back(trim(rest.substr(0, rest.find('='))));
+          }
+        return out;
+      }();
+      return d;
+    }
+
+    // The section path in force at line `line_no` of `text`.
+    std::string
+    section_at(const std::string &text, const unsigned line_no)
+    {
+      std::vector<std::string> stack;
+      std::istringstream       in(text);
+      unsigned                 no = 0;
+      for (std::string line; std::getline(in, line) && ++no < line_no;)
+        {
+          std::istringstream w(line);
+          std::string        key, rest;
+          w >> key;
+          std::getline(w, rest);
+          if (key == "subsection")
+            stack.push_back(trim(rest.substr(0, rest.find('#'))));
+          else if (key == "end" && !stack.empty())
+            stack.pop_back();
+        }
+      std::string p;
+      for (const auto &s : stack)
+        p += (p.empty() ? "" : "/") + s;
+      return p;
+    }
+
+    // " (did you mean 'A' or 'B'?)" with the names closest to `word`, or a
+    // pointer to the template when none is close.
+    std::string
+    nearest_names(const std::string &word, const std::vector<std::string> &candidates, const std::string &kind)
+    {
+      std::vector<std::pair<std::size_t, std::string>> ranked;
+      for (const auto &c : candidates)
+        ranked.emplace_back(edit_distance(word, c), c);
+      std::stable_sort(ranked.begin(), ranked.end(),
+                       [](const auto &a, const auto &b) { return a.first < b.first; });
+      const std::size_t limit = std::max<std::size_t>(2, word.size() / 3);
+      std::vector<std::string> close;
+      for (const auto &[d, c] : ranked)
+        if (d <= limit && close.size() < 3)
+          close.push_back("'" + c + "'");
+      if (close.empty())
+        {
+          std::string all;
+          for (std::size_t i = 0; i < candidates.size() && i < 12; ++i)
+            all += (i ? ", '" : "'") + candidates[i] + "'";
+          if (candidates.size() > 12)
+            all += ", ...";
+          return candidates.empty() ? std::string(" (print every entry with 'backcomb template')")
+                                    : " (" + kind + ": " + all + ")";
+        }
+      std::string text = " (did you mean ";
+      for (std::size_t i = 0; i < close.size(); ++i)
+        text += (i == 0 ? "" : i + 1 == close.size() ? " or " : ", ") + close[i];
+      return text + "?)";
+    }
+
+    // "; allowed values: 'a', 'b'" for a message that names a Selection
+    // pattern ("[Selection a|b ]"), "" otherwise.
+    std::string
+    allowed_values(const std::string &message)
+    {
+      const std::string marker = "[Selection ";
+      const auto        a      = message.find(marker);
+      if (a == std::string::npos)
+        return "";
+      const auto b = message.find(']', a);
+      if (b == std::string::npos)
+        return "";
+      std::string list;
+      for (const auto &v : split(trim(message.substr(a + marker.size(), b - a - marker.size())), '|'))
+        list += (list.empty() ? "'" : ", '") + trim(v) + "'";
+      return "; allowed values: " + list;
+    }
+
+    // deal.II's message for an unknown entry or section, with the nearest
+    // declared names; other messages unchanged.
+    std::string
+    with_suggestion(const std::string &message, const std::string &text)
+    {
+      const auto between = [&message](const std::string &before, std::size_t from = 0) {
+        const auto a = message.find(before, from);
+        if (a == std::string::npos)
+          return std::string();
+        const auto b = message.find('>', a + before.size());
+        return b == std::string::npos ? std::string() : message.substr(a + before.size(), b - a - before.size());
+      };
+      const std::string line_text = between("Line <");
+      const unsigned    line_no   = line_text.empty() ? 0 : unsigned(std::strtoul(line_text.c_str(), nullptr, 10));
+      const std::string section   = section_at(text, line_no);
+      const Declared   &d         = declared_names();
+      const std::string entry     = between("No entry with name <");
+      if (!entry.empty())
+        {
+          const auto it = d.entries.find(section);
+          return message + nearest_names(entry, it == d.entries.end() ? std::vector<std::string>() : it->second,
+                                         "entries of section '" + section + "'");
+        }
+      const std::string marker = "no such subsection to be entered: ";
+      const auto        at     = message.find(marker);
+      if (at != std::string::npos)
+        {
+          // deal.II names it with its path, the levels joined by '.'.
+          std::string       wanted = trim(message.substr(at + marker.size()));
+          std::string       dotted = section;
+          std::replace(dotted.begin(), dotted.end(), '/', '.');
+          if (!dotted.empty() && wanted.rfind(dotted + ".", 0) == 0)
+            wanted = wanted.substr(dotted.size() + 1);
+          // The section path before this line, without the unknown one.
+          const auto it = d.sections.find(section);
+          return message + nearest_names(wanted, it == d.sections.end() ? std::vector<std::string>() : it->second,
+                                         section.empty() ? "top-level sections" : "subsections of '" + section + "'");
+        }
+      return message + allowed_values(message);
+    }
+
+    // Characters that look like a blank or like nothing, which editors and
+    // copies from documents put into text, and which deal.II would report
+    // as an unparsable line or a strange name: refused with their place
+    // outside comments.
+    void
+    refuse_invisible_characters(const std::string &text, const std::string &file)
+    {
+      const std::pair<const char *, const char *> invisible[] = {{"\xC2\xA0", "U+00A0 no-break space"},
+                                                                 {"\xE2\x80\x8B", "U+200B zero-width space"},
+                                                                 {"\xE2\x80\x8C", "U+200C zero-width non-joiner"},
+                                                                 {"\xE2\x80\x8D", "U+200D zero-width joiner"},
+                                                                 {"\xE2\x81\xA0", "U+2060 word joiner"},
+                                                                 {"\xEF\xBB\xBF", "U+FEFF byte order mark"}};
+      std::istringstream in(text);
+      unsigned           no = 0;
+      for (std::string line; std::getline(in, line);)
+        {
+          ++no;
+          const std::string code = line.substr(0, line.find('#'));
+          for (const auto &[bytes, name] : invisible)
+            if (const auto at = code.find(bytes); at != std::string::npos)
+              throw InputError(file + ":" + std::to_string(no) + ": an invisible character (" + name +
+                               ") at byte " + std::to_string(at + 1) +
+                               " of the line; delete it or replace it with a normal space");
+        }
     }
 
     // Checks that need entries of several sections.
@@ -312,6 +534,51 @@ namespace backcomb::simulator
     return {text.substr(0, eq), text.substr(eq + 1)};
   }
 
+  namespace
+  {
+    // Why deal.II refused the override `path`: an unknown section or entry
+    // (with the nearest names) or a value its pattern does not allow (with
+    // the allowed values of a selection).
+    std::string
+    override_problem(const std::string &path, const dealii::ExceptionBase &e)
+    {
+      const std::string unknown = unknown_entry_reason(path);
+      if (!unknown.empty())
+        return unknown;
+      std::ostringstream s;
+      e.print_info(s);
+      const std::string allowed = allowed_values(s.str());
+      return "value not allowed here" + (allowed.empty() ? std::string(" (see 'backcomb template')") : allowed);
+    }
+  } // namespace
+
+  std::string
+  unknown_entry_reason(const std::string &path)
+  {
+    const Declared                &d     = declared_names();
+    const std::vector<std::string> parts = split(path, '/');
+    if (parts.empty() || parts.back().empty())
+      return "no entry name after the last '/'";
+    static const std::vector<std::string> none;
+    std::string                           section;
+    for (std::size_t i = 0; i + 1 < parts.size(); ++i)
+      {
+        const auto  it    = d.sections.find(section);
+        const auto &known = it == d.sections.end() ? none : it->second;
+        if (std::find(known.begin(), known.end(), parts[i]) == known.end())
+          return "unknown section '" + parts[i] + "'" +
+                 nearest_names(parts[i], known,
+                               section.empty() ? "top-level sections" : "subsections of '" + section + "'");
+        section += (section.empty() ? "" : "/") + parts[i];
+      }
+    const auto  it    = d.entries.find(section);
+    const auto &known = it == d.entries.end() ? none : it->second;
+    if (std::find(known.begin(), known.end(), parts.back()) == known.end())
+      return "unknown entry '" + parts.back() + "'" +
+             nearest_names(parts.back(), known, "entries of section '" + section + "'");
+    return "";
+  }
+
   Case
   read_case(const std::string &file, const std::vector<std::string> &overrides)
   {
@@ -333,8 +600,17 @@ namespace backcomb::simulator
     {
       std::ostringstream s;
       s << case_text.rdbuf();
-      c.echo = s.str();
+      // A byte order mark, which some editors write at the start of a
+      // UTF-8 file, is not part of the text.
+      c.echo = without_byte_order_mark(s.str());
     }
+    // Text at the edge: the case text and every override go into
+    // summary.json and the sweep plan, so bytes that are not UTF-8 are
+    // refused here, before any work, with the line and byte.
+    require_utf8(c.echo, file, true);
+    for (const auto &o : overrides)
+      require_utf8(o, "--set '" + o + "'", false);
+    refuse_invisible_characters(c.echo, file);
     refuse_include(c.echo, file);
     // A case file written for an older backcomb: say what each old name is
     // called now, before deal.II reports it as unknown.
@@ -355,7 +631,7 @@ namespace backcomb::simulator
         std::string msg = s.str();
         while (!msg.empty() && (msg.back() == '\n' || msg.back() == ' '))
           msg.pop_back();
-        throw InputError(file + ": " + msg);
+        throw InputError(file + ": " + with_suggestion(msg, c.echo));
       }
 
     // Overrides: "Section/Sub/Name=value", each entry at most once.
@@ -378,13 +654,11 @@ namespace backcomb::simulator
               prm.enter_subsection(parts[i]);
             prm.set(parts.back(), value);
           }
-        catch (const dealii::ExceptionBase &)
+        catch (const dealii::ExceptionBase &e)
           {
             for (; depth > 0; --depth)
               prm.leave_subsection();
-            throw InputError("--set " + path, value,
-                             "unknown entry or value not allowed here (print the "
-                             "annotated defaults with 'backcomb template')");
+            throw InputError("--set " + path, value, override_problem(path, e));
           }
         for (; depth > 0; --depth)
           prm.leave_subsection();

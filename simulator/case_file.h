@@ -82,5 +82,10 @@ namespace backcomb::simulator
                  const std::vector<std::string> &overrides);
 
   // Splits "Section/Sub/Name=value" into path and value; throws InputError.
+  // Why `path` ("Section/Subsection/Name") is not an entry of the case
+  // file: an unknown section or entry, with the nearest declared names
+  // (edit distance); "" when it is an entry.
+  std::string unknown_entry_reason(const std::string &path);
+
   std::pair<std::string, std::string> split_override(const std::string &text);
 } // namespace backcomb::simulator

@@ -1,16 +1,20 @@
 #include "simulator/case_run.h"
 
+#include "base/files.h"
 #include "base/format.h"
+#include "base/text.h"
 #include "base/status.h"
 #include "fem/comb_electrodes.h"
 #include "fem/drift_diffusion.h"
 #include "fem/jv_scan.h"
+#include "fem/optics.h"
 #include "geometry/ids.h"
 #include "geometry/period_mesh.h"
 #include "postprocess/dead_zone.h"
 #include "postprocess/jv_tables.h"
 #include "postprocess/losses.h"
 #include "postprocess/pvd.h"
+#include "simulator/bounds.h"
 #include "simulator/checkpoint.h"
 #include "simulator/guard_rails.h"
 
@@ -230,6 +234,9 @@ namespace backcomb::simulator
 
   private:
     void prepare_folder();
+    void check_illumination();
+    void lock_folder();
+    void check_densities();
     void build_mesh();
     void set_up_solver();
     void solve_light_jv();
@@ -251,7 +258,7 @@ namespace backcomb::simulator
     const bool        root;
     const bool        strip;
     const bool        lit;
-    const double      input_power; // mW/cm^2
+    double            input_power; // mW/cm^2, integrated from the spectrum used
     const Progress    progress;
     dealii::TimerOutput timer;
     dealii::Timer       total_time; // started with the run
@@ -261,6 +268,11 @@ namespace backcomb::simulator
     std::unique_ptr<fem::DeviceModel>                          device;
     std::unique_ptr<fem::DriftDiffusionSolver>                 solver;
     std::unique_ptr<Checkpoint>                                checkpoint;
+    std::unique_ptr<FolderLock>                                lock; // rank 0
+    std::optional<double>     photon_limit; // above-gap photon current of the incident light, mA/cm^2
+    std::vector<BoundFinding> findings;     // physical bounds (simulator/bounds.h)
+    std::optional<double>     degeneracy;   // largest n/N_c or p/N_v at open circuit
+    std::string               degeneracy_where;
     fem::Resume                                                resume;
     json                                                       summary;
 
@@ -323,7 +335,8 @@ namespace backcomb::simulator
     if (metrics.valid && !strip)
       evaluate_comb_cell();
     settle_status();
-    const int code = status == Status::failed ? exit_no_convergence : exit_ok;
+    const bool violated = std::any_of(findings.begin(), findings.end(), [](const auto &f) { return f.violated; });
+    const int  code     = status == Status::failed ? exit_no_convergence : violated ? exit_bounds : exit_ok;
     if (!root)
       return code;
     write_results();
@@ -342,9 +355,14 @@ namespace backcomb::simulator
     summary["case_file"] = c.file;
     summary["overrides"] = c.overrides;
     summary["case_text"] = c.echo;
+    // Whose result this is: merge and a resumed sweep compare it with the
+    // plan's case (base/text.h).
+    summary["fingerprint"] = result_fingerprint(c.echo, c.overrides);
     generation = std::make_unique<fem::Generation>(c.illumination, c.absorber.band_gap,
                                                    c.geometry.absorber_thickness_um, finger_layout(c));
+    check_illumination();
     make_folder(o.folder);
+    lock_folder();
     // summary.json marks a finished run and describes the files beside it:
     // remove the previous one before any of them is replaced, so that a
     // killed run never leaves a summary next to files of another run.
@@ -352,6 +370,126 @@ namespace backcomb::simulator
       {
         std::error_code ec;
         std::filesystem::remove(o.folder + "/summary.json", ec);
+      }
+  }
+
+  // The light as the solve will see it: the incident power integrated from
+  // the spectrum actually used (PCE is divided by it), the spectrum's
+  // integral against the stated intensity, the photon current bound of the
+  // result checks, and a lit case in which nothing is absorbed, which is
+  // refused here rather than failing later as a solve without metrics.
+  void
+  CaseRun::check_illumination()
+  {
+    if (!lit)
+      return;
+    const double suns   = c.illumination.intensity_suns;
+    const auto   budget = generation->optical_budget();
+    if (budget)
+      {
+        input_power = budget->incident;
+        if (const auto f = spectrum_intensity_check(c.illumination.spectrum_file.string(),
+                                                    budget->incident / (100 * suns)))
+          {
+            if (f->violated)
+              throw InputError(f->message);
+            findings.push_back(*f);
+          }
+      }
+    photon_limit = generation->photon_current_above_gap_mA_per_cm2();
+    std::optional<fem::Spectrum> spectrum;
+    try
+      {
+        spectrum = fem::read_spectrum(c.illumination.spectrum_file);
+      }
+    catch (const InputError &)
+      {
+        // Only the spectrum model reads the file; the others may name any.
+      }
+    if (!photon_limit && spectrum)
+      photon_limit = suns * fem::photon_current_mA_per_cm2(fem::above_gap_spectrum(*spectrum, c.absorber.band_gap));
+    if (generation->absorbed_current_mA_per_cm2() > 0)
+      return;
+    std::string why = "the absorbed photon current is 0";
+    if (c.illumination.model == "spectrum" && spectrum && photon_limit && *photon_limit <= 0)
+      {
+        const double shortest = spectrum->wavelength_nm.front();
+        why = "no photon of the spectrum " + c.illumination.spectrum_file.string() + " (shortest wavelength " +
+              format_number(shortest, 4) + " nm = " + format_number(fem::photon_energy_eV(shortest), 4) +
+              " eV) is above the absorber's band gap " + format_number(c.absorber.band_gap, 4) +
+              " eV (Absorber/Bands and permittivity/Band gap)";
+      }
+    else if (c.illumination.model == "spectrum")
+      why += ": the absorber absorbs none of the above-gap light (Illumination/Optical constants file, "
+             "Geometry/Absorber thickness)";
+    else
+      why += " (Illumination/Generation model = " + c.illumination.model + ": its rate or depth table gives no "
+             "generation)";
+    throw InputError("Illumination/Intensity = " + format_number(suns) + " suns, but nothing is absorbed: " + why +
+                     "; for a dark run set Illumination/Intensity = 0");
+  }
+
+  // One run at a time in a results folder: a second solve into the same
+  // --out stops here, before it changes anything (base/files.h).
+  void
+  CaseRun::lock_folder()
+  {
+    std::string error;
+    bool        input_error = false;
+    if (root)
+      try
+        {
+          lock = std::make_unique<FolderLock>(o.folder);
+        }
+      catch (const InputError &e)
+        {
+          error       = e.what();
+          input_error = true;
+        }
+      catch (const OutputError &e)
+        {
+          error = e.what();
+        }
+    error       = dealii::Utilities::MPI::broadcast(o.communicator, error, 0);
+    input_error = dealii::Utilities::MPI::broadcast(o.communicator, input_error, 0);
+    if (!error.empty())
+      {
+        if (input_error)
+          throw InputError(error);
+        throw OutputError(error);
+      }
+  }
+
+  // The largest n/N_c and p/N_v of the current state at the mesh vertices
+  // and where it is: above 1 the Boltzmann statistics of the model no
+  // longer hold (the carriers are degenerate).
+  void
+  CaseRun::check_densities()
+  {
+    const auto &u = solver->state();
+    for (const auto &cell : solver->dof_handler().active_cell_iterators())
+      {
+        const fem::ScaledRegion &r = device->region(cell->material_id());
+        for (const unsigned v : cell->vertex_indices())
+          {
+            const double psi = u[cell->vertex_dof_index(v, 0)], phi_n = u[cell->vertex_dof_index(v, 1)],
+                         phi_p = u[cell->vertex_dof_index(v, 2)];
+            const double ln_n = psi - phi_n + r.a_n - r.ln_nc, ln_p = phi_p - psi + r.a_p - r.ln_nv;
+            const bool   electrons = ln_n >= ln_p;
+            const double ratio     = std::exp(std::max(ln_n, ln_p));
+            if (!degeneracy || ratio > *degeneracy)
+              {
+                const auto   x       = cell->vertex(v);
+                const double density = ratio * (electrons ? device->materials.at(cell->material_id()).Nc
+                                                          : device->materials.at(cell->material_id()).Nv);
+                degeneracy           = ratio;
+                degeneracy_where     = std::string(electrons ? "electron" : "hole") + " density " +
+                                   format_number(density, 3) + " cm-3 = " + format_number(ratio, 3) + " " +
+                                   (electrons ? "N_c" : "N_v") + " at x = " + format_number(x[0], 4) +
+                                   " um, y = " + format_number(x[1], 4) + " um, at " +
+                                   format_fixed(solver->voltage(), 4) + " V";
+              }
+          }
       }
   }
 
@@ -532,6 +670,7 @@ namespace backcomb::simulator
         balance_at("short_circuit", 0.0);
         balance_at("max_power", best->voltage);
         balance_at("open_circuit", m0.Voc);
+        check_densities();
       }
     for (const double v : c.output.loss_biases)
       balance_at("bias_" + format_fixed(v, 4), v);
@@ -670,6 +809,29 @@ namespace backcomb::simulator
     for (const auto &p : dark.points)
       if (!p.jv.converged && status == Status::converged)
         status = Status::partial;
+
+    // The physical bounds of the results (simulator/bounds.h).
+    ResultFigures r;
+    r.band_gap_eV                 = c.absorber.band_gap;
+    r.temperature_K               = c.device.temperature;
+    r.incident_mW_per_cm2         = input_power;
+    r.photon_current_mA_per_cm2   = photon_limit;
+    r.absorbed_current_mA_per_cm2 = generated;
+    r.active_scale                = active > 0 ? width / active : 1;
+    r.degeneracy                  = degeneracy;
+    r.degeneracy_where            = degeneracy_where;
+    if (lit && metrics.valid)
+      {
+        r.Jsc  = metrics.Jsc;
+        r.Voc  = metrics.Voc;
+        r.Pmax = metrics.Pmax;
+      }
+    for (auto &f : check_bounds(r))
+      findings.push_back(std::move(f));
+    if (root)
+      for (const auto &f : findings)
+        std::fprintf(stderr, "backcomb: %s: %s\n", f.violated ? "result outside physical bounds" : "warning",
+                     f.message.c_str());
   }
 
   json
@@ -717,6 +879,14 @@ namespace backcomb::simulator
         {"fingers", cell_mpp->hole_finger_loss + cell_mpp->electron_finger_loss},
         {"contact_resistance", cell_mpp->hole_contact_loss + cell_mpp->electron_contact_loss}};
     s["processes"] = dealii::Utilities::MPI::n_mpi_processes(o.communicator);
+    s["incident_power_mW_per_cm2"]           = lit ? json(input_power) : json(nullptr);
+    s["incident_photon_current_mA_per_cm2"] = photon_limit ? json(*photon_limit) : json(nullptr);
+    s["bounds"]                              = json::array();
+    for (const auto &f : findings)
+      {
+        s["warnings"].push_back(f.message);
+        s["bounds"].push_back({{"check", f.check}, {"violated", f.violated}, {"message", f.message}});
+      }
 
     // Timings: the phases of the timer, the solver's own split of the light
     // J-V, and per-solve figures.
@@ -769,7 +939,10 @@ namespace backcomb::simulator
     write_file_atomically(o.folder + "/jv.csv", jv_csv(light, dark, width));
     json s                  = summary_of_results();
     s["timings_s"]["total"] = total_time.wall_time();
-    write_file_atomically(o.folder + "/summary.json", s.dump(2) + "\n");
+    // File names and messages are user text: a byte that is not UTF-8
+    // becomes U+FFFD instead of stopping the dump (the case text itself is
+    // checked at the edge, base/text.h).
+    write_file_atomically(o.folder + "/summary.json", s.dump(2, ' ', false, json::error_handler_t::replace) + "\n");
     checkpoint->remove();
   }
 

@@ -63,6 +63,26 @@ namespace backcomb::study
       return newton_total(summary, "light_halvings", "dark_halvings");
     }
 
+    // The number of results outside a physical bound, and of warnings of
+    // any kind (0 for a summary without them).
+    std::optional<double>
+    bound_violations(const json &summary)
+    {
+      const json *bounds = node_at(summary, {"bounds"});
+      double      n      = 0;
+      if (bounds && bounds->is_array())
+        for (const auto &b : *bounds)
+          n += b.is_object() && b.contains("violated") && b["violated"].is_boolean() && b["violated"].get<bool>();
+      return n;
+    }
+
+    std::optional<double>
+    warning_count(const json &summary)
+    {
+      const json *w = node_at(summary, {"warnings"});
+      return (w && w->is_array()) ? double(w->size()) : 0.0;
+    }
+
     // A column whose JSON key is its CSV header, read from nowhere yet.
     Column &
     add(std::vector<Column> &table, const std::string &csv_header, const std::string &unit,
@@ -127,6 +147,12 @@ namespace backcomb::study
       add(t, "series_resistance_ohm_cm2", "ohm cm^2", &StudyRow::series_resistance)
         .read({"series_resistance", "total_ohm_cm2"})
         .show("Rs", 3, 14);
+      add(t, "bound_violations", "", &StudyRow::bound_violations)
+        .read(&bound_violations)
+        .not_metric()
+        .count()
+        .show("bounds!", 0, 15);
+      add(t, "warnings", "", &StudyRow::warnings).read(&warning_count).not_metric().count();
       add(t, "newton_iterations", "", &StudyRow::newton_iterations).read(&newton_iterations).not_metric().count();
       add(t, "step_halvings", "", &StudyRow::step_halvings).read(&step_halvings).not_metric().count();
       // The wall time of the case: in sweep.json only, since it differs
@@ -235,6 +261,16 @@ namespace backcomb::study
     const json *failures = node_at(summary, {"failures"});
     if (failures && failures->is_array() && !failures->empty() && (*failures)[0].is_string())
       row.reason = first_line((*failures)[0].get<std::string>());
+    // No failure: the first result outside a physical bound is the reason
+    // to look at the row.
+    const json *bounds = node_at(summary, {"bounds"});
+    if (row.reason.empty() && bounds && bounds->is_array())
+      for (const auto &b : *bounds)
+        if (b.is_object() && b.value("violated", false) && b.contains("message") && b["message"].is_string())
+          {
+            row.reason = "outside physical bounds: " + first_line(b["message"].get<std::string>());
+            break;
+          }
     for (const auto &c : columns())
       if (!c.metric || row.status != Status::failed)
         if (c.summary_reader || !c.summary_path.empty())

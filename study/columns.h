@@ -44,6 +44,9 @@ namespace backcomb::study
     // the series resistance from suns-Voc (ohm cm^2).
     std::optional<double> loss_electrodes, PCE_cell, series_resistance;
     std::optional<double> newton_iterations, step_halvings, seconds;
+    // summary.json "bounds" (simulator/bounds.h): results outside a
+    // physical bound, and all warnings (bounds and mesh guard rails).
+    std::optional<double> bound_violations, warnings;
   };
 
   struct Column

@@ -312,6 +312,8 @@ namespace backcomb::study
     for (const auto &r : rows)
       if (r.status == Status::failed)
         text += "  " + r.id + " failed: " + r.reason + '\n';
+      else if (r.bound_violations.value_or(0) > 0 && !r.reason.empty())
+        text += "  " + r.id + " " + r.reason + " (not recommended; its summary.json \"bounds\" has all)\n";
     return text;
   }
 
@@ -337,7 +339,7 @@ namespace backcomb::study
     for (const auto &p : plots)
       j["files"]["plots"].push_back(fs::path(p).filename().string());
     j["warnings"] = warnings;
-    write_file_atomically(folder + "/sweep.json", j.dump(2) + "\n");
+    write_file_atomically(folder + "/sweep.json", j.dump(2, ' ', false, json::error_handler_t::replace) + "\n");
 
     std::printf("\n%s", screen_table(plan, rows).c_str());
     std::printf("\n%s\n", rec.text.c_str());
@@ -350,6 +352,8 @@ namespace backcomb::study
       std::fprintf(stderr, "backcomb: %s\n", w.c_str());
     const auto counts = status_counts(rows);
     const bool unfinished = counts.at(to_string(Status::failed)) + counts.at(to_string(Status::missing)) > 0;
-    return unfinished ? exit_no_convergence : exit_ok;
+    const bool violated = std::any_of(rows.begin(), rows.end(),
+                                      [](const StudyRow &r) { return r.bound_violations.value_or(0) > 0; });
+    return unfinished ? exit_no_convergence : violated ? exit_bounds : exit_ok;
   }
 } // namespace backcomb::study

@@ -2,6 +2,7 @@
 
 #include "base/entries.h"
 #include "base/errors.h"
+#include "base/text.h"
 #include "simulator/case_file.h"
 #include "study/layout.h"
 
@@ -86,8 +87,11 @@ namespace backcomb::study
         {
           StudyEntry e = parse_vary(v);
           if (!is_case_entry(e.path))
-            throw InputError("--vary " + e.path, e.values.front(),
-                             "unknown entry (print every entry with 'backcomb template')");
+            {
+              const std::string why = unknown_entry_reason(e.path);
+              throw InputError("--vary " + e.path, e.values.front(),
+                               why.empty() ? "unknown entry (print every entry with 'backcomb template')" : why);
+            }
           if (fixed.count(e.path))
             throw InputError("--vary " + e.path, e.values.front(), "is also given with --set");
           for (const auto &other : entries)
@@ -194,6 +198,7 @@ namespace backcomb::study
             ids.insert(c.id);
           }
         check_grid_point(plan, c);
+        c.fingerprint = result_fingerprint(plan.case_text, c.overrides);
         plan.cases.push_back(std::move(c));
       }
     return plan;
@@ -204,7 +209,9 @@ namespace backcomb::study
   {
     json j;
     j["format"]    = plan_format;
-    j["case_file"] = plan.case_file;
+    // The name as given; a byte that is not UTF-8 is written as \xNN (the
+    // name is shown, never used to read the file again).
+    j["case_file"] = escape_invalid_utf8(plan.case_file);
     j["case_text"] = plan.case_text;
     j["sets"]      = plan.sets;
     j["entries"]   = json::array();
@@ -242,6 +249,7 @@ namespace backcomb::study
             sc.overrides = c.at("overrides").get<std::vector<std::string>>();
             if (c.at("pitch_um").is_number())
               sc.pitch_um = c.at("pitch_um").get<double>();
+            sc.fingerprint = result_fingerprint(plan.case_text, sc.overrides);
             plan.cases.push_back(std::move(sc));
           }
         return plan;

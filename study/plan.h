@@ -24,6 +24,9 @@ namespace backcomb::study
     // Electrode pitch w_e + w_h + 2 g (centre to centre of neighbouring
     // fingers of the same polarity), NaN for the test strip.
     double pitch_um = std::numeric_limits<double>::quiet_NaN();
+    // result_fingerprint() of the plan's case text and these overrides:
+    // the fingerprint a summary.json of this case must carry.
+    std::string fingerprint;
   };
 
   struct StudyPlan

@@ -114,6 +114,9 @@ namespace backcomb::study
     rec.criterion = deciding_criterion(rows);
     for (std::size_t i = 0; i < rows.size(); ++i)
       {
+        // A case whose results break a physical bound is no candidate.
+        if (rows[i].bound_violations.value_or(0) > 0)
+          continue;
         const auto pce = deciding_pce(rec.criterion, rows[i]);
         if (pce && (!rec.valid || *pce > *deciding_pce(rec.criterion, rows[rec.best])))
           rec.best = i, rec.valid = true;

@@ -54,6 +54,23 @@ namespace backcomb::study
             r.reason = e.what();
             return r;
           }
+        // Whose result is it? A summary of another case, of another case
+        // text or of another program version is not this case's result:
+        // none of its numbers are used, and the case counts as failed, so
+        // that the sweep reports it and --retry-failed recomputes it.
+        const std::string found = (s.is_object() && s.contains("fingerprint") && s["fingerprint"].is_string())
+                                    ? s["fingerprint"].get<std::string>()
+                                    : std::string();
+        if (found != c.fingerprint)
+          {
+            r.status = Status::failed;
+            r.reason = dir + "/summary.json does not belong to case " + c.id + ": " +
+                       (found.empty() ? std::string("it carries no fingerprint (written by hand or by an older backcomb)")
+                                      : "its fingerprint " + found + " is not the plan's " + c.fingerprint +
+                                          " (another case, case text or program version)") +
+                       "; recompute it with 'backcomb sweep ... --retry-failed'";
+            return r;
+          }
         read_summary(s, r);
         if (r.status == Status::failed && r.reason.empty())
           r.reason = "failed without a diagnostic (see " + dir + "/solve.log)";

@@ -15,6 +15,9 @@ error must contain. For every row this driver
       {tmp}   the temporary folder,
       {case_copy}  "case.prm": ID.prm copied into the temporary folder and
                    named relative to it (for rows about the file's own name),
+      {xNN}   the single byte with hexadecimal value NN (e.g. {xB5}, a
+              Latin-1 micro sign) in an argument, for rows about bytes that
+              are not UTF-8 (catalogue.tsv itself is UTF-8),
   * runs the binary with a time limit and checks: no crash (no signal, no
     "Segmentation fault", "Aborted" or "terminate called" on stderr), the
     exit code, every fragment (fragments are separated by "&&"), and, for
@@ -32,13 +35,18 @@ Rows whose fifth column starts with "known bug" document an expectation
 that the program does not meet yet; they fail like any other row unless
 --skip-known-bugs is given.
 
+Rows run in parallel, two at a time by default (--jobs N; the machines
+have two cores); the report keeps the catalogue's order.
+
 Usage: run_catalogue.py --binary PATH [--only ID] [--skip-known-bugs]
-                        [--no-memory-limit] [-v]
+                        [--no-memory-limit] [--jobs N] [-v]
 Exit status: 0 if every row passed, 1 otherwise.
 """
 
 import argparse
+import concurrent.futures
 import os
+import re
 import shlex
 import shutil
 import subprocess
@@ -94,7 +102,9 @@ def read_catalogue(path):
 def substitute(text, values):
     for key, value in values.items():
         text = text.replace("{" + key + "}", value)
-    return text
+    # A raw byte, passed to the program as that byte (os.fsdecode keeps it
+    # as a surrogate escape, which subprocess encodes back).
+    return re.sub(r"\{x([0-9A-Fa-f]{2})\}", lambda m: os.fsdecode(bytes([int(m.group(1), 16)])), text)
 
 
 def run_row(row, binary, memory_limit=True):
@@ -157,6 +167,8 @@ def main():
                         help="do not count rows marked 'known bug' as failures")
     parser.add_argument("--no-memory-limit", action="store_true",
                         help="no address-space limit (for AddressSanitizer builds)")
+    parser.add_argument("--jobs", type=int, default=2,
+                        help="rows run at the same time (default 2)")
     parser.add_argument("-v", "--verbose", action="store_true",
                         help="print the standard error of failing rows")
     options = parser.parse_args()
@@ -175,8 +187,10 @@ def main():
             return 1
 
     failed, known = [], []
-    for row in rows:
-        passed, problems, stderr = run_row(row, binary, not options.no_memory_limit)
+    # Threads suffice: each row waits for its own child process.
+    with concurrent.futures.ThreadPoolExecutor(max_workers=max(1, options.jobs)) as pool:
+        results = list(pool.map(lambda r: run_row(r, binary, not options.no_memory_limit), rows))
+    for row, (passed, problems, stderr) in zip(rows, results):
         if passed:
             mark = "  (marked known bug: remove the mark)" if row.known_bug else ""
             print("PASS %s%s" % (row.id, mark))
