@@ -146,7 +146,7 @@ namespace backcomb::study
                                {"exit_code", code},
                                {"seconds", seconds},
                                {"log", "solve.log"}};
-          write_file_atomically(dir + "/failed.json", failed.dump(2) + "\n");
+          write_file_atomically(dir + "/failed.json", failed.dump(2, ' ', false, json::error_handler_t::replace) + "\n");
         }
       StudyRow r = read_row(folder, c);
       r.seconds  = seconds;
@@ -168,7 +168,7 @@ namespace backcomb::study
         }
       make_folder(folder + "/cases");
       if (rank == 0)
-        write_file_atomically(plan_file(folder), plan_to_json(plan).dump(2) + "\n");
+        write_file_atomically(plan_file(folder), plan_to_json(plan).dump(2, ' ', false, json::error_handler_t::replace) + "\n");
     }
 
     // The cases of this task's share (every task-th case of the plan),
