@@ -68,10 +68,36 @@ namespace backcomb::fem
         rep.diagnostic = "equilibrium: " + describe_failure(eq, 0, 0);
         return rep;
       }
+    // Past the first two decades each one starts from the state
+    // extrapolated linearly in log(light) through the two before it (the
+    // quasi-Fermi levels of the photogenerated carriers move by about
+    // kT/q ln 10 per decade); if Newton fails from there, the decade is
+    // taken from the last state with step halving.
+    dealii::Vector<double> older, old;
     if (light > 0)
       for (int e = -8; e <= 0; ++e)
         {
-          const StepReport r = move_to(solver, 0.0, light * std::pow(10.0, e), max_halvings);
+          const double level = light * std::pow(10.0, e);
+          StepReport   r;
+          if (older.size() > 0)
+            {
+              dealii::Vector<double> guess = old;
+              guess.sadd(2.0, -1.0, older);
+              solver.set_state(guess, 0.0, level);
+              const NewtonReport n = solver.solve(0.0, level);
+              r.newton_iterations  = n.iterations;
+              r.converged          = n.converged;
+              if (!n.converged)
+                solver.set_state(old, 0.0, level / 10);
+            }
+          if (!r.converged)
+            {
+              const StepReport again = move_to(solver, 0.0, level, max_halvings);
+              r.converged            = again.converged;
+              r.halvings             = again.halvings;
+              r.diagnostic           = again.diagnostic;
+              r.newton_iterations += again.newton_iterations;
+            }
           rep.newton_iterations += r.newton_iterations;
           rep.halvings += r.halvings;
           if (!r.converged)
@@ -79,6 +105,8 @@ namespace backcomb::fem
               rep.diagnostic = "light ramp: " + r.diagnostic;
               return rep;
             }
+          older = old;
+          old   = solver.state();
         }
     rep.converged = true;
     return rep;
