@@ -29,6 +29,9 @@ namespace backcomb::study
     std::vector<std::string> values; // one per varied entry
     Status                   status = Status::missing;
     std::string              reason; // first failure diagnostic ("" if none)
+    // The case folder holds a summary.json of another case, case text or
+    // program version (its fingerprint differs): a sweep recomputes it.
+    bool                     foreign = false;
     // The quantities of the column table (columns()), nothing where a case
     // did not produce them. Whole numbers (Newton iterations, step
     // halvings) are held as doubles too, exactly.

@@ -281,9 +281,10 @@ namespace backcomb::study
       for (const auto i : share)
         {
           const StudyCase &c = plan.cases[i];
-          const bool finished = is_finished(o.folder, c.id);
-          const bool failed   = finished && read_row(o.folder, c).status == Status::failed;
-          if (finished && !(o.retry_failed && failed))
+          const bool     finished = is_finished(o.folder, c.id);
+          const StudyRow before   = finished ? read_row(o.folder, c) : StudyRow();
+          const bool     failed   = finished && before.status == Status::failed;
+          if (finished && !before.foreign && !(o.retry_failed && failed))
             {
               if (failed)
                 code = exit_no_convergence;
@@ -291,6 +292,9 @@ namespace backcomb::study
             }
           if (!claims.take(c.id))
             continue;
+          if (before.foreign && !o.quiet)
+            std::printf("sweep: case %s: %s: computing it again\n", c.id.c_str(),
+                        first_line(before.reason, 300).c_str());
           progress.starting(c);
           const StudyRow r = run_case(plan, c, o.folder);
           if (r.status == Status::failed)
@@ -346,7 +350,8 @@ namespace backcomb::study
       const StudyCase &c = plan.cases[i];
       if (!is_finished(o.folder, c.id))
         return true;
-      return o.retry_failed && read_row(o.folder, c).status == Status::failed;
+      const StudyRow r = read_row(o.folder, c);
+      return r.foreign || (o.retry_failed && r.status == Status::failed);
     };
     std::size_t to_run = 0;
     for (const auto i : share)

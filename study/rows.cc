@@ -57,18 +57,19 @@ namespace backcomb::study
         // Whose result is it? A summary of another case, of another case
         // text or of another program version is not this case's result:
         // none of its numbers are used, and the case counts as failed, so
-        // that the sweep reports it and --retry-failed recomputes it.
+        // that merge reports it and the sweep, run again, recomputes it.
         const std::string found = (s.is_object() && s.contains("fingerprint") && s["fingerprint"].is_string())
                                     ? s["fingerprint"].get<std::string>()
                                     : std::string();
         if (found != c.fingerprint)
           {
-            r.status = Status::failed;
-            r.reason = dir + "/summary.json does not belong to case " + c.id + ": " +
+            r.status  = Status::failed;
+            r.foreign = true;
+            r.reason  = dir + "/summary.json does not belong to case " + c.id + ": " +
                        (found.empty() ? std::string("it carries no fingerprint (written by hand or by an older backcomb)")
                                       : "its fingerprint " + found + " is not the plan's " + c.fingerprint +
                                           " (another case, case text or program version)") +
-                       "; recompute it with 'backcomb sweep ... --retry-failed'";
+                       "; the sweep, run again, recomputes it";
             return r;
           }
         read_summary(s, r);
