@@ -75,21 +75,7 @@ namespace backcomb::fem
               w *= (v - h.v[j]) / (h.v[i] - h.v[j]);
           guess.add(w, h.u[i]);
         }
-      solver.set_state(guess, v, light);
-      const NewtonReport n = solver.solve(v, light);
-      StepReport         r;
-      r.newton_iterations = n.iterations;
-      r.converged         = n.converged;
-      if (!r.converged)
-        {
-          solver.set_state(h.u.back(), h.v.back(), light);
-          const StepReport again = move_to(solver, v, light, max_halvings);
-          r.converged            = again.converged;
-          r.halvings             = again.halvings;
-          r.diagnostic           = again.diagnostic;
-          r.newton_iterations += again.newton_iterations;
-        }
-      return r;
+      return solve_from_guess(solver, guess, h.u.back(), h.v.back(), light, v, light, max_halvings);
     }
 
     // One side of a scan, in the given order, from the solver's state.

@@ -58,6 +58,28 @@ namespace backcomb::fem
   }
 
   StepReport
+  solve_from_guess(DriftDiffusionSolver &solver, const dealii::Vector<double> &guess,
+                   const dealii::Vector<double> &last, const double last_voltage, const double last_light,
+                   const double voltage, const double light, const unsigned max_halvings)
+  {
+    solver.set_state(guess, voltage, light);
+    const NewtonReport n = solver.solve(voltage, light);
+    StepReport         r;
+    r.newton_iterations = n.iterations;
+    r.converged         = n.converged;
+    if (!r.converged)
+      {
+        solver.set_state(last, last_voltage, last_light);
+        const StepReport again = move_to(solver, voltage, light, max_halvings);
+        r.converged            = again.converged;
+        r.halvings             = again.halvings;
+        r.diagnostic           = again.diagnostic;
+        r.newton_iterations += again.newton_iterations;
+      }
+    return r;
+  }
+
+  StepReport
   illuminate(DriftDiffusionSolver &solver, const double light, const unsigned max_halvings)
   {
     StepReport         rep;
@@ -83,21 +105,10 @@ namespace backcomb::fem
             {
               dealii::Vector<double> guess = old;
               guess.sadd(2.0, -1.0, older);
-              solver.set_state(guess, 0.0, level);
-              const NewtonReport n = solver.solve(0.0, level);
-              r.newton_iterations  = n.iterations;
-              r.converged          = n.converged;
-              if (!n.converged)
-                solver.set_state(old, 0.0, level / 10);
+              r = solve_from_guess(solver, guess, old, 0.0, level / 10, 0.0, level, max_halvings);
             }
-          if (!r.converged)
-            {
-              const StepReport again = move_to(solver, 0.0, level, max_halvings);
-              r.converged            = again.converged;
-              r.halvings             = again.halvings;
-              r.diagnostic           = again.diagnostic;
-              r.newton_iterations += again.newton_iterations;
-            }
+          else
+            r = move_to(solver, 0.0, level, max_halvings);
           rep.newton_iterations += r.newton_iterations;
           rep.halvings += r.halvings;
           if (!r.converged)

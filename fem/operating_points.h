@@ -18,6 +18,13 @@ namespace backcomb::fem
     std::string diagnostic;            // why it failed (bias, update history, where)
   };
 
+  // Solves at (voltage, light) from the first guess `guess` (a predictor);
+  // if Newton fails from there, moves to it with move_to() from the last
+  // converged state `last` at (last_voltage, last_light).
+  StepReport solve_from_guess(DriftDiffusionSolver &solver, const dealii::Vector<double> &guess,
+                              const dealii::Vector<double> &last, double last_voltage, double last_light,
+                              double voltage, double light, unsigned max_halvings);
+
   // Moves the solver from its current state to (voltage, light), first in
   // one step, then by halving the step from the last converged state, at
   // most `max_halvings` times in a row.

@@ -1,6 +1,7 @@
 #include "simulator/case_run.h"
 
 #include "base/files.h"
+#include "base/json_file.h"
 #include "base/format.h"
 #include "base/text.h"
 #include "base/status.h"
@@ -942,7 +943,7 @@ namespace backcomb::simulator
     // File names and messages are user text: a byte that is not UTF-8
     // becomes U+FFFD instead of stopping the dump (the case text itself is
     // checked at the edge, base/text.h).
-    write_file_atomically(o.folder + "/summary.json", s.dump(2, ' ', false, json::error_handler_t::replace) + "\n");
+    write_json_atomically(o.folder + "/summary.json", s);
     checkpoint->remove();
   }
 

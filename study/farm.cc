@@ -2,6 +2,7 @@
 
 #include "base/errors.h"
 #include "base/files.h"
+#include "base/json_file.h"
 #include "simulator/case_file.h"
 #include "simulator/case_run.h"
 #include "study/layout.h"
@@ -146,7 +147,7 @@ namespace backcomb::study
                                {"exit_code", code},
                                {"seconds", seconds},
                                {"log", "solve.log"}};
-          write_file_atomically(dir + "/failed.json", failed.dump(2, ' ', false, json::error_handler_t::replace) + "\n");
+          write_json_atomically(dir + "/failed.json", failed);
         }
       StudyRow r = read_row(folder, c);
       r.seconds  = seconds;
@@ -168,7 +169,7 @@ namespace backcomb::study
         }
       make_folder(folder + "/cases");
       if (rank == 0)
-        write_file_atomically(plan_file(folder), plan_to_json(plan).dump(2, ' ', false, json::error_handler_t::replace) + "\n");
+        write_json_atomically(plan_file(folder), plan_to_json(plan));
     }
 
     // The cases of this task's share (every task-th case of the plan),
@@ -271,6 +272,18 @@ namespace backcomb::study
       std::fflush(stdout);
     }
 
+    // Whether a case is to be computed in this run: it has no result yet, its
+    // summary.json belongs to another case, or it failed and --retry-failed
+    // asks again. `row` gets what the folder holds (empty if nothing).
+    bool
+    needs_run(const StudyOptions &o, const StudyCase &c, StudyRow &row)
+    {
+      if (!is_finished(o.folder, c.id))
+        return true;
+      row = read_row(o.folder, c);
+      return row.foreign || (o.retry_failed && row.status == Status::failed);
+    }
+
     // Runs the cases of the share that need it and that this rank claims
     // first; the exit code so far.
     int
@@ -281,12 +294,10 @@ namespace backcomb::study
       for (const auto i : share)
         {
           const StudyCase &c = plan.cases[i];
-          const bool     finished = is_finished(o.folder, c.id);
-          const StudyRow before   = finished ? read_row(o.folder, c) : StudyRow();
-          const bool     failed   = finished && before.status == Status::failed;
-          if (finished && !before.foreign && !(o.retry_failed && failed))
+          StudyRow         before;
+          if (!needs_run(o, c, before))
             {
-              if (failed)
+              if (before.status == Status::failed)
                 code = exit_no_convergence;
               continue;
             }
@@ -346,16 +357,12 @@ namespace backcomb::study
     check_folder_and_write_plan(plan, o.folder, rank);
 
     const std::vector<std::size_t> share = share_by_cost(plan, o);
-    auto needs_run = [&](std::size_t i) {
-      const StudyCase &c = plan.cases[i];
-      if (!is_finished(o.folder, c.id))
-        return true;
-      const StudyRow r = read_row(o.folder, c);
-      return r.foreign || (o.retry_failed && r.status == Status::failed);
-    };
     std::size_t to_run = 0;
     for (const auto i : share)
-      to_run += needs_run(i);
+      {
+        StudyRow row;
+        to_run += needs_run(o, plan.cases[i], row);
+      }
     // This rank's expected part, for its estimate of the time left.
     const std::size_t mine_to_run = (to_run + std::size_t(size) - 1) / std::size_t(size);
     if (rank == 0 && !o.quiet)

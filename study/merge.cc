@@ -2,6 +2,7 @@
 
 #include "base/errors.h"
 #include "base/files.h"
+#include "base/json_file.h"
 #include "base/format.h"
 #include "postprocess/plots.h"
 #include "postprocess/pvd.h"
@@ -339,7 +340,7 @@ namespace backcomb::study
     for (const auto &p : plots)
       j["files"]["plots"].push_back(fs::path(p).filename().string());
     j["warnings"] = warnings;
-    write_file_atomically(folder + "/sweep.json", j.dump(2, ' ', false, json::error_handler_t::replace) + "\n");
+    write_json_atomically(folder + "/sweep.json", j);
 
     std::printf("\n%s", screen_table(plan, rows).c_str());
     std::printf("\n%s\n", rec.text.c_str());

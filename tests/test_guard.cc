@@ -12,6 +12,7 @@
 #include "study/plan.h"
 #include "study/rows.h"
 #include "study/study.h"
+#include "input_error.h"
 #include "temp_folder.h"
 
 #include <gtest/gtest.h>
@@ -24,6 +25,7 @@
 
 using namespace backcomb;
 using backcomb::test_support::fresh_folder;
+using backcomb::test_support::input_error_message;
 namespace fs = std::filesystem;
 
 namespace
@@ -43,22 +45,6 @@ namespace
   write_text(const fs::path &p, const std::string &text)
   {
     std::ofstream(p, std::ios::binary) << text;
-  }
-
-  // The message of the InputError that `f` throws ("" if none).
-  template <typename F>
-  std::string
-  input_error_of(F f)
-  {
-    try
-      {
-        f();
-      }
-    catch (const InputError &e)
-      {
-        return e.what();
-      }
-    return "";
   }
 
   simulator::RunOptions
@@ -94,20 +80,20 @@ TEST(Utf8, CaseFileWithLatin1ByteIsRefusedAtTheEdge)
 {
   const std::string  text = "# strip length in \xB5m\n" + read_text(tiny);
   std::istringstream in(text);
-  const std::string  m = input_error_of([&] { simulator::read_case(in, "x.prm", {}); });
+  const std::string  m = input_error_message([&] { simulator::read_case(in, "x.prm", {}); });
   EXPECT_NE(m.find("x.prm:1: byte 0xB5 at offset 18 (column 19) is not UTF-8"), std::string::npos) << m;
   EXPECT_NE(m.find("save the file as UTF-8"), std::string::npos) << m;
   // The message itself is valid UTF-8 (it may go into failed.json).
   EXPECT_FALSE(first_invalid_utf8(m));
 
   std::istringstream line3("# ok\n#\n  set Gap = 5 # 5 \xE9tats\n");
-  EXPECT_NE(input_error_of([&] { simulator::read_case(line3, "y.prm", {}); }).find("y.prm:3: byte 0xE9 at offset 25 (column 19)"),
+  EXPECT_NE(input_error_message([&] { simulator::read_case(line3, "y.prm", {}); }).find("y.prm:3: byte 0xE9 at offset 25 (column 19)"),
             std::string::npos);
 }
 
 TEST(Utf8, OverrideWithLatin1ByteIsRefused)
 {
-  const std::string m = input_error_of([] { simulator::read_case(tiny, {"Output/Folder=r\xE9sultats"}); });
+  const std::string m = input_error_message([] { simulator::read_case(tiny, {"Output/Folder=r\xE9sultats"}); });
   EXPECT_NE(m.find("--set 'Output/Folder=r\\xE9sultats': byte 0xE9 at offset 15"), std::string::npos) << m;
 }
 
@@ -119,7 +105,7 @@ TEST(Utf8, ByteOrderMarkIsAccepted)
   EXPECT_EQ(c.geometry.strip_length_um, 1.0);
   // Only at the start: elsewhere the three bytes are an entry's text.
   std::istringstream middle("subsection Geometry\n\xEF\xBB\xBF  set Gap = 5\nend\n");
-  EXPECT_NE(input_error_of([&] { simulator::read_case(middle, "m.prm", {}); }), "");
+  EXPECT_NE(input_error_message([&] { simulator::read_case(middle, "m.prm", {}); }), "");
 }
 
 // ------------------------------------------------------------- messages
@@ -127,33 +113,33 @@ TEST(Utf8, ByteOrderMarkIsAccepted)
 TEST(Messages, UnknownEntryAndSectionSuggestTheNearestNames)
 {
   std::istringstream entry("subsection Geometry\n  set Gapp = 5\nend\n");
-  std::string        m = input_error_of([&] { simulator::read_case(entry, "e.prm", {}); });
+  std::string        m = input_error_message([&] { simulator::read_case(entry, "e.prm", {}); });
   EXPECT_NE(m.find("Gapp"), std::string::npos) << m;
   EXPECT_NE(m.find("did you mean 'Gap'"), std::string::npos) << m;
 
   std::istringstream nested("subsection Absorber\n subsection Transport\n  set Electron mobilty = 5\n end\nend\n");
-  m = input_error_of([&] { simulator::read_case(nested, "n.prm", {}); });
+  m = input_error_message([&] { simulator::read_case(nested, "n.prm", {}); });
   EXPECT_NE(m.find("did you mean 'Electron mobility'"), std::string::npos) << m;
 
   std::istringstream section("subsection Geometri\n  set Gap = 5\nend\n");
-  m = input_error_of([&] { simulator::read_case(section, "s.prm", {}); });
+  m = input_error_message([&] { simulator::read_case(section, "s.prm", {}); });
   EXPECT_NE(m.find("did you mean 'Geometry'"), std::string::npos) << m;
 
-  m = input_error_of([] { simulator::read_case(tiny, {"Geometry/Gapp=5"}); });
+  m = input_error_message([] { simulator::read_case(tiny, {"Geometry/Gapp=5"}); });
   EXPECT_NE(m.find("unknown entry 'Gapp' (did you mean 'Gap'"), std::string::npos) << m;
-  m = input_error_of([] { simulator::read_case(tiny, {"Illumintion/Intensity=1"}); });
+  m = input_error_message([] { simulator::read_case(tiny, {"Illumintion/Intensity=1"}); });
   EXPECT_NE(m.find("unknown section 'Illumintion' (did you mean 'Illumination'"), std::string::npos) << m;
   // Nothing close: the names that exist there.
-  m = input_error_of([] { simulator::read_case(tiny, {"Device/Colour=blue"}); });
+  m = input_error_message([] { simulator::read_case(tiny, {"Device/Colour=blue"}); });
   EXPECT_NE(m.find("unknown entry 'Colour' (entries of section 'Device': 'Active area', 'Temperature')"), std::string::npos) << m;
 }
 
 TEST(Messages, SelectionValueListsTheAllowedValues)
 {
   std::istringstream in("subsection Device\n  set Active area = fingers\nend\n");
-  std::string        m = input_error_of([&] { simulator::read_case(in, "a.prm", {}); });
+  std::string        m = input_error_message([&] { simulator::read_case(in, "a.prm", {}); });
   EXPECT_NE(m.find("allowed values: 'gap', 'period'"), std::string::npos) << m;
-  m = input_error_of([] { simulator::read_case(tiny, {"J-V scan/Direction=sideways"}); });
+  m = input_error_message([] { simulator::read_case(tiny, {"J-V scan/Direction=sideways"}); });
   EXPECT_NE(m.find("value not allowed here; allowed values: 'forward', 'reverse'"), std::string::npos) << m;
 }
 
@@ -164,7 +150,7 @@ TEST(Messages, NothingAbsorbedIsNamed)
   const fs::path  dir = fresh_folder("nothing-absorbed");
   simulator::Case c   = simulator::read_case(tiny, {"Illumination/Generation model=spectrum",
                                                      "Absorber/Bands and permittivity/Band gap=5"});
-  const std::string m = input_error_of([&] { simulator::run_solve(c, quiet_into(dir / "out")); });
+  const std::string m = input_error_message([&] { simulator::run_solve(c, quiet_into(dir / "out")); });
   EXPECT_NE(m.find("nothing is absorbed: no photon of the spectrum"), std::string::npos) << m;
   EXPECT_NE(m.find("is above the absorber's band gap 5 eV"), std::string::npos) << m;
   EXPECT_FALSE(fs::exists(dir / "out"));
@@ -177,14 +163,14 @@ TEST(FolderLock, SecondRunIntoTheSameFolderIsRefused)
   const fs::path dir = fresh_folder("lock");
   {
     FolderLock        first(dir.string());
-    const std::string m = input_error_of([&] { FolderLock second(dir.string()); });
+    const std::string m = input_error_message([&] { FolderLock second(dir.string()); });
     EXPECT_NE(m.find("is in use by another backcomb run (process "), std::string::npos) << m;
 
     // A solve into the locked folder stops before it changes anything: the
     // other run's summary stays.
     write_text(dir / "summary.json", "{\"other\": true}\n");
     const simulator::Case c = simulator::read_case(tiny, {});
-    EXPECT_NE(input_error_of([&] { simulator::run_solve(c, quiet_into(dir)); }).find("is in use"), std::string::npos);
+    EXPECT_NE(input_error_message([&] { simulator::run_solve(c, quiet_into(dir)); }).find("is in use"), std::string::npos);
     EXPECT_EQ(read_text(dir / "summary.json"), "{\"other\": true}\n");
   }
   EXPECT_NO_THROW(FolderLock again(dir.string())); // released with its owner
@@ -442,7 +428,7 @@ TEST(Bounds, PceFromThePowerOfTheSpectrumUsed)
   auto  wrong = spectrum_model;
   wrong.push_back("Illumination/Spectrum file=" + scaled_spectrum(dir, 1000).string());
   const simulator::Case c_wrong = simulator::read_case(tiny, wrong);
-  const std::string     m = input_error_of([&] { simulator::run_solve(c_wrong, quiet_into(dir / "wrong")); });
+  const std::string     m = input_error_message([&] { simulator::run_solve(c_wrong, quiet_into(dir / "wrong")); });
   EXPECT_NE(m.find("fit the unit W m-2 um-1"), std::string::npos) << m;
   EXPECT_FALSE(fs::exists(dir / "wrong"));
 

@@ -3,6 +3,7 @@
 #include "fem/constants.h"
 #include "fem/optics.h"
 #include "base/entries.h"
+#include "tests/input_error.h"
 
 #include <gtest/gtest.h>
 
@@ -16,6 +17,7 @@
 #include <unistd.h>
 
 namespace fs = std::filesystem;
+using backcomb::test_support::input_error_message;
 using namespace backcomb;
 using namespace backcomb::fem;
 
@@ -59,23 +61,6 @@ namespace
     }
     fs::path folder;
   };
-
-  // Runs `f`, expects an InputError and returns its message.
-  template <typename F>
-  std::string
-  input_error_message(F f)
-  {
-    try
-      {
-        f();
-      }
-    catch (const InputError &e)
-      {
-        return e.what();
-      }
-    ADD_FAILURE() << "no InputError thrown";
-    return "";
-  }
 
   IlluminationParameters
   spectrum_parameters(const fs::path &constants_file)
