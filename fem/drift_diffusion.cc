@@ -732,7 +732,8 @@ namespace backcomb::fem
   }
 
   double
-  DriftDiffusionSolver::collected_current(const Vector<double> &fc) const
+  DriftDiffusionSolver::collected_current(const Vector<double> &fc, const double x_min_um,
+                                          const double x_max_um) const
   {
     FEValues<2> &fv = *fe_values;
     const unsigned nq = cell_quadrature.size();
@@ -741,6 +742,9 @@ namespace backcomb::fem
     for (const auto &cell : dofs.active_cell_iterators())
       {
         if (!cell->is_locally_owned())
+          continue;
+        const double x = cell->center()[0]; // um: the mesh is in um (L0 = 1 um)
+        if (x < x_min_um || x > x_max_um)
           continue;
         fv.reinit(cell);
         cell->get_dof_indices(idx);
@@ -754,6 +758,32 @@ namespace backcomb::fem
           }
       }
     return Utilities::MPI::sum(total, comm) * device.scaling.J0 / width;
+  }
+
+  std::vector<DriftDiffusionSolver::CollectionPoint>
+  DriftDiffusionSolver::collection_points(const Vector<double> &fc) const
+  {
+    const QGauss<2> quad(numerics.quadrature);
+    FEValues<2>     fv(fe, quad, update_values | update_quadrature_points | update_JxW_values);
+    std::vector<types::global_dof_index> idx(fe.n_dofs_per_cell());
+    std::vector<CollectionPoint>         points;
+    for (const auto &cell : dofs.active_cell_iterators())
+      {
+        if (!cell->is_locally_owned() || !device.region(cell->material_id()).absorber)
+          continue;
+        fv.reinit(cell);
+        cell->get_dof_indices(idx);
+        for (unsigned q = 0; q < quad.size(); ++q)
+          {
+            double f = 0;
+            for (unsigned i = 0; i < idx.size(); ++i)
+              if (fe.system_to_component_index(i).first == c_psi)
+                f += fc[idx[i]] * fv.shape_value(i, q);
+            // The mesh is in um (L0 = 1 um).
+            points.push_back({fv.quadrature_point(q)[0], fv.quadrature_point(q)[1], f * fv.JxW(q)});
+          }
+      }
+    return points;
   }
 
   NewtonReport

@@ -175,8 +175,19 @@ namespace backcomb::fem
     dealii::Vector<double> collection_probability(const std::vector<double> *weights = nullptr) const;
 
     // q * integral of G f_c over the domain per footprint width, mA/cm^2:
-    // equals the current when the problem is linear in G.
-    double collected_current(const dealii::Vector<double> &fc) const;
+    // equals the current when the problem is linear in G. With a range,
+    // only over the cells whose centre lies in x_min_um <= x <= x_max_um.
+    double collected_current(const dealii::Vector<double> &fc, double x_min_um = -1e300,
+                             double x_max_um = 1e300) const;
+
+    // The quadrature points of the absorber cells this process owns, each
+    // with its position (um) and weight JxW (um^2) times f_c there; the
+    // other processes hold the rest. For spectral collection (EQE).
+    struct CollectionPoint
+    {
+      double x_um, y_um, weight;
+    };
+    std::vector<CollectionPoint> collection_points(const dealii::Vector<double> &fc) const;
 
     // The DoF weights of the electron particle current out of both
     // contacts (for collection-probability checks on strips).

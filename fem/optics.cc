@@ -8,6 +8,7 @@
 #include "base/format.h"
 
 #include <algorithm>
+#include <array>
 #include <cctype>
 #include <cmath>
 #include <cstdlib>
@@ -589,7 +590,7 @@ namespace backcomb::fem
                        (std::exp(-alpha * d) +
                         optics.back_reflectance * std::exp(-alpha * (2 * t - d)));
       }
-    return optics.intensity_suns * (1 - optics.front_reflectance) *
+    return optics.intensity_suns * (1 - optics.front_reflectance) * optics.transmitted *
            integrate_trapezoid(w, integrand);
   }
 
@@ -614,8 +615,8 @@ namespace backcomb::fem
                          above_gap.photon_flux[i] * (1 - transmitted) *
                          (1 + optics.back_reflectance * transmitted);
         }
-      return 1e3 * constants::q * optics.intensity_suns *
-             (1 - optics.front_reflectance) * integrate_trapezoid(w, integrand);
+      return 1e3 * constants::q * optics.intensity_suns * (1 - optics.front_reflectance) * optics.transmitted *
+             integrate_trapezoid(w, integrand);
     }
   } // namespace
 
@@ -631,6 +632,139 @@ namespace backcomb::fem
                               const BeerLambert      &optics)
   {
     return absorbed_integral(above_gap, optics, true);
+  }
+
+  // ------------------------------------------------------ optical budget
+
+  OpticalBudget &
+  OpticalBudget::operator*=(const double s)
+  {
+    for (double *v : {&incident, &reflected, &shaded, &parasitic, &absorbed, &below_gap, &passed_through,
+                      &absorbed_current})
+      *v *= s;
+    return *this;
+  }
+
+  OpticalBudget &
+  OpticalBudget::operator+=(const OpticalBudget &b)
+  {
+    incident += b.incident;
+    reflected += b.reflected;
+    shaded += b.shaded;
+    parasitic += b.parasitic;
+    absorbed += b.absorbed;
+    below_gap += b.below_gap;
+    passed_through += b.passed_through;
+    absorbed_current += b.absorbed_current;
+    return *this;
+  }
+
+  double
+  OpticalColumn::entering() const
+  {
+    if (!from_substrate || !finger)
+      return 1;
+    return finger_transmittance * (1 - interlayer_absorptance);
+  }
+
+  // Film side over a finger: of the light reaching the absorber's far side,
+  // A is absorbed crossing the interlayer; of the (1 - A) reaching the
+  // finger, R_b comes back across the interlayer (losing A again), T_f of
+  // the rest passes through and the finger takes the remainder.
+  double
+  OpticalColumn::returned(const double back_reflectance) const
+  {
+    const double A = (from_substrate || !finger) ? 0 : interlayer_absorptance;
+    return back_reflectance * (1 - A) * (1 - A);
+  }
+
+  double
+  OpticalColumn::parasitic_behind(const double back_reflectance) const
+  {
+    if (from_substrate || !finger)
+      return 0;
+    const double A = interlayer_absorptance;
+    return A + back_reflectance * (1 - A) * A;
+  }
+
+  double
+  OpticalColumn::shaded_behind(const double back_reflectance) const
+  {
+    if (from_substrate || !finger)
+      return 0;
+    return (1 - interlayer_absorptance) * (1 - back_reflectance) * (1 - finger_transmittance);
+  }
+
+  double
+  OpticalColumn::leaving_behind(const double back_reflectance) const
+  {
+    if (from_substrate || !finger)
+      return 1 - back_reflectance;
+    return (1 - interlayer_absorptance) * (1 - back_reflectance) * finger_transmittance;
+  }
+
+  OpticalBudget
+  column_budget(const Spectrum         &spectrum,
+                const AboveGapSpectrum &above_gap,
+                const OpticalColumn    &column,
+                const double            intensity_suns,
+                const double            front_reflectance,
+                const double            back_reflectance)
+  {
+    // Every term wavelength by wavelength on the spectrum's own grid, with
+    // the above-gap prefix (alpha from the optical constants) and the rest
+    // (alpha = 0) integrated apart; they share the prefix's last node, so
+    // the two parts add up to the trapezoidal rule over the whole grid and
+    // the absorbed part is exactly the one of the generation profile.
+    const auto       &w       = spectrum.wavelength_nm;
+    const std::size_t m       = above_gap.wavelength_nm.size();
+    const double      R_f     = front_reflectance;
+    const double      T_f     = column.from_substrate && column.finger ? column.finger_transmittance : 1;
+    const double      A_front = column.from_substrate && column.finger ? column.interlayer_absorptance : 0;
+    const double      into    = (1 - R_f) * column.entering();
+    const double      R       = column.returned(back_reflectance);
+    const double      t_cm    = 1e-4 * column.absorber_um;
+
+    OpticalBudget                    b;
+    const std::array<std::size_t, 2> first{0, m == 0 ? 0 : m - 1}, last{m == 0 ? 0 : m - 1, w.size() - 1};
+    for (const int part : {0, 1})
+      {
+        const bool above = part == 0;
+        if (above && m < 2)
+          continue; // no above-gap interval
+        const std::size_t   n     = last[part] - first[part] + 1;
+        std::vector<double> x(n), inc(n), abs(n), abs_photons(n), par(n), shade(n), out(n);
+        for (std::size_t k = 0; k < n; ++k)
+          {
+            const std::size_t i = first[part] + k;
+            x[k]                = w[i];
+            // W m^-2 nm^-1 to mW cm^-2 nm^-1: 0.1.
+            const double P      = 0.1 * intensity_suns * spectrum.irradiance[i];
+            const double alpha  = above ? above_gap.alpha_per_cm[k] : 0;
+            const double e      = std::exp(-alpha * t_cm);
+            inc[k]              = P;
+            // Absorbed on the way in and, of what comes back, on the way out.
+            const double a      = into * (1 - e) * (1 + R * e);
+            abs[k]              = P * a;
+            abs_photons[k]      = above ? P * a / photon_energy_eV(w[i]) : 0;
+            par[k]              = P * ((1 - R_f) * T_f * A_front + into * e * column.parasitic_behind(back_reflectance));
+            shade[k]            = P * ((1 - R_f) * (1 - T_f) + into * e * column.shaded_behind(back_reflectance));
+            // Out through the far side, or back out of the front after the
+            // second pass.
+            out[k]              = P * into * e * (column.leaving_behind(back_reflectance) + R * e);
+          }
+        if (n < 2)
+          continue;
+        b.incident += integrate_trapezoid(x, inc);
+        b.reflected += R_f * integrate_trapezoid(x, inc);
+        b.shaded += integrate_trapezoid(x, shade);
+        b.parasitic += integrate_trapezoid(x, par);
+        b.absorbed += integrate_trapezoid(x, abs);
+        (above ? b.passed_through : b.below_gap) += integrate_trapezoid(x, out);
+        // mW/cm^2 over eV is mA/cm^2 of photons.
+        b.absorbed_current += integrate_trapezoid(x, abs_photons);
+      }
+    return b;
   }
 
   // ----------------------------------------------------------- case file
@@ -653,8 +787,17 @@ namespace backcomb::fem
       "100 mW/cm^2; 0 = dark)"};
     const NumberEntry finger_transmittance_entry{
       "Finger transmittance", 0.85, "", Range::closed(0, 1),
-      "Fraction of the light transmitted through the fingers when lit "
-      "through the substrate"};
+      "Fraction of the light transmitted through the fingers: when lit through the substrate, of the light "
+      "reaching them from the glass (the rest is shaded); when lit from the film side, of the light reaching "
+      "them through the film that they do not reflect (Back reflectance; the rest they absorb)"};
+    const NumberEntry electron_interlayer_alpha{
+      "Electron interlayer absorption coefficient", 0, "cm^-1", Range::at_least(0),
+      "Absorption coefficient of the electron interlayer (Geometry/Electron interlayer thickness), the same "
+      "at every wavelength; the light it absorbs makes no pairs that are solved and is booked as parasitic "
+      "absorption"};
+    const NumberEntry hole_interlayer_alpha{
+      "Hole interlayer absorption coefficient", 0, "cm^-1", Range::at_least(0),
+      "Absorption coefficient of the hole interlayer, as for the electron interlayer"};
   } // namespace
 
   void
@@ -675,6 +818,8 @@ namespace backcomb::fem
                  "Where the light enters: 'film' = through the free top surface of the absorber; "
                  "'substrate' = through the substrate and the electrode fingers.");
     declare(prm, s, finger_transmittance_entry);
+    declare(prm, s, electron_interlayer_alpha);
+    declare(prm, s, hole_interlayer_alpha);
     // Every model's own entries (files, rates, reflectances).
     for (const std::string &name : models.names())
       models.create(name)->declare_parameters(prm, defaults);
@@ -697,6 +842,8 @@ namespace backcomb::fem
     intensity_suns = get(prm, section, intensity);
     side = prm.get("Illuminated side") == "substrate" ? Side::substrate : Side::film;
     finger_transmittance = get(prm, section, finger_transmittance_entry);
+    electron_interlayer_alpha_per_cm = get(prm, section, electron_interlayer_alpha);
+    hole_interlayer_alpha_per_cm     = get(prm, section, hole_interlayer_alpha);
     prm.leave_subsection();
   }
 
@@ -715,59 +862,163 @@ namespace backcomb::fem
     if (!(thickness_um > 0))
       throw std::invalid_argument("Generation: absorber thickness must be > 0");
     if (layout.electron_finger_half_width_um < 0 || layout.gap_um < 0 ||
-        layout.hole_finger_half_width_um < 0)
+        layout.hole_finger_half_width_um < 0 || layout.electron_interlayer_um < 0 ||
+        layout.hole_interlayer_um < 0)
       throw std::invalid_argument("Generation: negative finger layout size");
+    if (layout.electron_interlayer_um >= thickness_um || layout.hole_interlayer_um >= thickness_um)
+      throw std::invalid_argument("Generation: an interlayer fills the whole film");
 
-    // The chosen model's unshadowed depth profile; the shadow of the
-    // fingers and the lateral position are added by rate().
-    const GenerationProfile profile =
-      generation_models().create(parameters.model, "Illumination/Generation model")
-        ->profile(parameters, band_gap_eV, thickness_um);
-    depth_um_         = profile.depth_um;
-    profile_          = profile.rate_per_cm3_s;
-    absorbed_current_ = profile.absorbed_current;
-    photon_current_   = profile.photon_current;
-    column_budget_    = profile.column_budget;
+    // Columns: gap, electron finger, hole finger (the verification strip
+    // has the gap column only).
+    const auto model = generation_models().create(parameters.model, "Illumination/Generation model");
+    const std::array<double, 3> interlayer_um{0, layout.has_fingers ? layout.electron_interlayer_um : 0,
+                                              layout.has_fingers ? layout.hole_interlayer_um : 0};
+    const std::array<double, 3> alpha_per_cm{0, parameters.electron_interlayer_alpha_per_cm,
+                                             parameters.hole_interlayer_alpha_per_cm};
+    for (std::size_t c = 0; c < columns_.size(); ++c)
+      {
+        Column &col             = columns_[c];
+        col.interlayer_um       = interlayer_um[c];
+        col.optics.absorber_um  = thickness_um - interlayer_um[c];
+        col.optics.from_substrate = from_substrate_;
+        col.optics.finger       = c > 0 && layout.has_fingers;
+        col.optics.finger_transmittance = col.optics.finger ? finger_transmittance_ : 1;
+        // Beer-Lambert across the interlayer (um to cm: 1e-4).
+        col.optics.interlayer_absorptance = 1 - std::exp(-alpha_per_cm[c] * 1e-4 * interlayer_um[c]);
+        // A column whose light path matches an earlier one's shares its
+        // profile (film side without interlayers: all three).
+        const BeerLambert key{col.optics.absorber_um, 1, 0, col.optics.returned(parameters.back_reflectance),
+                              col.optics.entering()};
+        bool shared = false;
+        for (std::size_t e = 0; e < c && !shared; ++e)
+          {
+            const Column &o = columns_[e];
+            const BeerLambert other{o.optics.absorber_um, 1, 0, o.optics.returned(parameters.back_reflectance),
+                                    o.optics.entering()};
+            if (key.thickness_um == other.thickness_um && key.back_reflectance == other.back_reflectance &&
+                key.transmitted == other.transmitted)
+              {
+                col.profile = o.profile;
+                shared      = true;
+              }
+          }
+        if (!shared)
+          col.profile = model->profile(parameters, band_gap_eV, col.optics);
+        col.budget = model->budget(parameters, band_gap_eV, col.optics);
+      }
+    absorbed_current_ = columns_[0].profile.absorbed_current;
+    photon_current_   = columns_[0].profile.photon_current;
+    if (auto s = model->spectral(parameters, band_gap_eV))
+      spectral_ = std::move(*s);
+    intensity_suns_    = parameters.intensity_suns;
+    front_reflectance_ = parameters.front_reflectance;
+    back_reflectance_  = parameters.back_reflectance;
+  }
+
+  std::array<double, 3>
+  Generation::column_widths() const
+  {
+    if (!layout_.has_fingers)
+      return {1, 0, 0};
+    return {layout_.gap_um, layout_.electron_finger_half_width_um, layout_.hole_finger_half_width_um};
+  }
+
+  std::vector<double>
+  Generation::incident_photon_flux() const
+  {
+    std::vector<double> flux = spectral_.photon_flux;
+    for (double &f : flux)
+      f *= intensity_suns_;
+    return flux;
+  }
+
+  void
+  Generation::add_pair_densities(const double x_um, const double y_um, const double weight,
+                                 std::vector<double> &acc) const
+  {
+    const Column &col   = column_at(x_um);
+    const double  t     = col.optics.absorber_um;
+    const double  depth = std::clamp(from_substrate_ ? y_um - col.interlayer_um : thickness_um_ - y_um, 0., t);
+    const double  into  = (1 - front_reflectance_) * col.optics.entering();
+    const double  R     = col.optics.returned(back_reflectance_);
+    for (std::size_t i = 0; i < spectral_.wavelength_nm.size(); ++i)
+      {
+        const double alpha = 1e-4 * spectral_.alpha_per_cm[i]; // um^-1
+        acc[i] += weight * into * alpha * (std::exp(-alpha * depth) + R * std::exp(-alpha * (2 * t - depth)));
+      }
+  }
+
+  Generation::SpectralFractions
+  Generation::spectral_fractions() const
+  {
+    const std::size_t     n = spectral_.wavelength_nm.size();
+    SpectralFractions     f{std::vector<double>(n, 0.), std::vector<double>(n, 0.), std::vector<double>(n, 0.)};
+    const auto            width  = column_widths();
+    const double          period = width[0] + width[1] + width[2];
+    for (std::size_t c = 0; c < columns_.size(); ++c)
+      {
+        if (!(width[c] > 0))
+          continue;
+        const OpticalColumn &o    = columns_[c].optics;
+        const double         into = (1 - front_reflectance_) * o.entering();
+        const double         R    = o.returned(back_reflectance_);
+        const double         share = width[c] / period;
+        for (std::size_t i = 0; i < n; ++i)
+          {
+            const double e = std::exp(-spectral_.alpha_per_cm[i] * 1e-4 * o.absorber_um);
+            f.absorbed[i] += share * into * (1 - e) * (1 + R * e);
+            f.reflected[i] += share * (front_reflectance_ + into * e * R * e);
+            f.transmitted[i] += share * into * e * o.leaving_behind(back_reflectance_);
+          }
+      }
+    return f;
   }
 
   double
   Generation::rate_at_depth(const double depth_um) const
   {
-    return interpolate(depth_um_,
-                       profile_,
+    return interpolate(columns_[0].profile.depth_um, columns_[0].profile.rate_per_cm3_s,
                        std::clamp(depth_um, 0., thickness_um_));
   }
 
-  double
-  Generation::finger_factor(const double x_um) const
+  const Generation::Column &
+  Generation::column_at(const double x_um) const
   {
-    if (!from_substrate_ || !layout_.has_fingers)
-      return 1;
+    if (!layout_.has_fingers)
+      return columns_[0];
     const double gap_start = layout_.electron_finger_half_width_um;
     const double gap_end   = gap_start + layout_.gap_um;
-    return (x_um < gap_start || x_um > gap_end) ? finger_transmittance_ : 1.;
+    return x_um < gap_start ? columns_[1] : x_um > gap_end ? columns_[2] : columns_[0];
   }
 
   double
   Generation::rate(const double x_um, const double y_um) const
   {
     // Film side: light enters at the top surface y = t; substrate side: at
-    // the bottom y = 0, through the fingers where there are fingers.
-    const double depth = from_substrate_ ? y_um : thickness_um_ - y_um;
-    return finger_factor(x_um) * rate_at_depth(depth);
+    // the absorber's bottom, which over a finger is the interlayer's top.
+    const Column &col   = column_at(x_um);
+    const double  depth = from_substrate_ ? y_um - col.interlayer_um : thickness_um_ - y_um;
+    return interpolate(col.profile.depth_um, col.profile.rate_per_cm3_s,
+                       std::clamp(depth, 0., col.optics.absorber_um));
   }
 
   std::optional<OpticalBudget>
   Generation::optical_budget() const
   {
-    if (!column_budget_)
+    if (!columns_[0].budget)
       return std::nullopt;
-    // The fingers take their share of what enters the substrate side.
-    OpticalBudget b     = *column_budget_;
-    const double  T     = period_average_transmittance();
-    b.shaded            = (1 - T) * (b.incident - b.reflected);
-    b.absorbed         *= T;
-    b.absorbed_current *= T;
+    if (!layout_.has_fingers)
+      return columns_[0].budget;
+    // The period average: electron finger half, gap, hole finger half.
+    const std::array<double, 3> width = column_widths();
+    const double                period = width[0] + width[1] + width[2];
+    OpticalBudget               b;
+    for (std::size_t c = 0; c < columns_.size(); ++c)
+      {
+        OpticalBudget part = *columns_[c].budget;
+        part *= width[c] / period;
+        b += part;
+      }
     return b;
   }
 

@@ -9,6 +9,7 @@
 
 #include <deal.II/base/parameter_handler.h>
 
+#include <array>
 #include <filesystem>
 #include <istream>
 #include <map>
@@ -139,10 +140,13 @@ namespace backcomb::fem
     double intensity_suns    = 1;
     double front_reflectance = 0; // lost before entering the absorber
     double back_reflectance  = 0; // 0 = single pass, 1 = perfect mirror
+    // Of the light past the front reflectance, the fraction that reaches
+    // the absorber (fingers and an interlayer on the way take the rest).
+    double transmitted       = 1;
   };
 
   // G(d) in cm^-3 s^-1 at depth d (µm) below the illuminated surface:
-  // S (1 - R_f) int Phi alpha [exp(-alpha d) + R_b exp(-alpha (2 t - d))].
+  // S (1 - R_f) T int Phi alpha [exp(-alpha d) + R_b exp(-alpha (2 t - d))].
   double
   beer_lambert_generation(const AboveGapSpectrum &above_gap,
                           const BeerLambert      &optics,
@@ -161,17 +165,66 @@ namespace backcomb::fem
                               const BeerLambert      &optics);
 
   // Where the incident power goes before it becomes electron-hole pairs,
-  // averaged over the period footprint, in mW/cm^2.
+  // averaged over the period footprint, in mW/cm^2. Each term is computed
+  // on its own (wavelength by wavelength, same quadrature), so that their
+  // sum closing on `incident` is a check, not a definition.
   struct OpticalBudget
   {
     double incident  = 0; // the whole spectrum times the intensity
     double reflected = 0; // front reflectance
-    double shaded    = 0; // absorbed or reflected by the fingers
+    double shaded    = 0; // taken by the fingers (see OpticalColumn)
+    double parasitic = 0; // absorbed in the interlayers (no pairs solved there)
     double absorbed  = 0; // in the absorber, photon energy included
+    double below_gap = 0; // below-gap light that leaves the cell
+    double passed_through = 0; // above-gap light that leaves unabsorbed
     double absorbed_current = 0; // mA/cm^2
-    // Below-gap light, and above-gap light leaving unabsorbed.
-    double not_absorbed() const { return incident - reflected - shaded - absorbed; }
+    // incident minus every term: zero up to rounding.
+    double unbooked() const
+    {
+      return incident - reflected - shaded - parasitic - absorbed - below_gap - passed_through;
+    }
+    OpticalBudget &operator*=(double s);
+    OpticalBudget &operator+=(const OpticalBudget &b);
   };
+
+  // The optical stack of one column of the period (gap, electron finger,
+  // hole finger), along the light's path; every fraction is wavelength-
+  // independent. Interlayers lie between finger and absorber (geometry).
+  // Substrate side: light crosses the finger (transmittance T_f, the rest
+  // is `shaded`), then the interlayer (absorptance A, `parasitic`), then
+  // the absorber; what reaches the free top surface is reflected back with
+  // R_b. Film side: light crosses the absorber; at its far side it crosses
+  // the interlayer (A), the finger reflects R_b (back across the
+  // interlayer), transmits T_f of the rest (`passed_through`) and takes
+  // the remainder (`shaded`). Over the gap: no finger, no interlayer.
+  struct OpticalColumn
+  {
+    double absorber_um             = 1; // absorber thickness of the column
+    bool   from_substrate          = false;
+    bool   finger                  = false;
+    double finger_transmittance    = 1;
+    double interlayer_absorptance  = 0; // one crossing: 1 - exp(-alpha d)
+
+    // Of the light past the front reflectance, the fraction that reaches
+    // the absorber.
+    double entering() const;
+    // Of the light reaching the absorber's far side: returned for a second
+    // pass, absorbed in an interlayer, taken by a finger, and leaving.
+    double returned(double back_reflectance) const;
+    double parasitic_behind(double back_reflectance) const;
+    double shaded_behind(double back_reflectance) const;
+    double leaving_behind(double back_reflectance) const;
+  };
+
+  // The budget of one column, per unit footprint of that column, from the
+  // whole spectrum (below the gap included) at the given intensity.
+  OpticalBudget
+  column_budget(const Spectrum         &spectrum,
+                const AboveGapSpectrum &above_gap,
+                const OpticalColumn    &column,
+                double                  intensity_suns,
+                double                  front_reflectance,
+                double                  back_reflectance);
 
   // --------------------------------------------------------- case file
 
@@ -200,6 +253,10 @@ namespace backcomb::fem
     double                front_reflectance      = 0;
     double                back_reflectance       = 0;
     double                uniform_rate_per_cm3_s = 1e21;
+    // Absorption coefficients of the interlayers, cm^-1 (wavelength-
+    // independent; light they absorb is booked as parasitic).
+    double                electron_interlayer_alpha_per_cm = 0;
+    double                hole_interlayer_alpha_per_cm     = 0;
     std::map<std::string, double>                model_numbers;
     std::map<std::string, std::filesystem::path> model_files;
 
@@ -256,6 +313,18 @@ namespace backcomb::fem
     double gap_um                        = 0;
     double hole_finger_half_width_um     = 0;
     bool   has_fingers                   = true;
+    // Interlayers on the fingers, below the absorber (0 = none).
+    double electron_interlayer_um        = 0;
+    double hole_interlayer_um            = 0;
+  };
+
+  // The depth profile of one column, interpolated linearly.
+  struct GenerationProfile
+  {
+    std::vector<double>          depth_um;       // increasing, from 0 to the column's absorber thickness
+    std::vector<double>          rate_per_cm3_s; // at those depths, intensity applied
+    double                       absorbed_current = 0; // q int G dd, mA/cm^2
+    std::optional<double>        photon_current;  // above-gap photon current, if known
   };
 
   // The generation rate G(x, y) in the absorber, 0 <= y <= t (y = 0 at the
@@ -273,23 +342,12 @@ namespace backcomb::fem
     double
     rate(double x_um, double y_um) const;
 
-    // cm^-3 s^-1 at a depth below the illuminated surface, not shadowed.
+    // cm^-3 s^-1 at a depth below the illuminated surface in the gap's
+    // column (no finger, no interlayer).
     double
     rate_at_depth(double depth_um) const;
 
-    // The tabulated depth profile (not shadowed) that rate() interpolates.
-    const std::vector<double> &
-    depth_um() const
-    {
-      return depth_um_;
-    }
-    const std::vector<double> &
-    profile_per_cm3_s() const
-    {
-      return profile_;
-    }
-
-    // q int_0^t G dd for an unshadowed column, in mA/cm^2.
+    // q int_0^t G dd for the gap's column, in mA/cm^2.
     double
     absorbed_current_mA_per_cm2() const
     {
@@ -313,19 +371,57 @@ namespace backcomb::fem
     std::optional<OpticalBudget>
     optical_budget() const;
 
+    // Spectral response (spectrum model only, else empty): the above-gap
+    // wavelengths of the optical model, nm, and their photon flux at the
+    // case's intensity, cm^-2 s^-1 nm^-1.
+    const std::vector<double> &
+    wavelengths_nm() const
+    {
+      return spectral_.wavelength_nm;
+    }
+    std::vector<double>
+    incident_photon_flux() const;
+    // For every wavelength i, adds weight * a_i(x, y) to acc[i]: a_i is the
+    // pairs generated per unit volume at (x, y) of the absorber per photon
+    // incident per unit area, in um^-1 (G_i = Phi_i a_i).
+    void
+    add_pair_densities(double x_um, double y_um, double weight, std::vector<double> &acc) const;
+    // Per wavelength, averaged over the period: the fractions of the
+    // incident photons absorbed in the absorber, reflected (at the front,
+    // and leaving the front after the reflected pass) and transmitted
+    // (through the far side). The rest is taken by fingers and interlayers.
+    struct SpectralFractions
+    {
+      std::vector<double> absorbed, reflected, transmitted;
+    };
+    SpectralFractions
+    spectral_fractions() const;
+
   private:
-    double
-    finger_factor(double x_um) const;
+    // One column of the period: its optical stack, the interlayer below
+    // its absorber, the depth profile and (spectrum model) its budget.
+    struct Column
+    {
+      OpticalColumn                optics;
+      double                       interlayer_um = 0;
+      GenerationProfile            profile;
+      std::optional<OpticalBudget> budget;
+    };
+    const Column &
+    column_at(double x_um) const;
 
     double                thickness_um_;
     bool                  from_substrate_;
     double                finger_transmittance_;
     FingerLayout          layout_;
-    std::vector<double>   depth_um_;
-    std::vector<double>   profile_;
+    std::array<Column, 3> columns_; // gap, electron finger, hole finger
+    // Column widths of the period (gap, electron and hole finger halves).
+    std::array<double, 3> column_widths() const;
+    AboveGapSpectrum      spectral_; // empty unless the spectrum model
+    double                intensity_suns_    = 1;
+    double                front_reflectance_ = 0;
+    double                back_reflectance_  = 0;
     double                absorbed_current_ = 0;
     std::optional<double> photon_current_;
-    // Per unshadowed column (spectrum model).
-    std::optional<OpticalBudget> column_budget_;
   };
 } // namespace backcomb::fem

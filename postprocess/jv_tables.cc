@@ -33,9 +33,12 @@ namespace backcomb::postprocess
   }
 
   json
-  metrics_json(const fem::JVMetrics &m, const std::optional<double> &jsc, const double active_scale,
+  metrics_json(const fem::JVMetrics &m, const std::optional<double> &jsc, const std::optional<double> &active_scale,
                const double input_power)
   {
+    const auto active = [&](const std::optional<double> &v) {
+      return v && active_scale ? json(*v * *active_scale) : json(nullptr);
+    };
     if (!m.valid)
       return {{"Jsc_mA_per_cm2", jsc ? json(*jsc) : json(nullptr)},
               {"Voc_V", nullptr},
@@ -45,16 +48,16 @@ namespace backcomb::postprocess
               {"Jmp_mA_per_cm2", nullptr},
               {"PCE_percent", nullptr},
               {"per_active_area",
-               {{"Jsc_mA_per_cm2", jsc ? json(*jsc * active_scale) : json(nullptr)},
+               {{"Jsc_mA_per_cm2", active(jsc)},
                 {"Pmax_mW_per_cm2", nullptr},
                 {"PCE_percent", nullptr}}}};
     json j = {{"Jsc_mA_per_cm2", m.Jsc},   {"Voc_V", m.Voc}, {"FF", m.FF},
               {"Pmax_mW_per_cm2", m.Pmax}, {"Vmp_V", m.Vmp}, {"Jmp_mA_per_cm2", m.Jmp}};
     j["PCE_percent"]     = input_power > 0 ? json(100 * m.Pmax / input_power) : json(nullptr);
-    j["per_active_area"] = {{"Jsc_mA_per_cm2", m.Jsc * active_scale},
-                            {"Pmax_mW_per_cm2", m.Pmax * active_scale},
-                            {"PCE_percent", input_power > 0 ? json(100 * m.Pmax * active_scale / input_power)
-                                                            : json(nullptr)}};
+    j["per_active_area"] = {
+      {"Jsc_mA_per_cm2", active(m.Jsc)},
+      {"Pmax_mW_per_cm2", active(m.Pmax)},
+      {"PCE_percent", input_power > 0 ? active(100 * m.Pmax / input_power) : json(nullptr)}};
     return j;
   }
 

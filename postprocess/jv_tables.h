@@ -19,10 +19,11 @@ namespace backcomb::postprocess
 
   // The metrics; when the curve does not bracket them (a failed point cut
   // it off), null in place of every number that needs the missing part:
-  // only Jsc can then remain. `active_scale` = footprint / active width;
-  // `input_power` in mW/cm^2 (PCE null when not positive).
-  nlohmann::json metrics_json(const fem::JVMetrics &m, const std::optional<double> &jsc, double active_scale,
-                              double input_power);
+  // only Jsc can then remain. `active_scale` turns footprint figures into
+  // per-active-area ones (null figures when not known); `input_power` in
+  // mW/cm^2 (PCE null when not positive).
+  nlohmann::json metrics_json(const fem::JVMetrics &m, const std::optional<double> &jsc,
+                              const std::optional<double> &active_scale, double input_power);
 
   // Every bias of `grid` with its status in scan `label`: "converged" with
   // its current, "failed", or "not computed" (beyond a failure, or when the

@@ -34,7 +34,9 @@ namespace backcomb::postprocess
       {
         t.push_back({"reflected", "optical", optics->reflected});
         t.push_back({"shaded_by_fingers", "optical", optics->shaded});
-        t.push_back({"not_absorbed", "optical", optics->not_absorbed()});
+        t.push_back({"parasitic_interlayers", "optical", optics->parasitic});
+        t.push_back({"below_gap", "optical", optics->below_gap});
+        t.push_back({"passed_through", "optical", optics->passed_through});
         // Photon energy above the gap, given up as heat as the pairs relax
         // to the band edges.
         t.push_back({"thermalisation", "optical", optics->absorbed - b.band_edge_input});
@@ -120,8 +122,11 @@ namespace backcomb::postprocess
       j["optical"] = {{"incident", optics->incident},
                       {"reflected", optics->reflected},
                       {"shaded_by_fingers", optics->shaded},
-                      {"not_absorbed", optics->not_absorbed()},
+                      {"parasitic_interlayers", optics->parasitic},
+                      {"below_gap", optics->below_gap},
+                      {"passed_through", optics->passed_through},
                       {"absorbed", optics->absorbed},
+                      {"unbooked", optics->unbooked()},
                       {"absorbed_current_mA_per_cm2", optics->absorbed_current}};
     else
       j["optical"] = nullptr;

@@ -509,6 +509,10 @@ namespace backcomb::simulator
     declare(prm, "Output", field_biases);
     declare(prm, "Output", dead_zone_threshold);
     declare(prm, "Output", power_balance_biases);
+    declare_text(prm, "Output", "EQE without bias light", "false", Bool(), "",
+                 "Besides the EQE under the case's light (differential, at short circuit), write the "
+                 "linear-response EQE of the cell in the dark (eqe.csv column EQE_no_bias_light; one more "
+                 "adjoint solve).");
     prm.leave_subsection();
   }
 
@@ -711,6 +715,7 @@ namespace backcomb::simulator
         c.output.dead_zone_threshold = get(prm, "Output", dead_zone_threshold);
         c.output.field_biases        = get(prm, "Output", field_biases);
         c.output.loss_biases         = get(prm, "Output", power_balance_biases);
+        c.output.eqe_without_bias_light = prm.get_bool("EQE without bias light");
         const auto check_within_scan = [&](const NumberListEntry &e, const std::vector<double> &biases) {
           for (const double v : biases)
             if (v < c.jv.start - 1e-12 || v > c.jv.stop + 1e-12)

@@ -46,6 +46,7 @@ namespace backcomb::simulator
     std::vector<double> field_biases{0.0}; // V at which fields are written
     double              dead_zone_threshold = 0.5; // f_c below this is dead
     std::vector<double> loss_biases;       // V, "Power balance biases": besides SC, MPP, OC
+    bool                eqe_without_bias_light = false;
   };
 
   struct Case

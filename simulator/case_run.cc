@@ -12,6 +12,7 @@
 #include "geometry/ids.h"
 #include "geometry/period_mesh.h"
 #include "postprocess/dead_zone.h"
+#include "postprocess/eqe.h"
 #include "postprocess/jv_tables.h"
 #include "postprocess/losses.h"
 #include "postprocess/pvd.h"
@@ -172,6 +173,8 @@ namespace backcomb::simulator
       layout.electron_finger_half_width_um = 0.5 * c.geometry.electron_finger_width_um;
       layout.gap_um                        = c.geometry.gap_um;
       layout.hole_finger_half_width_um     = 0.5 * c.geometry.hole_finger_width_um;
+      layout.electron_interlayer_um        = 1e-3 * c.geometry.electron_interlayer_nm;
+      layout.hole_interlayer_um            = 1e-3 * c.geometry.hole_interlayer_nm;
       return layout;
     }
 
@@ -278,6 +281,19 @@ namespace backcomb::simulator
     json                                                       summary;
 
     double width = 0, active = 0; // footprint and active width, um
+    // Of the current collected at short circuit (collection map), the share
+    // of the pairs generated over the active width.
+    std::optional<double> active_share;
+    // Per-active-area figures = footprint figures times this (see README,
+    // "per active area"); unknown without a collection map.
+    std::optional<double> active_scale() const
+    {
+      if (!(active > 0) || active >= width)
+        return 1.0;
+      if (!active_share)
+        return std::nullopt;
+      return *active_share * width / active;
+    }
     fem::StepReport on;           // the light (or dark) start state
     fem::JVScan     light, dark;
     double          generated = 0; // mA/cm^2
@@ -289,6 +305,8 @@ namespace backcomb::simulator
     double          ramp_seconds        = 0;
 
     json     fields = json::array(), dead_zone = nullptr, collection = nullptr;
+    std::optional<QuantumEfficiency> eqe; // spectrum model, under light
+    std::vector<double> spectral_collection(const dealii::Vector<double> &fc) const;
     double   adjoint_seconds = 0;
     unsigned adjoint_solves  = 0;
 
@@ -636,6 +654,36 @@ namespace backcomb::simulator
                              const dealii::Vector<double> &fc)
   {
     const double collected = solver->collected_current(fc);
+    if (!generation->wavelengths_nm().empty())
+      {
+        // The spectral response from the same map, and optionally from the
+        // map of the cell in the dark at 0 V (linear response).
+        QuantumEfficiency q;
+        q.wavelength_nm   = generation->wavelengths_nm();
+        q.photon_flux     = generation->incident_photon_flux();
+        q.eqe             = spectral_collection(fc);
+        q.bias_light_suns = c.illumination.intensity_suns;
+        const auto f      = generation->spectral_fractions();
+        q.absorbed        = f.absorbed;
+        q.reflected       = f.reflected;
+        q.transmitted     = f.transmitted;
+        if (c.output.eqe_without_bias_light)
+          {
+            dealii::Timer t;
+            solver->solve_equilibrium();
+            q.eqe_no_bias_light = spectral_collection(solver->collection_probability());
+            adjoint_seconds += t.wall_time();
+            ++adjoint_solves;
+            solver->set_state(sc.state, sc.jv.voltage, 1.0);
+          }
+        eqe = std::move(q);
+      }
+    if (active < width && collected != 0)
+      {
+        // The active width is the gap: x from the electron finger's edge.
+        const double gap_start = 0.5 * c.geometry.electron_finger_width_um;
+        active_share           = solver->collected_current(fc, gap_start, gap_start + active) / collected;
+      }
     collection             = {{"bias_V", 0.0},
                               {"collected_current_mA_per_cm2", collected},
                               {"terminal_current_mA_per_cm2", sc.jv.current},
@@ -653,6 +701,21 @@ namespace backcomb::simulator
       {
         throw OutputError(e.what());
       }
+  }
+
+  // EQE per wavelength of the optical model from a collection map: the
+  // pairs of each wavelength weighted by f_c over the absorber, per photon
+  // incident on the footprint.
+  std::vector<double>
+  CaseRun::spectral_collection(const dealii::Vector<double> &fc) const
+  {
+    std::vector<double> acc(generation->wavelengths_nm().size(), 0.0);
+    for (const auto &p : solver->collection_points(fc))
+      generation->add_pair_densities(p.x_um, p.y_um, p.weight, acc);
+    MPI_Allreduce(MPI_IN_PLACE, acc.data(), int(acc.size()), MPI_DOUBLE, MPI_SUM, o.communicator);
+    for (double &a : acc)
+      a /= width;
+    return acc;
   }
 
   // Where the power goes: the balance at short circuit, the maximum power
@@ -765,7 +828,7 @@ namespace backcomb::simulator
                          {"metrics", metrics_json(cell_metrics,
                                                   cell_metrics.valid ? std::optional<double>(cell_metrics.Jsc)
                                                                      : std::nullopt,
-                                                  width / active, input_power)}};
+                                                  active_scale(), input_power)}};
             if (cell_mpp)
               cell_json["at_max_power"] = cell_at_max_power_json(*cell_mpp);
           }
@@ -782,7 +845,7 @@ namespace backcomb::simulator
                        {"contacts_ohm_cm2", split.contacts},
                        {"fingers_ohm_cm2", split.fingers},
                        {"pseudo_voltage_at_Jmp_V", film.pseudo_voltage_at_jmp},
-                       {"pseudo_metrics", metrics_json(film.pseudo, film.pseudo.Jsc, width / active, input_power)}};
+                       {"pseudo_metrics", metrics_json(film.pseudo, film.pseudo.Jsc, active_scale(), input_power)}};
           }
       }
     catch (const std::exception &e)
@@ -818,7 +881,7 @@ namespace backcomb::simulator
     r.incident_mW_per_cm2         = input_power;
     r.photon_current_mA_per_cm2   = photon_limit;
     r.absorbed_current_mA_per_cm2 = generated;
-    r.active_scale                = active > 0 ? width / active : 1;
+    r.active_scale                = active_scale().value_or(1.0);
     r.degeneracy                  = degeneracy;
     r.degeneracy_where            = degeneracy_where;
     if (lit && metrics.valid)
@@ -844,13 +907,14 @@ namespace backcomb::simulator
     for (const auto &f : dark.failures)
       s["failures"].push_back(f);
     const std::optional<double> jsc = lit ? short_circuit_current(fem::converged_curve(light)) : std::nullopt;
-    s["metrics"] = lit ? metrics_json(metrics, jsc, width / active, input_power) : json(nullptr);
+    s["metrics"] = lit ? metrics_json(metrics, jsc, active_scale(), input_power) : json(nullptr);
     s["points"]  = json::array();
     add_points(s["points"], lit ? "light" : "dark", light, bias_grid(c));
     if (lit && c.jv.dark)
       add_points(s["points"], "dark", dark, bias_grid(c));
     s["footprint_width_um"]            = width;
     s["active_width_um"]               = active;
+    s["active_width_collected_share"]  = active_share ? json(*active_share) : json(nullptr);
     s["generation_current_mA_per_cm2"] = generated;
     s["collection_efficiency"]         = (jsc && generated > 0) ? json(*jsc / generated) : json(nullptr);
     // Iterations count every linear solve (Newton and chord steps);
@@ -867,6 +931,7 @@ namespace backcomb::simulator
                    {"factorisations", solver ? solver->factorisations() : 0u}};
     s["fields"]         = fields;
     s["collection_map"] = collection;
+    s["eqe"]            = eqe ? eqe_json(*eqe, "eqe.csv") : json(nullptr);
     s["dead_zone"]      = dead_zone;
     s["light_points"]   = light.points.size();
     s["losses"]   = loss_points.empty() ? json(nullptr) : losses_json(loss_points, generation->optical_budget());
@@ -938,6 +1003,8 @@ namespace backcomb::simulator
     for (const auto &w : plot_warnings)
       std::fprintf(stderr, "backcomb: %s\n", w.c_str());
     write_file_atomically(o.folder + "/jv.csv", jv_csv(light, dark, width));
+    if (eqe)
+      write_file_atomically(o.folder + "/eqe.csv", eqe_csv(*eqe));
     json s                  = summary_of_results();
     s["timings_s"]["total"] = total_time.wall_time();
     // File names and messages are user text: a byte that is not UTF-8
@@ -952,10 +1019,12 @@ namespace backcomb::simulator
   {
     const auto &m = metrics;
     if (m.valid)
-      std::printf("Jsc %.3f mA/cm2  Voc %.4f V  FF %.4f  PCE %.3f %% (footprint), %.3f %% (active)  "
+      std::printf("Jsc %.3f mA/cm2  Voc %.4f V  FF %.4f  PCE %.3f %% (footprint), %s %% (active)  "
                   "collection %.4f\n",
                   m.Jsc, m.Voc, m.FF, input_power > 0 ? 100 * m.Pmax / input_power : 0.0,
-                  input_power > 0 ? 100 * m.Pmax * width / active / input_power : 0.0,
+                  input_power > 0 && active_scale()
+                    ? format_fixed(100 * m.Pmax * *active_scale() / input_power, 3).c_str()
+                    : "n/a",
                   generated > 0 ? m.Jsc / generated : 0.0);
     else if (lit)
       std::printf("J-V metrics not available: the light J-V did not converge where they are needed\n");

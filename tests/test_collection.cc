@@ -4,14 +4,18 @@
 #include "fem/constants.h"
 #include "fem/drift_diffusion.h"
 #include "fem/operating_points.h"
+#include "fem/optics.h"
 #include "geometry/parameters.h"
 #include "geometry/period_mesh.h"
 #include "tests/strip_mesh.h"
 
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdlib>
+#include <filesystem>
+#include <vector>
 
 using namespace backcomb;
 using namespace backcomb::fem;
@@ -161,5 +165,148 @@ TEST(CollectionProbability, AdjointMatchesFiniteDifferences)
       std::printf("spot (%.2f, %.2f) um: dI adjoint %.6e, finite differences %.6e mA/cm2, ratio %.5f\n",
                   s.x, s.y, adjoint, fd, adjoint / fd);
       EXPECT_NEAR(adjoint / fd, 1.0, 0.01);
+    }
+}
+
+// ------------------------------------------------------ spectral response
+
+namespace
+{
+  // EQE per wavelength of `gen` from a collection map, per photon incident
+  // on the footprint (the computation of simulator/case_run.cc).
+  std::vector<double>
+  eqe_from_map(const DriftDiffusionSolver &solver, const Generation &gen, const dealii::Vector<double> &fc)
+  {
+    std::vector<double> acc(gen.wavelengths_nm().size(), 0.0);
+    for (const auto &p : solver.collection_points(fc))
+      gen.add_pair_densities(p.x_um, p.y_um, p.weight, acc);
+    for (double &a : acc)
+      a /= solver.width_um();
+    return acc;
+  }
+
+  // The pairs per unit volume of wavelength i at (x, y) per photon, um^-1.
+  double
+  pair_density(const Generation &gen, std::size_t i, double x, double y)
+  {
+    std::vector<double> a(gen.wavelengths_nm().size(), 0.0);
+    gen.add_pair_densities(x, y, 1.0, a);
+    return a[i];
+  }
+
+  const std::filesystem::path am15g_file   = std::filesystem::path(BACKCOMB_DATA_DIR) / "astm-g173-03.csv";
+  const std::filesystem::path mapi_nk_file = std::filesystem::path(BACKCOMB_DATA_DIR) / "absorber-nk-mapi.yml";
+} // namespace
+
+// EQE from the collection map on the small comb period under AM1.5G light
+// (film side): (1) q int EQE Phi dl equals q int G f_c dA (the spectral
+// decomposition of the same integral, to the 1e-4 of the interpolated
+// depth profile); (2) at three wavelengths it equals the response of the
+// terminal current to a small added monochromatic light, by central
+// finite differences (analytic: dI = q int f_c dG to first order), within
+// 1 %.
+TEST(QuantumEfficiency, MapMatchesMonochromaticPerturbation)
+{
+  PeriodCase          pc;
+  IlluminationParameters p;
+  p.spectrum_file          = am15g_file;
+  p.optical_constants_file = mapi_nk_file;
+  p.front_reflectance      = 0.05;
+  const Generation gen(p, 1.6, 0.4, FingerLayout{1, 4, 1, true});
+  const auto       solve_with = [&](const std::size_t i, const double dphi, dealii::Vector<double> *fc) {
+    DeviceModel dev(300, {{ids::absorber, pc.m}}, {ids::absorber}, pc.e, pc.h, SurfaceParameters(),
+                    SurfaceParameters(), [&](double x, double y) {
+                      // photons cm^-2 s^-1 times um^-1: 1e4 for cm^-3 s^-1.
+                      return gen.rate(x, y) + (dphi != 0 ? 1e4 * dphi * pair_density(gen, i, x, y) : 0.0);
+                    });
+    DriftDiffusionSolver solver(pc.tria, dev, tight());
+    EXPECT_TRUE(illuminate(solver, 1.0, 8).converged);
+    EXPECT_TRUE(move_to(solver, 0.0, 1.0, 8).converged);
+    if (fc)
+      {
+        *fc = solver.collection_probability();
+        const std::vector<double> eqe = eqe_from_map(solver, gen, *fc);
+        const auto               &w   = gen.wavelengths_nm();
+        std::vector<double>       y(w.size());
+        const auto                flux = gen.incident_photon_flux();
+        for (std::size_t k = 0; k < w.size(); ++k)
+          y[k] = eqe[k] * flux[k];
+        const double integral = 1e3 * constants::q * integrate_trapezoid(w, y);
+        const double direct   = solver.collected_current(*fc);
+        std::printf("q int EQE Phi = %.6f mA/cm2, q int G f_c = %.6f mA/cm2, terminal %.6f mA/cm2\n", integral,
+                    direct, solver.terminal_current().total());
+        EXPECT_NEAR(integral / direct, 1.0, 2e-4);
+        // Against Jsc: within the non-linearity measure (the difference of
+        // q int G f_c from the terminal current) and the 2e-4 above.
+        const double jsc = solver.terminal_current().total();
+        EXPECT_LE(std::abs(integral - jsc), std::abs(direct - jsc) + 2e-4 * jsc);
+      }
+    return solver.terminal_current().total();
+  };
+  dealii::Vector<double> fc;
+  solve_with(0, 0.0, &fc);
+  // The map once more, for the EQE of every wavelength.
+  DeviceModel base(300, {{ids::absorber, pc.m}}, {ids::absorber}, pc.e, pc.h, SurfaceParameters(),
+                   SurfaceParameters(), [&](double x, double y) { return gen.rate(x, y); });
+  DriftDiffusionSolver solver(pc.tria, base, tight());
+  ASSERT_TRUE(illuminate(solver, 1.0, 8).converged);
+  ASSERT_TRUE(move_to(solver, 0.0, 1.0, 8).converged);
+  const std::vector<double> eqe = eqe_from_map(solver, gen, solver.collection_probability());
+  const auto               &w   = gen.wavelengths_nm();
+  for (const double target : {400.0, 550.0, 700.0})
+    {
+      const std::size_t i =
+        std::lower_bound(w.begin(), w.end(), target) - w.begin();
+      // 1e14 photons cm^-2 s^-1: about 1e-3 of the sun's photon flux.
+      const double dphi = 1e14;
+      const double Ip = solve_with(i, dphi, nullptr), Im = solve_with(i, -dphi, nullptr);
+      const double fd = 0.5 * (Ip - Im) / (1e3 * constants::q * dphi);
+      std::printf("%.1f nm: EQE from the map %.6f, from the perturbation %.6f\n", w[i], eqe[i], fd);
+      EXPECT_NEAR(eqe[i] / fd, 1.0, 0.01);
+    }
+}
+
+// The diffusion-limited strip (as DopedStripMatchesDiffusionSolution): f_c
+// depends on x alone, so the internal QE (EQE over the absorber's
+// absorptance) of every wavelength is the mean of f_c, the analytic
+// collected fraction (2L/g) tanh(g/(2L)) (Donolato 1985, as above).
+TEST(QuantumEfficiency, StripInternalQEIsDiffusionLimit)
+{
+  Material m;
+  m.acceptors = 1e16;
+  m.mu_n = m.mu_p = 10.0;
+  const double D = m.mu_n * Vt;
+  m.tau_n = m.tau_p = 1e-8 / D; // L = 1 um
+  ContactParameters c;
+  c.model         = "ohmic";
+  c.work_function = m.electron_affinity + m.band_gap - Vt * std::log(m.Nv / m.acceptors);
+  const double g  = 5.0;
+  // The strip of DopedStripMatchesDiffusionSolution with 40 layers of 25 nm
+  // in depth, so that the quadrature resolves light absorbed within 50 nm.
+  dealii::Triangulation<2> tria;
+  dealii::GridGenerator::subdivided_hyper_rectangle(
+    tria, {test_support::graded_segment(g, 0.002, 1.1, 0.05, true, true), std::vector<double>(40, 0.025)},
+    dealii::Point<2>(0, 0), dealii::Point<2>(g, 1.0));
+  test_support::set_strip_ids(tria, g, 1.0, 0.0);
+  IlluminationParameters p;
+  p.spectrum_file          = am15g_file;
+  p.optical_constants_file = mapi_nk_file;
+  p.intensity_suns         = 1e-5; // low injection: 1e16 acceptors
+  const Generation gen(p, 1.6, 1.0, FingerLayout{0, 0, 0, false});
+  DeviceModel dev(300, {{ids::absorber, m}}, {ids::absorber}, c, c, SurfaceParameters(), SurfaceParameters(),
+                  [&](double x, double y) { return gen.rate(x, y); });
+  DriftDiffusionSolver solver(tria, dev, tight());
+  ASSERT_TRUE(illuminate(solver, 1.0, 8).converged);
+  const std::vector<double> w   = solver.electron_collection_weights();
+  const std::vector<double> eqe = eqe_from_map(solver, gen, solver.collection_probability(&w));
+  const auto                f   = gen.spectral_fractions();
+  const double              exact = 2 / g * std::tanh(0.5 * g);
+  const auto               &wl    = gen.wavelengths_nm();
+  for (const double target : {350.0, 500.0, 650.0})
+    {
+      const std::size_t i = std::lower_bound(wl.begin(), wl.end(), target) - wl.begin();
+      std::printf("%.1f nm: absorptance %.5f, EQE %.5f, IQE %.5f, analytic %.5f\n", wl[i], f.absorbed[i], eqe[i],
+                  eqe[i] / f.absorbed[i], exact);
+      EXPECT_NEAR(eqe[i] / f.absorbed[i] / exact, 1.0, 0.01);
     }
 }

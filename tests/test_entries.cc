@@ -224,6 +224,7 @@ TEST(Entries, TemplateRangeIsTheCheckedRange)
     {"Illumination/Finger transmittance"},
     {"Illumination/Back reflectance"},
     {"Illumination/Uniform generation rate"},
+    {"Illumination/Electron interlayer absorption coefficient"},
     {"Numerics/Newton tolerance"},
     {"Numerics/Newton iterations"},
     {"Numerics/Update limit"},
@@ -280,8 +281,8 @@ TEST(Entries, TemplateStatesUnitAndRange)
                   (entry_unit(path).empty() && doc.find(" Dimensionless.") != std::string::npos))
         << path << ": " << doc;
     }
-  // 8 + 4 + 5 + 5 + 6 + 1 + 5 + 3 number entries in these sections.
-  EXPECT_EQ(checked, 37u);
+  // 8 + 4 + 7 + 5 + 6 + 1 + 5 + 3 number entries in these sections.
+  EXPECT_EQ(checked, 39u);
 }
 
 TEST(Entries, DeclaredUnits)

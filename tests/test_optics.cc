@@ -13,6 +13,8 @@
 #include <fstream>
 #include <iostream>
 #include <string>
+#include <tuple>
+#include <vector>
 
 #include <unistd.h>
 
@@ -276,6 +278,113 @@ TEST_F(OpticsFiles, IlluminatedSideAndFingerShadow)
   // The verification strip has no fingers: no shadow.
   const Generation strip(p, 1.6, t, no_fingers);
   EXPECT_DOUBLE_EQ(strip.rate(1.0, 0.1), strip.rate(6.0, 0.1));
+}
+
+// Interlayers on the fingers lie below the absorber: lit through the
+// substrate, the absorber's depth over a finger starts at the interlayer's
+// top, and the light reaching it is what the finger transmits and the
+// interlayer does not absorb (Beer-Lambert across the interlayer); lit from
+// the film side, the column over a finger is the absorber above the
+// interlayer, with the same profile as the gap's (single pass).
+TEST_F(OpticsFiles, InterlayerColumns)
+{
+  const double t = 0.5, d_e = 0.02, d_h = 0.03;
+  auto         p = spectrum_parameters(constant_alpha(3e4));
+  p.electron_interlayer_alpha_per_cm = 1e5;
+  p.hole_interlayer_alpha_per_cm     = 2e5;
+  FingerLayout layout{2, 10, 3, true};
+  layout.electron_interlayer_um = d_e;
+  layout.hole_interlayer_um     = d_h;
+
+  // Each column interpolates its own depth table: 1e-4 relative (the
+  // interpolation bound of InterpolatedProfileIsAccurate).
+  const Generation film(p, 1.6, t, layout);
+  for (const double y : {0.05, 0.2, 0.45})
+    {
+      EXPECT_NEAR(film.rate(1.0, y), film.rate(6.0, y), 1e-4 * film.rate(6.0, y)) << y;
+      EXPECT_NEAR(film.rate(13.0, y), film.rate(6.0, y), 1e-4 * film.rate(6.0, y)) << y;
+    }
+
+  p.side                 = IlluminationParameters::Side::substrate;
+  p.finger_transmittance = 0.7;
+  const Generation sub(p, 1.6, t, layout);
+  const double     A_e = 1 - std::exp(-1e5 * 1e-4 * d_e), A_h = 1 - std::exp(-2e5 * 1e-4 * d_h);
+  for (const double d : {0.0, 0.1, 0.3})
+    {
+      const double gap = sub.rate(6.0, d);
+      EXPECT_NEAR(sub.rate(1.0, d_e + d), 0.7 * (1 - A_e) * gap, 1e-4 * gap) << d;
+      EXPECT_NEAR(sub.rate(13.0, d_h + d), 0.7 * (1 - A_h) * gap, 1e-4 * gap) << d;
+    }
+}
+
+// Every photon of the spectrum is booked: each term of the optical budget is
+// computed on its own, and they add up to the incident power to 1e-9
+// relative, for both illuminated sides, with interlayers, fingers, front and
+// back reflectance. Terms with a closed form are checked against it, and the
+// absorbed photon current against an independent quadrature of G(x, y) over
+// the absorber of the period. Incident power: ASTM G173-03 global tilt,
+// 1000.4 W/m^2 (the standard's stated integral).
+TEST(OpticalBudget, BooksEveryPhoton)
+{
+  const double t = 0.4, d_e = 0.02, d_h = 0.05, R_f = 0.05, R_b = 0.3, T_f = 0.8;
+  const double a_e = 2e5, a_h = 5e4; // cm^-1
+  FingerLayout layout{2.5, 5, 2.5, true};
+  layout.electron_interlayer_um = d_e;
+  layout.hole_interlayer_um     = d_h;
+  const double period = 10;
+  for (const auto side : {IlluminationParameters::Side::film, IlluminationParameters::Side::substrate})
+    {
+      auto p                             = spectrum_parameters(mapi_nk);
+      p.side                             = side;
+      p.front_reflectance                = R_f;
+      p.back_reflectance                 = R_b;
+      p.finger_transmittance             = T_f;
+      p.electron_interlayer_alpha_per_cm = a_e;
+      p.hole_interlayer_alpha_per_cm     = a_h;
+      const Generation g(p, 1.6, t, layout);
+      const auto       b = g.optical_budget();
+      ASSERT_TRUE(b.has_value());
+      const bool from_substrate = side == IlluminationParameters::Side::substrate;
+      std::printf("%s side: incident %.6f, reflected %.6f, fingers %.6f, interlayers %.6f, absorbed %.6f, "
+                  "below gap %.6f, passed through %.6f mW/cm2; unbooked %.2e\n",
+                  from_substrate ? "substrate" : "film", b->incident, b->reflected, b->shaded, b->parasitic,
+                  b->absorbed, b->below_gap, b->passed_through, b->unbooked());
+      EXPECT_NEAR(b->incident, 100.04, 0.1);
+      EXPECT_LT(std::abs(b->unbooked()), 1e-9 * b->incident);
+      EXPECT_NEAR(b->reflected, R_f * b->incident, 1e-12 * b->incident);
+      for (const double term : {b->shaded, b->parasitic, b->absorbed, b->below_gap, b->passed_through})
+        EXPECT_GT(term, 0);
+      if (from_substrate)
+        {
+          // Closed forms: the fingers stop (1 - T_f) of what passes the
+          // front, the interlayers absorb 1 - exp(-alpha d) of what the
+          // fingers let through.
+          const double front = (1 - R_f) * b->incident;
+          EXPECT_NEAR(b->shaded, front * (1 - T_f) * 5 / period, 1e-12 * front);
+          const double A_e = 1 - std::exp(-a_e * 1e-4 * d_e), A_h = 1 - std::exp(-a_h * 1e-4 * d_h);
+          EXPECT_NEAR(b->parasitic, front * T_f * 2.5 * (A_e + A_h) / period, 1e-12 * front);
+        }
+      // q int G dA per period width, by the composite Simpson rule on a
+      // fine grid within each column's absorber.
+      double total = 0;
+      for (const auto &[x0, x1, bottom] : std::vector<std::tuple<double, double, double>>{
+             {0, 2.5, d_e}, {2.5, 7.5, 0.0}, {7.5, 10, d_h}})
+        {
+          const int n = 4000;
+          double    column = 0;
+          for (int k = 0; k <= n; ++k)
+            {
+              const double y = bottom + (t - bottom) * k / n;
+              const double w = (k == 0 || k == n) ? 1 : (k % 2 ? 4 : 2);
+              column += w * g.rate(0.5 * (x0 + x1), y);
+            }
+          total += column * (t - bottom) / (3 * n) * (x1 - x0);
+        }
+      // cm^-3 s^-1 um -> q * cm^-2 s^-1 (1e-4), A -> mA (1e3).
+      const double quadrature = 1e3 * constants::q * 1e-4 * total / period;
+      EXPECT_NEAR(quadrature / b->absorbed_current, 1.0, 2e-4);
+      EXPECT_LE(b->absorbed_current, *g.photon_current_above_gap_mA_per_cm2());
+    }
 }
 
 TEST(Generation, UniformModel)

@@ -27,9 +27,12 @@ namespace backcomb::fem
   }
 
   GenerationProfile
-  DepthTableGeneration::profile(const IlluminationParameters &p, double, const double thickness_um) const
+  DepthTableGeneration::profile(const IlluminationParameters &p, double, const OpticalColumn &column) const
   {
-    const double suns          = p.intensity_suns;
+    // The table is the absorber's own profile; a column behind a finger and
+    // an interlayer receives their transmitted share of it.
+    const double suns          = p.intensity_suns * column.entering();
+    const double thickness_um  = column.absorber_um;
     const double to_mA_per_cm2 = 1e3 * constants::q * 1e-4;
     const auto   table         = read_depth_table(p.depth_table_file);
     const double needed_nm     = 1e3 * thickness_um;

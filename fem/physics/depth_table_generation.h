@@ -19,6 +19,6 @@ namespace backcomb::fem
     void parse_parameters(dealii::ParameterHandler &prm, const std::filesystem::path &base_folder, bool selected,
                           IlluminationParameters &p) const override;
     GenerationProfile profile(const IlluminationParameters &p, double band_gap_eV,
-                              double thickness_um) const override;
+                              const OpticalColumn &column) const override;
   };
 } // namespace backcomb::fem

@@ -1,8 +1,9 @@
 // What every generation model provides: its own entries in the section
 // "Illumination", and the generation rate at 1 sun times the intensity
-// versus depth below the illuminated surface, for one unshadowed column of
-// the absorber. fem::Generation (fem/optics.h) adds the fingers' shadow and
-// the lateral position. A generation model is one class in one file of
+// versus depth below the illuminated surface of the absorber, for one
+// column of the period (gap or finger, fem::OpticalColumn: the fingers'
+// shadow and the interlayers included). fem::Generation (fem/optics.h)
+// picks the column by lateral position. A generation model is one class in one file of
 // fem/physics/, registered by name in registry.cc; the name is the text of
 // the entry Illumination/Generation model.
 #pragma once
@@ -18,15 +19,6 @@
 
 namespace backcomb::fem
 {
-  // The depth profile of one unshadowed column, interpolated linearly.
-  struct GenerationProfile
-  {
-    std::vector<double>          depth_um;       // increasing, from 0 to the thickness
-    std::vector<double>          rate_per_cm3_s; // at those depths, intensity applied
-    double                       absorbed_current = 0; // q int G dd, mA/cm^2
-    std::optional<double>        photon_current;  // above-gap photon current, if known
-    std::optional<OpticalBudget> column_budget;   // the optical side, if known
-  };
 
   class GenerationModel
   {
@@ -49,6 +41,21 @@ namespace backcomb::fem
 
     virtual GenerationProfile profile(const IlluminationParameters &p,
                                       double                        band_gap_eV,
-                                      double                        thickness_um) const = 0;
+                                      const OpticalColumn          &column) const = 0;
+
+    // The above-gap spectrum with the absorber's absorption coefficient,
+    // for spectral responses; only a model that knows the spectrum.
+    virtual std::optional<AboveGapSpectrum> spectral(const IlluminationParameters &, double) const
+    {
+      return std::nullopt;
+    }
+
+    // The optical side of the power balance for one column; only a model
+    // that knows the incident spectrum can tell it.
+    virtual std::optional<OpticalBudget> budget(const IlluminationParameters &, double,
+                                                const OpticalColumn &) const
+    {
+      return std::nullopt;
+    }
   };
 } // namespace backcomb::fem

@@ -49,26 +49,30 @@ namespace backcomb::fem
     p.back_reflectance       = get(prm, "Illumination", back_reflectance);
   }
 
+  namespace
+  {
+    BeerLambert
+    passes(const IlluminationParameters &p, const OpticalColumn &column)
+    {
+      return {column.absorber_um, p.intensity_suns, p.front_reflectance, column.returned(p.back_reflectance),
+              column.entering()};
+    }
+  } // namespace
+
   GenerationProfile
   SpectrumGeneration::profile(const IlluminationParameters &p, const double band_gap_eV,
-                              const double thickness_um) const
+                              const OpticalColumn &column) const
   {
     const double      suns      = p.intensity_suns;
     const auto        spectrum  = read_spectrum(p.spectrum_file);
     const auto        constants = read_optical_constants(p.optical_constants_file);
     const auto        above     = above_gap_spectrum(spectrum, constants, band_gap_eV);
-    const BeerLambert optics{thickness_um, suns, p.front_reflectance, p.back_reflectance};
+    const BeerLambert optics    = passes(p, column);
+    const double      thickness_um = column.absorber_um;
 
     GenerationProfile g;
     g.photon_current   = suns * photon_current_mA_per_cm2(above);
     g.absorbed_current = beer_lambert_absorbed_current(above, optics);
-    OpticalBudget b;
-    // W/m^2 to mW/cm^2: 0.1.
-    b.incident         = 0.1 * suns * integrate_trapezoid(spectrum.wavelength_nm, spectrum.irradiance);
-    b.reflected        = p.front_reflectance * b.incident;
-    b.absorbed         = beer_lambert_absorbed_power(above, optics);
-    b.absorbed_current = g.absorbed_current;
-    g.column_budget    = b;
 
     // Linear interpolation of e^{-alpha d} on a step h errs by at most
     // (alpha h)^2 / 8 relative; alpha h <= 0.02 keeps every wavelength's
@@ -84,5 +88,22 @@ namespace backcomb::fem
         g.rate_per_cm3_s.push_back(beer_lambert_generation(above, optics, d));
       }
     return g;
+  }
+
+  std::optional<AboveGapSpectrum>
+  SpectrumGeneration::spectral(const IlluminationParameters &p, const double band_gap_eV) const
+  {
+    return above_gap_spectrum(read_spectrum(p.spectrum_file), read_optical_constants(p.optical_constants_file),
+                              band_gap_eV);
+  }
+
+  std::optional<OpticalBudget>
+  SpectrumGeneration::budget(const IlluminationParameters &p, const double band_gap_eV,
+                             const OpticalColumn &column) const
+  {
+    const auto spectrum  = read_spectrum(p.spectrum_file);
+    const auto constants = read_optical_constants(p.optical_constants_file);
+    const auto above     = above_gap_spectrum(spectrum, constants, band_gap_eV);
+    return column_budget(spectrum, above, column, p.intensity_suns, p.front_reflectance, p.back_reflectance);
   }
 } // namespace backcomb::fem

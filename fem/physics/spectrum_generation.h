@@ -24,6 +24,9 @@ namespace backcomb::fem
     void parse_parameters(dealii::ParameterHandler &prm, const std::filesystem::path &base_folder, bool selected,
                           IlluminationParameters &p) const override;
     GenerationProfile profile(const IlluminationParameters &p, double band_gap_eV,
-                              double thickness_um) const override;
+                              const OpticalColumn &column) const override;
+    std::optional<AboveGapSpectrum> spectral(const IlluminationParameters &p, double band_gap_eV) const override;
+    std::optional<OpticalBudget> budget(const IlluminationParameters &p, double band_gap_eV,
+                                        const OpticalColumn &column) const override;
   };
 } // namespace backcomb::fem

@@ -25,11 +25,12 @@ namespace backcomb::fem
   }
 
   GenerationProfile
-  UniformGeneration::profile(const IlluminationParameters &p, double, const double thickness_um) const
+  UniformGeneration::profile(const IlluminationParameters &p, double, const OpticalColumn &column) const
   {
+    const double thickness_um = column.absorber_um;
     // Micrometres to centimetres, and A to mA, for q int G dd.
     const double      to_mA_per_cm2 = 1e3 * constants::q * 1e-4;
-    const double      g             = p.intensity_suns * p.uniform_rate_per_cm3_s;
+    const double      g             = p.intensity_suns * column.entering() * p.uniform_rate_per_cm3_s;
     GenerationProfile out;
     out.depth_um         = {0., thickness_um};
     out.rate_per_cm3_s   = {g, g};
