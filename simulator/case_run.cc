@@ -15,6 +15,7 @@
 #include "postprocess/jv_tables.h"
 #include "postprocess/losses.h"
 #include "postprocess/pvd.h"
+#include "postprocess/views.h"
 #include "simulator/bounds.h"
 #include "simulator/checkpoint.h"
 #include "simulator/guard_rails.h"
@@ -30,6 +31,7 @@
 #include <vtkVersion.h>
 
 #include <algorithm>
+#include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
@@ -59,13 +61,16 @@ namespace backcomb::simulator
               {"worst_aspect_ratio", s.worst_aspect_ratio}};
     }
 
-    void
-    print_statistics(const geometry::MeshStatistics &s)
+    std::string
+    statistics_text(const geometry::MeshStatistics &s)
     {
-      std::printf("mesh: %u cells; cell sides %.4g .. %.4g um (x from %.4g um, y from %.4g um); "
-                  "worst aspect ratio %.0f\n",
-                  s.n_cells, s.min_size_um, s.max_size_um, s.min_x_size_um, s.min_y_size_um,
-                  s.worst_aspect_ratio);
+      char text[300];
+      std::snprintf(text, sizeof text,
+                    "mesh: %u cells; cell sides %.4g .. %.4g um (x from %.4g um, y from %.4g um); "
+                    "worst aspect ratio %.0f",
+                    s.n_cells, s.min_size_um, s.max_size_um, s.min_x_size_um, s.min_y_size_um,
+                    s.worst_aspect_ratio);
+      return text;
     }
 
     // Rank 0 writes the mesh file, then every process reads it. An error
@@ -111,25 +116,81 @@ namespace backcomb::simulator
         }
     }
 
-    // Progress on a terminal; nothing in batch logs or with --quiet.
-    struct Progress
+    // What a run tells while it works: one line per finished stage on
+    // stdout (not with --quiet), each J-V point as a line overwritten in
+    // place when stderr is a terminal, and with --log every one of them,
+    // stamped with the elapsed time, in the log file (written as it goes,
+    // for job scripts; --quiet does not silence the log).
+    class Progress
     {
-      bool on;
-      explicit Progress(bool quiet)
-        : on(!quiet && isatty(fileno(stderr)))
-      {}
+    public:
+      Progress(const bool quiet, const bool root, const std::string &log_file)
+        : print(!quiet && root)
+        , live(print && isatty(fileno(stderr)))
+        , start(std::chrono::steady_clock::now())
+      {
+        if (root && !log_file.empty())
+          {
+            log.reset(std::fopen(log_file.c_str(), "w"));
+            if (!log)
+              throw OutputError("--log " + log_file + ": cannot open the file for writing");
+          }
+      }
+
+      // A finished stage.
+      void
+      stage(const std::string &s) const
+      {
+        done();
+        if (print)
+          {
+            std::printf("[%7.1f s] %s\n", seconds(), s.c_str());
+            std::fflush(stdout);
+          }
+        to_log(s);
+      }
+
+      // One J-V point.
       void
       line(const std::string &s) const
       {
-        if (on)
+        if (live)
           std::fprintf(stderr, "\r%-78s", s.c_str());
+        to_log(s);
       }
+
       void
       done() const
       {
-        if (on)
+        if (live)
           std::fprintf(stderr, "\r%-78s\r", "");
       }
+
+      // A line for the log file only.
+      void
+      to_log(const std::string &s) const
+      {
+        if (log)
+          {
+            std::fprintf(log.get(), "[%7.1f s] %s\n", seconds(), s.c_str());
+            std::fflush(log.get());
+          }
+      }
+
+    private:
+      double
+      seconds() const
+      {
+        return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+      }
+
+      struct Close
+      {
+        void operator()(std::FILE *f) const { std::fclose(f); }
+      };
+      bool                               print, live;
+      std::chrono::steady_clock::time_point start;
+      std::unique_ptr<std::FILE, Close>   log;
     };
 
     std::vector<double>
@@ -242,6 +303,7 @@ namespace backcomb::simulator
     void set_up_solver();
     void solve_light_jv();
     void write_fields();
+    void write_view_fields();
     void analyse_collection(double v, const fem::ScanPoint &sc, const std::string &vtu,
                             const dealii::Vector<double> &fc);
     void compute_power_balance(const fem::JVMetrics &m0);
@@ -307,7 +369,7 @@ namespace backcomb::simulator
     , strip(c.geometry.layout == geometry::GeometryParameters::Layout::test_strip)
     , lit(c.illumination.intensity_suns > 0)
     , input_power(100.0 * c.illumination.intensity_suns)
-    , progress(o.quiet || !root)
+    , progress(o.quiet, root, o.log)
     , timer(o.communicator, std::cout, dealii::TimerOutput::never, dealii::TimerOutput::wall_times)
   {
     total_time.start();
@@ -342,6 +404,7 @@ namespace backcomb::simulator
       return code;
     write_results();
     print_report();
+    progress.to_log("finished: status " + to_string(status) + ", exit code " + std::to_string(code));
     return code;
   }
 
@@ -502,8 +565,7 @@ namespace backcomb::simulator
     build_shared_mesh(c, o.folder + "/mesh.msh", *tria, o.communicator);
     const auto stats = geometry::mesh_statistics(*tria);
     summary["mesh"]  = statistics_json(stats);
-    if (!o.quiet && root)
-      print_statistics(stats);
+    progress.stage(statistics_text(stats));
   }
 
   // The device in scaled units, the solver, the warnings of meshes that
@@ -535,6 +597,13 @@ namespace backcomb::simulator
 
     width  = solver->width_um();
     active = (!strip && c.device.active_area == DeviceSettings::ActiveArea::gap) ? c.geometry.gap_um : width;
+    // The geometry the views of view_in_paraview.py draw.
+    summary["period"] = {{"layout", strip ? "test strip" : "comb period"},
+                         {"width_um", width},
+                         {"absorber_thickness_um", c.geometry.absorber_thickness_um},
+                         {"electron_finger_width_um", strip ? json(nullptr) : json(c.geometry.electron_finger_width_um)},
+                         {"hole_finger_width_um", strip ? json(nullptr) : json(c.geometry.hole_finger_width_um)},
+                         {"gap_um", strip ? json(nullptr) : json(c.geometry.gap_um)}};
   }
 
   // Equilibrium, the light ramp and the J-V scan; under light the maximum
@@ -545,7 +614,8 @@ namespace backcomb::simulator
     dealii::TimerOutput::Scope scope(timer, t_light);
     const std::string          label = lit ? "light" : "dark";
     dealii::Timer ramp;
-    on                  = fem::start_state(*solver, lit ? 1.0 : 0.0, c.numerics.max_halvings, label, resume);
+    on = fem::start_state(*solver, lit ? 1.0 : 0.0, c.numerics.max_halvings, label, resume,
+                          [this](const std::string &s) { progress.stage(s); });
     ramp_seconds        = ramp.wall_time();
     ramp_factorisations = solver->factorisations();
     light.newton += on.newton_iterations;
@@ -562,6 +632,8 @@ namespace backcomb::simulator
                   [this](const std::string &s) { progress.line(s); }, label, resume);
         if (lit)
           fem::refine(*solver, light, c.jv.refine_to, c.numerics.max_halvings, resume);
+        progress.stage(label + " J-V: " + std::to_string(fem::converged_curve(light).size()) + " converged points" +
+                       (lit ? ", maximum power point and open circuit refined" : ""));
       }
     light_assembly       = solver->assembly_seconds();
     light_solve          = solver->linear_solve_seconds();
@@ -618,14 +690,61 @@ namespace backcomb::simulator
               }
             else if (!c.output.fields && root)
               std::filesystem::remove(path);
+            if (lit && std::abs(v) < 1e-9 && collection.is_object())
+              collection["file"] = c.output.fields ? json(name) : json(nullptr);
           }
+    if (c.output.fields)
+      write_view_fields();
     if (root && c.output.fields)
       write_pvd(o.folder + "/fields.pvd", listed_files);
+    progress.stage("fields: " + std::to_string(listed_files.size()) + " bias(es) in " + o.folder + "/fields" +
+                   (lit ? ", collection probability by the adjoint solve" : ""));
     if (!c.output.fields && root)
       {
         std::error_code ec;
         std::filesystem::remove(o.folder + "/fields", ec); // only if empty
       }
+  }
+
+  // What the views of view_in_paraview.py need besides the fields at the
+  // requested biases: the fields at the maximum power point of the light
+  // J-V (quasi-Fermi-level splitting, current streamlines) and the fingers.
+  void
+  CaseRun::write_view_fields()
+  {
+    if (lit)
+      {
+        const fem::ScanPoint *best = nullptr;
+        for (const auto &p : light.points)
+          if (p.jv.converged && p.jv.voltage > 0 &&
+              (!best || p.jv.voltage * p.jv.current > best->jv.voltage * best->jv.current))
+            best = &p;
+        if (best && best->jv.current > 0)
+          {
+            const std::string name = "fields/light_max_power.vtu";
+            solver->set_state(best->state, best->jv.voltage, 1.0);
+            try
+              {
+                solver->write_fields(o.folder + "/" + name, nullptr, c.output.dead_zone_threshold);
+              }
+            catch (const std::exception &e)
+              {
+                throw OutputError(e.what());
+              }
+            summary["max_power_fields"] = {{"bias_V", best->jv.voltage}, {"file", name}};
+          }
+      }
+    if (root && !strip)
+      try
+        {
+          write_finger_bars(o.folder + "/fields/fingers.vtp", 0.5 * c.geometry.electron_finger_width_um,
+                            c.geometry.gap_um, 0.5 * c.geometry.hole_finger_width_um,
+                            0.12 * c.geometry.absorber_thickness_um);
+        }
+      catch (const std::exception &e)
+        {
+          throw OutputError(e.what());
+        }
   }
 
   // At short circuit: the current collected according to the adjoint map
@@ -648,6 +767,8 @@ namespace backcomb::simulator
         const std::string contour = "fields/dead_zone_contour_V" + format_fixed(v, 4) + ".vtp";
         const DeadZone    d       = analyse_dead_zone(vtu, c.output.dead_zone_threshold, o.folder + "/" + contour);
         dead_zone                 = dead_zone_json(d, contour);
+        progress.stage("dead zone at short circuit: " + format_number(100 * d.area_fraction, 3) +
+                       " % of the absorber has f_c < " + format_number(d.threshold, 3));
       }
     catch (const std::exception &e)
       {
@@ -675,6 +796,7 @@ namespace backcomb::simulator
       }
     for (const double v : c.output.loss_biases)
       balance_at("bias_" + format_fixed(v, 4), v);
+    progress.stage("losses: power balance at " + std::to_string(loss_points.size()) + " operating points");
   }
 
   void
@@ -714,6 +836,7 @@ namespace backcomb::simulator
         suns_voc.emplace_back(s, oc.voltage);
         previous = s;
       }
+    progress.stage("suns-Voc: open circuit at " + std::to_string(suns_voc.size()) + " light levels");
   }
 
   // The dark J-V over the same biases, from equilibrium.
@@ -732,6 +855,7 @@ namespace backcomb::simulator
     else
       dark.failures.push_back(eq.diagnostic);
     dark_factorisations = solver->factorisations() - before;
+    progress.stage("dark J-V: " + std::to_string(fem::converged_curve(dark).size()) + " converged points");
   }
 
   // The whole comb cell (fingers and contact resistance, Electrodes
@@ -938,6 +1062,8 @@ namespace backcomb::simulator
     for (const auto &w : plot_warnings)
       std::fprintf(stderr, "backcomb: %s\n", w.c_str());
     write_file_atomically(o.folder + "/jv.csv", jv_csv(light, dark, width));
+    if (collection.is_object() && collection["file"].is_string())
+      write_view_script(o.folder); // the views need the collection probability
     json s                  = summary_of_results();
     s["timings_s"]["total"] = total_time.wall_time();
     // File names and messages are user text: a byte that is not UTF-8
@@ -1007,7 +1133,7 @@ namespace backcomb::simulator
       {
         throw OutputError(e.what());
       }
-    print_statistics(geometry::mesh_statistics(tria));
+    std::printf("%s\n", statistics_text(geometry::mesh_statistics(tria)).c_str());
     std::printf("wrote %s/mesh.msh and %s/mesh.vtu\n", o.folder.c_str(), o.folder.c_str());
     return exit_ok;
   }
