@@ -237,12 +237,10 @@ namespace
 int
 main(int argc, char **argv)
 {
-  // deal.II and PETSc want MPI; one process is the normal case.
-  dealii::Utilities::MPI::MPI_InitFinalize mpi(argc, argv, 1);
-  dealii::deal_II_exceptions::disable_abort_on_exception();
-
   // The habits every command-line program keeps: help and version on
   // stdout with exit 0; a bare call or an unknown command is a usage error.
+  // All answered before MPI starts (which takes a second), as are the
+  // entry paths that the shell completion asks for.
   if (argc < 2)
     {
       std::fprintf(stderr, "backcomb: no command given\n\n%s", usage);
@@ -271,6 +269,16 @@ main(int argc, char **argv)
         std::fputs(help_of(first), stdout);
         return exit_ok;
       }
+  if (first == "template" && argc == 3 && std::strcmp(argv[2], "--paths") == 0)
+    {
+      for (const auto &p : simulator::entry_paths())
+        std::cout << p << '\n';
+      return exit_ok;
+    }
+
+  // deal.II and PETSc want MPI; one process is the normal case.
+  dealii::Utilities::MPI::MPI_InitFinalize mpi(argc, argv, 1);
+  dealii::deal_II_exceptions::disable_abort_on_exception();
 
   Arguments args;
   if (!parse_arguments(argc, argv, args))
