@@ -81,6 +81,7 @@ class Result:
             self.max_power = self._file(s, "max_power_fields")
             self.fingers = self._fingers(s)
             self.swept, self.unit = None, ""
+            self.case_times = [0.0]
         elif os.path.isfile(sweep):
             self.kind = "sweep"
             s = read_json(sweep)
@@ -90,6 +91,7 @@ class Result:
             self.swept, self.unit = views.get("swept_entry"), views.get("swept_unit", "")
             self.summaries = [read_json(os.path.join(self.folder, c, "summary.json"))
                               for c in views.get("cases", [])]
+            self.case_times = views.get("times", [])
             self.collection = self._collection_file(views.get("collection"))
             self.max_power = self._collection_file(views.get("max_power"))
             self.fingers = self._collection_file(views.get("fingers"))
@@ -103,6 +105,9 @@ class Result:
         if not periods:
             raise NotAResult("%s: summary.json has no \"period\" (geometry) entry" % self.folder)
         self.width = max(p["width_um"] for p in periods)
+        # Each case's own width, by its time (the pictures frame each case).
+        self.widths = {t: s["period"]["width_um"] for t, s in zip(self.case_times, self.summaries)
+                       if isinstance(s.get("period"), dict)}
         self.thickness = max(p["absorber_thickness_um"] for p in periods)
         self.threshold = next((p["dead_zone"]["threshold"] for p in self.summaries
                                if isinstance(p.get("dead_zone"), dict)), 0.5)
@@ -178,10 +183,11 @@ def new_view(result, size):
     return view
 
 
-def place_camera(view, result, size):
-    """The widest period, exaggerated, centred with room for the colour
-    bar below and the title above."""
-    width, height = result.width, result.thickness * result.factor
+def place_camera(view, result, size, width=None):
+    """The widest period (or one `width`), exaggerated, centred with room
+    for the colour bar below and the title above."""
+    width = width or result.width
+    height = result.thickness * result.factor
     aspect = float(size[0]) / size[1]
     cx, cy = 0.5 * width, 0.5 * height - 0.35 * height
     view.CameraPosition = [cx, cy, 10.0 * width]
@@ -322,6 +328,9 @@ def write_pictures(result, views, directory, size):
     for name, view in views:
         for i, t in enumerate(times):
             view.ViewTime = t
+            # A picture frames its own case; the window shows all cases in
+            # the frame of the widest, at the same scale.
+            place_camera(view, result, size, result.widths.get(t))
             Render(view)
             path = os.path.join(directory, picture_name(name, result, i, t))
             tmp = path + ".tmp.png"
@@ -369,6 +378,8 @@ def main(argv):
         except OSError as e:
             print("%s: %s" % (SCRIPT_NAME, e), file=sys.stderr)
             return 4
+        for _, view in views:
+            place_camera(view, result, size)
     SetActiveView(views[0][1])
     return 0
 

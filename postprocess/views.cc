@@ -3,6 +3,11 @@
 #include "base/files.h"
 
 #include <vtkCellArray.h>
+#include <vtkDataArray.h>
+#include <vtkPointData.h>
+#include <vtkProbeFilter.h>
+#include <vtkUnstructuredGrid.h>
+#include <vtkXMLUnstructuredGridReader.h>
 #include <vtkCellData.h>
 #include <vtkIntArray.h>
 #include <vtkNew.h>
@@ -10,7 +15,10 @@
 #include <vtkPolyData.h>
 #include <vtkXMLPolyDataWriter.h>
 
+#include <cmath>
 #include <cstdio>
+#include <limits>
+#include <algorithm>
 #include <filesystem>
 #include <stdexcept>
 
@@ -59,5 +67,44 @@ namespace backcomb::postprocess
         throw std::runtime_error("cannot write " + vtp_file);
       }
     std::filesystem::rename(tmp, vtp_file);
+  }
+
+  FilmMapData
+  film_map_from_fields(const std::string &vtu_file, const std::string &name, const double width_um,
+                       const double thickness_um, const unsigned nx, const unsigned ny)
+  {
+    vtkNew<vtkXMLUnstructuredGridReader> reader;
+    reader->SetFileName(vtu_file.c_str());
+    reader->Update();
+    if (reader->GetOutput()->GetNumberOfCells() == 0 || !reader->GetOutput()->GetPointData()->GetArray(name.c_str()))
+      throw std::runtime_error(vtu_file + ": no cells or no field '" + name + "'");
+    FilmMapData d;
+    vtkNew<vtkPoints> points;
+    for (unsigned i = 0; i < nx; ++i)
+      d.x_um.push_back(width_um * i / (nx - 1));
+    for (unsigned j = 0; j < ny; ++j)
+      d.y_um.push_back(thickness_um * j / (ny - 1));
+    // Points on the outer boundary nudged inwards, so that each lies in a cell.
+    const double ex = 1e-6 * width_um, ey = 1e-6 * thickness_um;
+    for (const double x : d.x_um)
+      for (const double y : d.y_um)
+        points->InsertNextPoint(std::clamp(x, ex, width_um - ex), std::clamp(y, ey, thickness_um - ey), 0);
+    vtkNew<vtkPolyData> grid;
+    grid->SetPoints(points);
+    vtkNew<vtkProbeFilter> probe;
+    probe->SetInputData(grid);
+    probe->SetSourceConnection(reader->GetOutputPort());
+    probe->Update();
+    vtkPointData *pd       = probe->GetOutput()->GetPointData();
+    vtkDataArray *values   = pd->GetArray(name.c_str());
+    vtkDataArray *absorber = pd->GetArray("in_absorber");
+    vtkDataArray *valid    = pd->GetArray(probe->GetValidPointMaskArrayName());
+    d.values.resize(std::size_t(nx) * ny);
+    for (vtkIdType k = 0; k < vtkIdType(d.values.size()); ++k)
+      {
+        const bool inside = (!valid || valid->GetTuple1(k) > 0) && (!absorber || absorber->GetTuple1(k) > 0.5);
+        d.values[k]       = inside ? values->GetTuple1(k) : std::numeric_limits<double>::quiet_NaN();
+      }
+    return d;
   }
 } // namespace backcomb::postprocess

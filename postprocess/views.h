@@ -2,6 +2,8 @@
 // built into the program) and the finger bars they draw under the film.
 #pragma once
 
+#include "postprocess/plots.h"
+
 #include <string>
 
 namespace backcomb::postprocess
@@ -19,4 +21,12 @@ namespace backcomb::postprocess
   // (std::runtime_error on failure).
   void write_finger_bars(const std::string &vtp_file, double electron_finger_half_width_um, double gap_um,
                          double hole_finger_half_width_um, double height_um);
+
+  // The field `name` of a field file (as written by
+  // DriftDiffusionSolver::write_fields) sampled on an nx x ny grid over
+  // the film, x from 0 to `width_um`, y from 0 to `thickness_um`; NaN
+  // outside the absorber. Throws std::runtime_error when the file or the
+  // field is missing.
+  FilmMapData film_map_from_fields(const std::string &vtu_file, const std::string &name, double width_um,
+                                   double thickness_um, unsigned nx, unsigned ny);
 } // namespace backcomb::postprocess

@@ -304,6 +304,7 @@ namespace backcomb::simulator
     void solve_light_jv();
     void write_fields();
     void write_view_fields();
+    void write_collection_picture(const std::string &vtu);
     void analyse_collection(double v, const fem::ScanPoint &sc, const std::string &vtu,
                             const dealii::Vector<double> &fc);
     void compute_power_balance(const fem::JVMetrics &m0);
@@ -747,6 +748,29 @@ namespace backcomb::simulator
         }
   }
 
+  // The quick look without ParaView: f_c over the period with the
+  // dead-zone contour, the vertical scale exaggerated (collection.png/.svg).
+  void
+  CaseRun::write_collection_picture(const std::string &vtu)
+  {
+    const double t = c.geometry.absorber_thickness_um;
+    FilmMapData  m = film_map_from_fields(vtu, "collection_probability", width, t, 700, 60);
+    m.lo = 0, m.hi = 1;
+    m.contour      = c.output.dead_zone_threshold;
+    m.exaggeration = film_exaggeration(width, t);
+    if (!strip)
+      m.fingers = {{0.0, 0.5 * c.geometry.electron_finger_width_um},
+                   {width - 0.5 * c.geometry.hole_finger_width_um, width}};
+    m.title = "Collection probability at short circuit; dead zone (f_c < " +
+              format_number(c.output.dead_zone_threshold, 3) + ") inside the white line; fingers grey; vertical scale ×" +
+              format_number(m.exaggeration, 3);
+    m.colour_label = "collection probability f_c (pairs collected per pair generated)";
+    std::vector<std::string> warnings;
+    write_film_map(m, o.folder + "/collection", warnings);
+    for (const auto &w : warnings)
+      std::fprintf(stderr, "backcomb: %s\n", w.c_str());
+  }
+
   // At short circuit: the current collected according to the adjoint map
   // against the terminal current (two independent routes to Jsc), and the
   // dead zone from the written field file.
@@ -767,6 +791,7 @@ namespace backcomb::simulator
         const std::string contour = "fields/dead_zone_contour_V" + format_fixed(v, 4) + ".vtp";
         const DeadZone    d       = analyse_dead_zone(vtu, c.output.dead_zone_threshold, o.folder + "/" + contour);
         dead_zone                 = dead_zone_json(d, contour);
+        write_collection_picture(vtu);
         progress.stage("dead zone at short circuit: " + format_number(100 * d.area_fraction, 3) +
                        " % of the absorber has f_c < " + format_number(d.threshold, 3));
       }
@@ -1062,6 +1087,19 @@ namespace backcomb::simulator
     for (const auto &w : plot_warnings)
       std::fprintf(stderr, "backcomb: %s\n", w.c_str());
     write_file_atomically(o.folder + "/jv.csv", jv_csv(light, dark, width));
+    {
+      JVPlotData jv;
+      for (const auto &p : fem::converged_curve(light))
+        (lit ? jv.light_v : jv.dark_v).push_back(p.voltage), (lit ? jv.light_j : jv.dark_j).push_back(p.current);
+      for (const auto &p : fem::converged_curve(dark))
+        jv.dark_v.push_back(p.voltage), jv.dark_j.push_back(p.current);
+      if (metrics.valid)
+        jv.mpp_v = metrics.Vmp, jv.mpp_j = metrics.Jmp;
+      std::vector<std::string> jv_warnings;
+      write_jv_plots(jv, o.folder + "/jv", jv_warnings);
+      for (const auto &w : jv_warnings)
+        std::fprintf(stderr, "backcomb: %s\n", w.c_str());
+    }
     if (collection.is_object() && collection["file"].is_string())
       write_view_script(o.folder); // the views need the collection probability
     json s                  = summary_of_results();
@@ -1114,6 +1152,47 @@ namespace backcomb::simulator
                 o.folder.c_str(), fields.empty() ? "" : " and fields.pvd");
   }
 
+  namespace
+  {
+    // The cells near the electron finger's edge (where the mesh is finest
+    // laterally), in a window two film thicknesses to either side, at
+    // true scale; a test strip shows its left end.
+    MeshPictureData
+    edge_of_mesh(const Case &c, const dealii::Triangulation<2> &tria)
+    {
+      const bool   strip = c.geometry.layout == geometry::GeometryParameters::Layout::test_strip;
+      const double t     = c.geometry.absorber_thickness_um;
+      const double edge  = strip ? 0.0 : 0.5 * c.geometry.electron_finger_width_um;
+      MeshPictureData d;
+      d.x_lo = std::max(0.0, edge - 2 * t), d.x_hi = edge + 2 * t;
+      d.y_lo = 1e300, d.y_hi = -1e300;
+      for (const auto &cell : tria.active_cell_iterators())
+        for (const unsigned v : cell->vertex_indices())
+          d.y_lo = std::min(d.y_lo, cell->vertex(v)[1]), d.y_hi = std::max(d.y_hi, cell->vertex(v)[1]);
+      for (const auto &cell : tria.active_cell_iterators())
+        {
+          double lo = 1e300, hi = -1e300;
+          for (const unsigned v : cell->vertex_indices())
+            lo = std::min(lo, cell->vertex(v)[0]), hi = std::max(hi, cell->vertex(v)[0]);
+          if (hi < d.x_lo || lo > d.x_hi)
+            continue;
+          // deal.II numbers a quadrilateral's vertices lexicographically.
+          std::array<double, 8> q;
+          const unsigned        order[4] = {0, 1, 3, 2};
+          for (unsigned k = 0; k < 4; ++k)
+            q[2 * k] = cell->vertex(order[k])[0], q[2 * k + 1] = cell->vertex(order[k])[1];
+          d.cells.push_back(q);
+        }
+      if (!strip)
+        d.fingers = {{0.0, edge}};
+      d.title = (strip ? std::string("Mesh at the strip's left end") : "Mesh near the electron finger's edge (x = " +
+                                                                       format_number(edge, 4) + " µm)") +
+                ": " + std::to_string(d.cells.size()) + " of " + std::to_string(tria.n_active_cells()) +
+                " cells, true scale" + (strip ? "" : "; finger grey");
+      return d;
+    }
+  } // namespace
+
   int
   run_mesh(const Case &c, const RunOptions &o)
   {
@@ -1134,7 +1213,12 @@ namespace backcomb::simulator
         throw OutputError(e.what());
       }
     std::printf("%s\n", statistics_text(geometry::mesh_statistics(tria)).c_str());
-    std::printf("wrote %s/mesh.msh and %s/mesh.vtu\n", o.folder.c_str(), o.folder.c_str());
+    std::vector<std::string> warnings;
+    const bool               picture = !write_mesh_picture(edge_of_mesh(c, tria), o.folder + "/mesh", warnings).empty();
+    for (const auto &w : warnings)
+      std::fprintf(stderr, "backcomb: %s\n", w.c_str());
+    std::printf("wrote %s/mesh.msh, %s/mesh.vtu%s\n", o.folder.c_str(), o.folder.c_str(),
+                picture ? (" and " + o.folder + "/mesh.png/.svg").c_str() : "");
     return exit_ok;
   }
 

@@ -132,7 +132,7 @@ namespace backcomb::study
     {
       const bool by_value = plan.entries.size() == 1 && all_numeric(plan.entries[0].values);
       std::vector<postprocess::PvdDataSet> collection, max_power, fingers;
-      json                                 cases = json::array();
+      json                                 cases = json::array(), times = json::array();
       for (std::size_t i = 0; i < rows.size(); ++i)
         {
           if (rows[i].status != Status::converged && rows[i].status != Status::partial)
@@ -157,6 +157,7 @@ namespace backcomb::study
             continue;
           const double time = by_value ? *to_number(rows[i].values[0]) : double(i);
           cases.push_back(dir);
+          times.push_back(time);
           collection.push_back({time, dir + "/" + fc});
           if (const std::string mpp = file_of("max_power_fields"); !mpp.empty())
             max_power.push_back({time, dir + "/" + mpp});
@@ -168,6 +169,7 @@ namespace backcomb::study
       json views = {{"swept_entry", by_value ? plan.entries[0].path : std::string("case index")},
                     {"swept_unit", by_value ? plan.entries[0].unit : std::string("")},
                     {"cases", cases},
+                    {"times", times},
                     {"script", postprocess::view_script_name}};
       const auto write = [&](const char *key, const char *name, const std::vector<postprocess::PvdDataSet> &d) {
         // A collection that misses cases would shift the others in time.

@@ -98,6 +98,11 @@ pv_run 0 "$here/paraview/check_views.py" --sweep sweep --sweep-pictures sweep-pi
 grep -E "^(ok|FAIL)" out.log
 echo "paraview_views: the picture checks took $((SECONDS - start)) s"
 
+# Without --pictures the script only builds the views (as in the ParaView
+# window) and writes nothing.
+pv_run 0 sweep/view_in_paraview.py
+[[ ! -e sweep/pictures.json ]] || fail "the script wrote pictures without --pictures"
+
 # Folders that are not a backcomb result: a clear message, exit 2.
 mkdir empty
 pv_run 2 solve/view_in_paraview.py empty
