@@ -144,12 +144,30 @@ class Result:
         return XMLUnstructuredGridReader(FileName=[path])
 
 
-def flat(display, factor, lift=0.0):
-    """Unlit colours (the picture shows the colour map's own colours), the
-    vertical scale exaggerated, `lift` towards the camera."""
-    display.Ambient, display.Diffuse = 1.0, 0.0
-    display.Scale = [1.0, factor, 1.0]
-    display.Position = [0.0, 0.0, lift]
+class ViewParts:
+    """A view with what depends on the vertical exaggeration: the displays
+    (scaled in y), the axes and the title that states the factor."""
+
+    def __init__(self, view, factor):
+        self.view, self.factor = view, factor
+        self.displays, self.title, self.title_text = [], None, ""
+
+    def flat(self, display, lift=0.0):
+        """Unlit colours (the picture shows the colour map's own colours),
+        the vertical scale exaggerated, `lift` towards the camera."""
+        display.Ambient, display.Diffuse = 1.0, 0.0
+        display.Position = [0.0, 0.0, lift]
+        self.displays.append(display)
+        display.Scale = [1.0, self.factor, 1.0]
+
+    def set_factor(self, factor):
+        self.factor = factor
+        for d in self.displays:
+            d.Scale = [1.0, factor, 1.0]
+        self.view.AxesGrid.DataScale = [1.0, factor, 1.0]
+        self.view.AxesGrid.YTitle = "y (µm), ×%g" % factor
+        if self.title is not None:
+            self.title.Text = self.title_text % factor
 
 
 def film_parts(reader):
@@ -180,14 +198,15 @@ def new_view(result, size):
         for part in ("Title", "Label"):
             setattr(view.AxesGrid, axis + part + "Color", DARK)
     SetActiveView(view)
-    return view
+    return ViewParts(view, result.factor)
 
 
-def place_camera(view, result, size, width=None):
+def place_camera(parts, result, size, width=None):
     """The widest period (or one `width`), exaggerated, centred with room
     for the colour bar below and the title above."""
+    view = parts.view
     width = width or result.width
-    height = result.thickness * result.factor
+    height = result.thickness * parts.factor
     aspect = float(size[0]) / size[1]
     cx, cy = 0.5 * width, 0.5 * height - 0.35 * height
     view.CameraPosition = [cx, cy, 10.0 * width]
@@ -196,19 +215,21 @@ def place_camera(view, result, size, width=None):
     view.CameraParallelScale = max(0.62 * width / aspect, 1.25 * height)
 
 
-def add_fingers(view, result):
+def add_fingers(parts, result):
     if not result.fingers:
         return
     fingers = Result.reader(result.fingers)
-    d = Show(fingers, view)
+    d = Show(fingers, parts.view)
     d.AmbientColor = d.DiffuseColor = GREY
     d.ColorArrayName = [None, ""]
-    flat(d, result.factor)
+    parts.flat(d)
 
 
-def add_title(view, text):
-    t = Text(Text=text)
-    d = Show(t, view)
+def add_title(parts, text):
+    """`text` has one %g: the vertical exaggeration."""
+    t = Text(Text=text % parts.factor)
+    parts.title, parts.title_text = t, text
+    d = Show(t, parts.view)
     d.WindowLocation = "Upper Left Corner"
     d.FontSize = 15
     d.Color = DARK
@@ -240,7 +261,8 @@ def colour_bar(view, lut, title, subtitle, label_format):
 
 
 def collection_view(result, size):
-    view = new_view(result, size)
+    parts = new_view(result, size)
+    view = parts.view
     reader = Result.reader(result.collection)
     absorber, others = film_parts(reader)
     film = Show(absorber, view)
@@ -250,30 +272,31 @@ def collection_view(result, size):
     lut.AutomaticRescaleRangeMode = "Never"
     lut.RescaleTransferFunction(0.0, 1.0)
     film.LookupTable = lut
-    flat(film, result.factor)
+    parts.flat(film)
     layers = Show(others, view)
     layers.ColorArrayName = [None, ""]
     layers.AmbientColor = layers.DiffuseColor = [0.8, 0.8, 0.8]
-    flat(layers, result.factor)
+    parts.flat(layers)
     contour = Contour(Input=absorber, ContourBy=["POINTS", "collection_probability"],
                       Isosurfaces=[result.threshold])
     line = Show(contour, view)
     line.ColorArrayName = [None, ""]
     line.AmbientColor = line.DiffuseColor = WHITE
     line.LineWidth = 3.0
-    flat(line, result.factor, lift=0.01 * result.width)
-    add_fingers(view, result)
+    parts.flat(line, lift=0.01 * result.width)
+    add_fingers(parts, result)
     colour_bar(view, lut, "collection probability f_c at short circuit",
                " (pairs collected per pair generated; 0-1)", "%.1f")
-    add_title(view, "Dead zone: f_c < %g inside the white line; fingers in grey; vertical scale ×%g"
-              % (result.threshold, result.factor))
+    add_title(parts, "Dead zone: f_c < %g inside the white line; fingers in grey; vertical scale ×%%g"
+              % result.threshold)
     add_case_label(view, result, reader)
-    place_camera(view, result, size)
-    return view
+    place_camera(parts, result, size)
+    return parts
 
 
 def splitting_view(result, size):
-    view = new_view(result, size)
+    parts = new_view(result, size)
+    view = parts.view
     reader = Result.reader(result.max_power)
     absorber, others = film_parts(reader)
     film = Show(absorber, view)
@@ -283,11 +306,11 @@ def splitting_view(result, size):
     lut.AutomaticRescaleRangeMode = "Never"
     film.LookupTable = lut
     film.RescaleTransferFunctionToDataRangeOverTime()
-    flat(film, result.factor)
+    parts.flat(film)
     layers = Show(others, view)
     layers.ColorArrayName = [None, ""]
     layers.AmbientColor = layers.DiffuseColor = [0.8, 0.8, 0.8]
-    flat(layers, result.factor)
+    parts.flat(layers)
     # Streamlines of the total current, seeded up through the film above the
     # electron finger's edge (the same x in every case of a sweep): the
     # current that reaches that finger from across the gap.
@@ -302,14 +325,14 @@ def splitting_view(result, size):
     d.ColorArrayName = [None, ""]
     d.AmbientColor = d.DiffuseColor = WHITE
     d.LineWidth = 1.5
-    flat(d, result.factor, lift=0.01 * result.width)
-    add_fingers(view, result)
+    parts.flat(d, lift=0.01 * result.width)
+    add_fingers(parts, result)
     colour_bar(view, lut, "quasi-Fermi-level splitting E_Fn - E_Fp at the maximum power point", " (eV)", "%.3f")
-    add_title(view, "White: current streamlines at the maximum power point; fingers in grey; "
-              "vertical scale ×%g" % result.factor)
+    add_title(parts, "White: current streamlines at the maximum power point; fingers in grey; "
+              "vertical scale ×%g")
     add_case_label(view, result, reader)
-    place_camera(view, result, size)
-    return view
+    place_camera(parts, result, size)
+    return parts
 
 
 def picture_name(view_name, result, index, time):
@@ -322,22 +345,28 @@ def write_pictures(result, views, directory, size):
     os.makedirs(directory, exist_ok=True)
     times = result.times() if result.kind == "sweep" else [0.0]
     listing = {"folder": result.folder, "kind": result.kind, "swept_entry": result.swept,
-               "vertical_exaggeration": result.factor, "width_um": result.width,
+               "window_vertical_exaggeration": result.factor, "widest_width_um": result.width,
                "absorber_thickness_um": result.thickness, "threshold": result.threshold,
                "time_steps": times, "pictures": []}
-    for name, view in views:
+    for name, parts in views:
+        view = parts.view
         for i, t in enumerate(times):
             view.ViewTime = t
-            # A picture frames its own case; the window shows all cases in
-            # the frame of the widest, at the same scale.
-            place_camera(view, result, size, result.widths.get(t))
+            # A picture frames its own case at the exaggeration that suits
+            # its width (stated on it and in pictures.json); the window
+            # shows every case in the frame of the widest, at one scale.
+            width = result.widths.get(t, result.width)
+            factor = nice_factor(width / result.thickness / 4.0)
+            parts.set_factor(factor)
+            place_camera(parts, result, size, width)
             Render(view)
             path = os.path.join(directory, picture_name(name, result, i, t))
             tmp = path + ".tmp.png"
             if not SaveScreenshot(tmp, view, ImageResolution=list(size), TransparentBackground=0):
                 raise OSError("cannot write %s" % path)
             os.replace(tmp, path)
-            listing["pictures"].append({"view": name, "time": t, "file": os.path.basename(path)})
+            listing["pictures"].append({"view": name, "time": t, "file": os.path.basename(path),
+                                        "vertical_exaggeration": factor, "width_um": width})
             print("wrote %s" % path)
     tmp = os.path.join(directory, "pictures.json.tmp")
     with open(tmp, "w", encoding="utf-8") as f:
@@ -378,9 +407,10 @@ def main(argv):
         except OSError as e:
             print("%s: %s" % (SCRIPT_NAME, e), file=sys.stderr)
             return 4
-        for _, view in views:
-            place_camera(view, result, size)
-    SetActiveView(views[0][1])
+        for _, parts in views:
+            parts.set_factor(result.factor)
+            place_camera(parts, result, size)
+    SetActiveView(views[0][1].view)
     return 0
 
 

@@ -90,7 +90,7 @@ def probe(vtu, points):
     return vtk_to_numpy(p.GetOutput().GetPointData().GetArray("collection_probability"))
 
 
-def check_collection(path, summary, vtu, listing, size, label):
+def check_collection(path, summary, vtu, listing, picture, size, label):
     pixels = read_png(path)
     check(pixels.shape[1] == size[0] and pixels.shape[0] == size[1],
           "%s: %dx%d pixels" % (label, pixels.shape[1], pixels.shape[0]))
@@ -101,7 +101,7 @@ def check_collection(path, summary, vtu, listing, size, label):
     box_h, box_w = bottom - top + 1, right - left + 1
     period = summary["period"]
     width, thickness = period["width_um"], period["absorber_thickness_um"]
-    factor = listing["vertical_exaggeration"]
+    factor = picture["vertical_exaggeration"]
     want = width / (thickness * factor)
     check(abs(box_w / box_h / want - 1) < 0.06,
           "%s: film %dx%d pixels, aspect %.3f, period %.3g um x %.3g um at x%g: %.3f"
@@ -182,7 +182,7 @@ def main():
         summary = json.load(open(os.path.join(case, "summary.json")))
         if p["view"] == "collection":
             vtu = os.path.join(case, summary["collection_map"]["file"])
-            crossing.append(check_collection(path, summary, vtu, listing, size, p["file"]))
+            crossing.append(check_collection(path, summary, vtu, listing, p, size, p["file"]))
         else:
             check_splitting(path, size, p["file"])
     check(any(crossing) and not all(crossing),
@@ -191,7 +191,8 @@ def main():
     listing = json.load(open(os.path.join(a.solve_pictures, "pictures.json")))
     summary = json.load(open(os.path.join(a.solve, "summary.json")))
     vtu = os.path.join(a.solve, summary["collection_map"]["file"])
-    check_collection(os.path.join(a.solve_pictures, "collection.png"), summary, vtu, listing, size, "solve")
+    check_collection(os.path.join(a.solve_pictures, "collection.png"), summary, vtu, listing,
+                     listing["pictures"][0], size, "solve")
     check_splitting(os.path.join(a.solve_pictures, "splitting.png"), size, "solve splitting")
 
     if failures:
