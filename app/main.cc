@@ -8,7 +8,12 @@
 #include "study/study.h"
 
 #include <deal.II/base/exceptions.h>
+#include <deal.II/base/config.h>
 #include <deal.II/base/mpi.h>
+
+#include <gmsh.h>
+#include <petscversion.h>
+#include <vtkVersion.h>
 
 #include <cstdio>
 #include <cstring>
@@ -29,8 +34,8 @@ namespace
     "commands:\n"
     "  template                 print every case-file entry with its default,\n"
     "                           unit and allowed range\n"
-    "  mesh CASE.prm [options]  mesh the period: mesh.msh, mesh.vtu and statistics\n"
-    "  solve CASE.prm [options] solve the case: jv.csv, summary.json, fields\n"
+    "  mesh CASE.prm [options]  mesh the period: mesh.msh, mesh.vtu, mesh.png and statistics\n"
+    "  solve CASE.prm [options] solve the case: jv.csv, summary.json, fields, pictures\n"
     "  sweep CASE.prm --vary \"Section/Name=VALUES\" [--vary ...] [options]\n"
     "                           solve every case of the grid, then write\n"
     "                           sweep.csv, sweep.json, sweep.svg/.png\n"
@@ -44,6 +49,7 @@ namespace
     "  --set \"Section/Name=value\"  override one case-file entry (repeatable)\n"
     "  --out FOLDER                 results folder (default: Output/Folder)\n"
     "  --quiet                      no progress lines\n"
+    "  --log FILE                   also write the progress lines to FILE\n"
     "sweep options:\n"
     "  --vary \"Section/Name=VALUES\" swept entry; VALUES is a comma list of values,\n"
     "                               start:stop:step and start:stop:xN (N values,\n"
@@ -51,15 +57,93 @@ namespace
     "  --task I --of N              run only share I (1..N) of the cases, no merge\n"
     "  --retry-failed               recompute cases that failed before\n"
     "\n"
+    "  backcomb --help, backcomb COMMAND --help   this text, or one command's\n"
+    "  backcomb --version                         versions of backcomb and its libraries\n"
+    "\n"
     "exit codes: 0 success, 1 usage, 2 invalid input, 3 no convergence,\n"
     "            4 output could not be written, 5 internal error,\n"
     "            6 finished, but a result breaks a physical bound\n";
 
+  // One command's help (`backcomb COMMAND --help`): its synopsis, what it
+  // writes and the options it takes.
+  struct CommandHelp
+  {
+    const char *name, *text;
+  };
+  const CommandHelp command_help[] = {
+    {"template",
+     "usage: backcomb template [--paths]\n"
+     "\n"
+     "Prints a case file with every entry at its default, each documented with\n"
+     "its unit and allowed range. Save it and edit what you need.\n"
+     "\n"
+     "  --paths   print only the entry paths (Section/Name), one per line\n"},
+    {"mesh",
+     "usage: backcomb mesh CASE.prm [--set \"Section/Name=value\"]... [--out FOLDER] [--quiet]\n"
+     "\n"
+     "Meshes one electrode period and writes FOLDER/mesh.msh, FOLDER/mesh.vtu and\n"
+     "FOLDER/mesh.png (the mesh near the electron finger's edge), then prints the\n"
+     "cell statistics.\n"
+     "\n"
+     "  --set \"Section/Name=value\"  override one case-file entry (repeatable)\n"
+     "  --out FOLDER                 results folder (default: Output/Folder)\n"
+     "  --quiet                      accepted for symmetry with solve\n"},
+    {"solve",
+     "usage: backcomb solve CASE.prm [--set \"Section/Name=value\"]... [--out FOLDER]\n"
+     "                     [--quiet] [--log FILE]\n"
+     "\n"
+     "Solves one case: equilibrium, light ramp, J-V scan, fields with the\n"
+     "collection probability, dead zone, losses. Writes FOLDER/jv.csv,\n"
+     "FOLDER/summary.json (last), FOLDER/fields/, FOLDER/jv.png/.svg, FOLDER/collection.png\n"
+     "and FOLDER/view_in_paraview.py (open the views: paraview --script=FOLDER/view_in_paraview.py).\n"
+     "\n"
+     "  --set \"Section/Name=value\"  override one case-file entry (repeatable)\n"
+     "  --out FOLDER                 results folder (default: Output/Folder)\n"
+     "  --quiet                      no progress lines (the final report stays)\n"
+     "  --log FILE                   also write the progress lines, with times, to FILE\n"},
+    {"sweep",
+     "usage: backcomb sweep CASE.prm --vary \"Section/Name=VALUES\" [--vary ...]\n"
+     "                     [--set \"Section/Name=value\"]... [--out FOLDER] [--quiet]\n"
+     "                     [--task I --of N] [--retry-failed]\n"
+     "\n"
+     "Solves every case of the grid (one folder per case under FOLDER/cases), then\n"
+     "writes FOLDER/sweep.csv, FOLDER/sweep.json, FOLDER/sweep.svg/.png, the ParaView\n"
+     "collections and FOLDER/view_in_paraview.py (one time step per swept value).\n"
+     "\n"
+     "  --vary \"Section/Name=VALUES\" swept entry; VALUES is a comma list of values,\n"
+     "                               start:stop:step and start:stop:xN (N values,\n"
+     "                               constant ratio); a second --vary makes a grid\n"
+     "  --set \"Section/Name=value\"  override one case-file entry (repeatable)\n"
+     "  --out FOLDER                 results folder (default: Output/Folder)\n"
+     "  --quiet                      no progress lines\n"
+     "  --task I --of N              run only share I (1..N) of the cases, no merge\n"
+     "  --retry-failed               recompute cases that failed before\n"},
+    {"upgrade",
+     "usage: backcomb upgrade CASE.prm\n"
+     "\n"
+     "Prints the case file with the current section and entry names (for a file\n"
+     "written for an older backcomb); comments and layout are kept.\n"},
+    {"merge",
+     "usage: backcomb merge FOLDER [--quiet]\n"
+     "\n"
+     "Writes the table, plot, recommendation and ParaView files of a sweep folder\n"
+     "from its finished cases (after --task runs).\n"},
+  };
+
+  const char *
+  help_of(const std::string &command)
+  {
+    for (const auto &h : command_help)
+      if (command == h.name)
+        return h.text;
+    return nullptr;
+  }
+
   struct Arguments
   {
-    std::string              command, case_file, out;
+    std::string              command, case_file, out, log;
     std::vector<std::string> overrides, vary;
-    bool                     quiet = false, retry_failed = false;
+    bool                     quiet = false, retry_failed = false, paths = false;
     unsigned                 task = 0, tasks = 0;
   };
 
@@ -75,8 +159,6 @@ namespace
   bool
   parse_arguments(int argc, char **argv, Arguments &a)
   {
-    if (argc < 2)
-      return false;
     a.command = argv[1];
     for (int i = 2; i < argc; ++i)
       {
@@ -85,8 +167,12 @@ namespace
           a.overrides.push_back(argv[++i]);
         else if (s == "--out" && i + 1 < argc && argv[i + 1][0] != '\0')
           a.out = argv[++i];
+        else if (s == "--log" && i + 1 < argc && argv[i + 1][0] != '\0')
+          a.log = argv[++i];
         else if (s == "--quiet")
           a.quiet = true;
+        else if (s == "--paths" && a.command == "template")
+          a.paths = true;
         else if (s == "--vary" && i + 1 < argc)
           a.vary.push_back(argv[++i]);
         else if (s == "--retry-failed")
@@ -120,7 +206,23 @@ namespace
         std::fprintf(stderr, "backcomb: --vary, --task, --of and --retry-failed belong to 'sweep'\n");
         return false;
       }
+    if (!a.log.empty() && a.command != "solve")
+      {
+        std::fprintf(stderr, "backcomb: --log belongs to 'solve' (a sweep writes cases/<case>/solve.log)\n");
+        return false;
+      }
     return true;
+  }
+
+  // `backcomb --version`: this program and the libraries it was built with.
+  void
+  print_version()
+  {
+    std::printf("backcomb %s\n", BACKCOMB_VERSION);
+    std::printf("deal.II %s\n", DEAL_II_PACKAGE_VERSION);
+    std::printf("PETSc %d.%d.%d\n", PETSC_VERSION_MAJOR, PETSC_VERSION_MINOR, PETSC_VERSION_SUBMINOR);
+    std::printf("Gmsh %s\n", GMSH_API_VERSION);
+    std::printf("VTK %s\n", vtkVersion::GetVTKVersion());
   }
 
   int
@@ -135,6 +237,45 @@ namespace
 int
 main(int argc, char **argv)
 {
+  // The habits every command-line program keeps: help and version on
+  // stdout with exit 0; a bare call or an unknown command is a usage error.
+  // All answered before MPI starts (which takes a second), as are the
+  // entry paths that the shell completion asks for.
+  if (argc < 2)
+    {
+      std::fprintf(stderr, "backcomb: no command given\n\n%s", usage);
+      return exit_usage;
+    }
+  const std::string first = argv[1];
+  if (first == "--help" || first == "-h" || first == "help")
+    {
+      const char *h = argc > 2 ? help_of(argv[2]) : nullptr;
+      std::fputs(h ? h : usage, stdout);
+      return exit_ok;
+    }
+  if (first == "--version")
+    {
+      print_version();
+      return exit_ok;
+    }
+  if (!help_of(first))
+    {
+      std::fprintf(stderr, "backcomb: unknown command '%s'\n\n%s", first.c_str(), usage);
+      return exit_usage;
+    }
+  for (int i = 2; i < argc; ++i)
+    if (std::strcmp(argv[i], "--help") == 0 || std::strcmp(argv[i], "-h") == 0)
+      {
+        std::fputs(help_of(first), stdout);
+        return exit_ok;
+      }
+  if (first == "template" && argc == 3 && std::strcmp(argv[2], "--paths") == 0)
+    {
+      for (const auto &p : simulator::entry_paths())
+        std::cout << p << '\n';
+      return exit_ok;
+    }
+
   // deal.II and PETSc want MPI; one process is the normal case.
   dealii::Utilities::MPI::MPI_InitFinalize mpi(argc, argv, 1);
   dealii::deal_II_exceptions::disable_abort_on_exception();
@@ -142,14 +283,18 @@ main(int argc, char **argv)
   Arguments args;
   if (!parse_arguments(argc, argv, args))
     {
-      std::fputs(usage, stderr);
+      std::fprintf(stderr, "\n%s", help_of(first));
       return exit_usage;
     }
   try
     {
       if (args.command == "template")
         {
-          std::cout << simulator::default_case_text();
+          if (args.paths)
+            for (const auto &p : simulator::entry_paths())
+              std::cout << p << '\n';
+          else
+            std::cout << simulator::default_case_text();
           return exit_ok;
         }
       if (args.command == "upgrade")
@@ -190,11 +335,6 @@ main(int argc, char **argv)
             }
           return rank() == 0 ? study::merge_study(args.case_file, args.quiet) : exit_ok;
         }
-      if (args.command != "mesh" && args.command != "solve" && args.command != "sweep")
-        {
-          std::fprintf(stderr, "backcomb: unknown command '%s'\n\n%s", args.command.c_str(), usage);
-          return exit_usage;
-        }
       if (args.case_file.empty())
         {
           std::fprintf(stderr, "backcomb: %s needs a case file\n\n%s", args.command.c_str(), usage);
@@ -221,6 +361,7 @@ main(int argc, char **argv)
       simulator::RunOptions options;
       options.folder = out;
       options.quiet  = args.quiet;
+      options.log    = args.log;
       if (args.command == "mesh")
         return simulator::run_mesh(c, options);
       return simulator::run_solve(c, options);

@@ -38,11 +38,21 @@ namespace backcomb::fem
       std::vector<std::string>
       get_names() const override
       {
-        std::vector<std::string> names = {"potential_V",    "quasi_fermi_n_eV", "quasi_fermi_p_eV",
-                                          "n_per_cm3",      "p_per_cm3",        "J_n_mA_per_cm2",
-                                          "J_n_mA_per_cm2", "J_p_mA_per_cm2",   "J_p_mA_per_cm2",
-                                          "J_mA_per_cm2",   "J_mA_per_cm2",     "field_V_per_cm",
-                                          "G_per_cm3_s",    "R_per_cm3_s"};
+        std::vector<std::string> names = {"electrostatic_potential_V",
+                                          "electron_quasi_fermi_level_eV",
+                                          "hole_quasi_fermi_level_eV",
+                                          "electron_density_per_cm3",
+                                          "hole_density_per_cm3",
+                                          "electron_current_density_mA_per_cm2",
+                                          "electron_current_density_mA_per_cm2",
+                                          "hole_current_density_mA_per_cm2",
+                                          "hole_current_density_mA_per_cm2",
+                                          "current_density_mA_per_cm2",
+                                          "current_density_mA_per_cm2",
+                                          "electric_field_strength_V_per_cm",
+                                          "generation_rate_per_cm3_s",
+                                          "recombination_rate_per_cm3_s",
+                                          "quasi_fermi_level_splitting_eV"};
         names.insert(names.end(), channel_fields.begin(), channel_fields.end());
         return names;
       }
@@ -53,7 +63,7 @@ namespace backcomb::fem
         using I = DataComponentInterpretation::DataComponentInterpretation;
         const I        s = DataComponentInterpretation::component_is_scalar;
         const I        v = DataComponentInterpretation::component_is_part_of_vector;
-        std::vector<I> out = {s, s, s, s, s, v, v, v, v, v, v, s, s, s};
+        std::vector<I> out = {s, s, s, s, s, v, v, v, v, v, v, s, s, s, s};
         out.insert(out.end(), channel_fields.size(), s);
         return out;
       }
@@ -102,8 +112,9 @@ namespace backcomb::fem
             const auto &x = in.evaluation_points[q];
             o(12) = (r.absorber && device.generation) ? light * device.generation(x[0], x[1]) : 0.0;
             o(13) = k.R * s.R0;
+            o(14) = o(1) - o(2); // E_Fn - E_Fp
             for (unsigned c = 0; c < channel.size(); ++c)
-              o(14 + c) = channel[c] * s.R0;
+              o(15 + c) = channel[c] * s.R0;
           }
       }
 
@@ -112,6 +123,59 @@ namespace backcomb::fem
       double                   light;
       std::vector<std::string> channel_names;  // registry names
       std::vector<std::string> channel_fields; // their VTK field names
+    };
+
+    // The adjoint collection probability (a nodal vector of the system:
+    // f_c in component 0, its electron- and hole-equation parts in 1 and
+    // 2) and the dead-zone mask, 1 in the absorber where f_c is below the
+    // threshold and 0 elsewhere (interlayers have no generation and so no
+    // dead zone).
+    class CollectionFields : public DataPostprocessor<2>
+    {
+    public:
+      CollectionFields(const DeviceModel &d, double threshold)
+        : device(d)
+        , threshold(threshold)
+      {}
+
+      std::vector<std::string>
+      get_names() const override
+      {
+        return {"collection_probability", "collection_probability_electron_equation_part",
+                "collection_probability_hole_equation_part", "dead_zone_mask"};
+      }
+
+      std::vector<DataComponentInterpretation::DataComponentInterpretation>
+      get_data_component_interpretation() const override
+      {
+        return std::vector<DataComponentInterpretation::DataComponentInterpretation>(
+          4, DataComponentInterpretation::component_is_scalar);
+      }
+
+      UpdateFlags
+      get_needed_update_flags() const override
+      {
+        return update_values;
+      }
+
+      void
+      evaluate_vector_field(const DataPostprocessorInputs::Vector<2> &in,
+                            std::vector<Vector<double>> &out) const override
+      {
+        const bool absorber = device.region(in.template get_cell<2>()->material_id()).absorber;
+        for (unsigned q = 0; q < in.solution_values.size(); ++q)
+          {
+            const auto &fc = in.solution_values[q];
+            out[q](0)      = fc[0];
+            out[q](1)      = fc[1];
+            out[q](2)      = fc[2];
+            out[q](3)      = (absorber && fc[0] < threshold) ? 1.0 : 0.0;
+          }
+      }
+
+    private:
+      const DeviceModel &device;
+      double             threshold;
     };
   } // namespace
 
@@ -130,29 +194,10 @@ namespace backcomb::fem
         absorber[cell->active_cell_index()] = device.region(cell->material_id()).absorber ? 1 : 0;
       }
     out.add_data_vector(region, "region_id");
-    out.add_data_vector(absorber, "absorber");
-    Vector<double> mask;
+    out.add_data_vector(absorber, "in_absorber");
+    CollectionFields collection(device, threshold);
     if (fc)
-      {
-        out.add_data_vector(*fc, std::vector<std::string>{"collection_probability",
-                                                          "collection_probability_electron_part",
-                                                          "collection_probability_hole_part"});
-        // Dead-zone mask: 1 where f_c is below the threshold (all three
-        // components carry the same nodal flag).
-        mask.reinit(fc->size());
-        std::vector<types::global_dof_index> idx(fe.n_dofs_per_cell());
-        for (const auto &cell : dofs.active_cell_iterators())
-          {
-            cell->get_dof_indices(idx);
-            for (unsigned v = 0; v < 4; ++v)
-              {
-                const double m = (*fc)[idx[fe.component_to_system_index(0, v)]] < threshold ? 1.0 : 0.0;
-                for (unsigned c = 0; c < 3; ++c)
-                  mask[idx[fe.component_to_system_index(c, v)]] = m;
-              }
-          }
-        out.add_data_vector(mask, std::vector<std::string>{"dead_zone_mask", "unused_mask_1", "unused_mask_2"});
-      }
+      out.add_data_vector(*fc, collection);
     out.build_patches();
     // Atomic: all processes write one temporary file next to the target
     // (MPI I/O), then the first renames it.

@@ -145,10 +145,12 @@ namespace backcomb::fem
 
   StepReport
   start_state(DriftDiffusionSolver &solver, const double light, const unsigned max_halvings,
-              const std::string &label, const Resume &resume)
+              const std::string &label, const Resume &resume, const ProgressLine &stage)
   {
     if (const StoredPoint *q = resume.find(label + "-start", 0.0))
       {
+        if (stage)
+          stage("equilibrium" + std::string(light > 0 ? " and light ramp" : "") + ": taken from the checkpoint");
         solver.set_state(q->state, 0.0, light);
         StepReport r;
         r.converged         = true;
@@ -156,7 +158,7 @@ namespace backcomb::fem
         r.halvings          = q->halvings;
         return r;
       }
-    const StepReport r = illuminate(solver, light, max_halvings);
+    const StepReport r = illuminate(solver, light, max_halvings, stage);
     if (r.converged)
       {
         ScanPoint p;

@@ -74,7 +74,7 @@ namespace backcomb::fem
   // The state a scan starts from at 0 V: equilibrium and the light ramp
   // (illuminate), or that state from the store.
   StepReport start_state(DriftDiffusionSolver &solver, double light, unsigned max_halvings,
-                         const std::string &label, const Resume &resume);
+                         const std::string &label, const Resume &resume, const ProgressLine &stage = {});
 
   // Scans `biases` (sorted, may hold 0) from the solver's current state:
   // 0 -> last, then (restarting from the same state) 0 -> first, or the

@@ -80,7 +80,8 @@ namespace backcomb::fem
   }
 
   StepReport
-  illuminate(DriftDiffusionSolver &solver, const double light, const unsigned max_halvings)
+  illuminate(DriftDiffusionSolver &solver, const double light, const unsigned max_halvings,
+             const std::function<void(const std::string &)> &stage)
   {
     StepReport         rep;
     const NewtonReport eq = solver.solve_equilibrium();
@@ -90,6 +91,8 @@ namespace backcomb::fem
         rep.diagnostic = "equilibrium: " + describe_failure(eq, 0, 0);
         return rep;
       }
+    if (stage)
+      stage("equilibrium: converged in " + std::to_string(eq.iterations) + " Newton steps");
     // Past the first two decades each one starts from the state
     // extrapolated linearly in log(light) through the two before it (the
     // quasi-Fermi levels of the photogenerated carriers move by about
@@ -119,6 +122,9 @@ namespace backcomb::fem
           older = old;
           old   = solver.state();
         }
+    if (stage && light > 0)
+      stage("light ramp: generation raised from 1e-8 to 1 times the full light in 9 decades, " +
+            std::to_string(rep.newton_iterations - eq.iterations) + " Newton steps");
     rep.converged = true;
     return rep;
   }

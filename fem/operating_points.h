@@ -4,6 +4,7 @@
 
 #include "fem/drift_diffusion.h"
 
+#include <functional>
 #include <string>
 #include <vector>
 
@@ -34,8 +35,10 @@ namespace backcomb::fem
                      unsigned max_halvings);
 
   // Equilibrium, then the generation switched on in decades (1e-8, 1e-7,
-  // ..., 1) times `light`, at zero bias.
-  StepReport illuminate(DriftDiffusionSolver &solver, double light, unsigned max_halvings);
+  // ..., 1) times `light`, at zero bias. `stage`, if set, hears one line
+  // when equilibrium and one when the light ramp is done.
+  StepReport illuminate(DriftDiffusionSolver &solver, double light, unsigned max_halvings,
+                        const std::function<void(const std::string &)> &stage = {});
 
   // The voltage where the terminal current vanishes at light factor
   // `light`, found by the secant method from the solver's current state

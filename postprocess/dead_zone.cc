@@ -23,7 +23,7 @@ namespace backcomb::postprocess
   namespace
   {
     constexpr const char *fc_name = "collection_probability";
-    constexpr const char *g_name  = "G_per_cm3_s";
+    constexpr const char *g_name  = "generation_rate_per_cm3_s";
 
     // Area and integral of G over a data set (vtkIntegrateAttributes puts
     // the area in the cell array "Area" and the integrals of point arrays
@@ -60,7 +60,7 @@ namespace backcomb::postprocess
     vtkNew<vtkThreshold> absorber;
     absorber->SetInputConnection(reader->GetOutputPort());
     // deal.II writes cell data as point values of each cell's own patch.
-    absorber->SetInputArrayToProcess(0, 0, 0, vtkDataObject::FIELD_ASSOCIATION_POINTS, "absorber");
+    absorber->SetInputArrayToProcess(0, 0, 0, vtkDataObject::FIELD_ASSOCIATION_POINTS, "in_absorber");
     absorber->SetLowerThreshold(0.5);
     absorber->SetUpperThreshold(1.5);
     absorber->SetThresholdFunction(vtkThreshold::THRESHOLD_BETWEEN);

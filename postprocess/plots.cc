@@ -214,7 +214,8 @@ namespace backcomb::postprocess
     // One file: a fresh PLplot stream, drawn and closed, then renamed.
     bool
     plot_file(const std::function<void(plstream &)> &draw_page, const std::string &device,
-              const std::string &path, std::vector<std::string> &warnings)
+              const std::string &path, std::vector<std::string> &warnings, const int page_width = 1100,
+              const int page_height = 800)
     {
       if (!device_available(device))
         {
@@ -234,7 +235,7 @@ namespace backcomb::postprocess
         auto pls = std::make_unique<plstream>();
         pls->sdev(device.c_str());
         pls->sfnam(tmp.c_str());
-        pls->spage(0, 0, 1100, 800, 0, 0);
+        pls->spage(0, 0, page_width, page_height, 0, 0);
         pls->scmap0n(first_line_colour + n_palette);
         pls->scol0(0, 255, 255, 255);
         pls->scol0(1, 0, 0, 0);
@@ -356,5 +357,294 @@ namespace backcomb::postprocess
       if (plot_file(draw_page, device, stem + suffix, warnings))
         written.push_back(stem + suffix);
     return written;
+  }
+
+  namespace
+  {
+    // Both files of a picture (SVG, PNG) from one drawing function.
+    std::vector<std::string>
+    both_files(const std::function<void(plstream &)> &draw_page, const std::string &stem,
+               std::vector<std::string> &warnings, int page_width = 1100, int page_height = 800)
+    {
+      std::vector<std::string> written;
+      for (const auto &[device, suffix] : {std::pair<std::string, std::string>{"svgcairo", ".svg"},
+                                           {"pngcairo", ".png"}})
+        if (plot_file(draw_page, device, stem + suffix, warnings, page_width, page_height))
+          written.push_back(stem + suffix);
+      return written;
+    }
+
+    // Colour map 1: viridis, the perceptually uniform and colour-blind-safe
+    // map of S. van der Walt and N. Smith (matplotlib 2.0 default, 2015;
+    // CC0), at 17 evenly spaced control points.
+    void
+    viridis(plstream &pls)
+    {
+      constexpr int v[17][3] = {{68, 1, 84},    {72, 24, 106},  {71, 45, 123},  {66, 64, 134},  {59, 82, 139},
+                                {51, 99, 141},  {44, 114, 142}, {38, 130, 142}, {33, 145, 140}, {31, 160, 136},
+                                {40, 174, 128}, {63, 188, 115}, {94, 201, 98},  {132, 212, 75}, {173, 220, 48},
+                                {216, 226, 25}, {253, 231, 37}};
+      PLFLT pos[17], r[17], g[17], b[17];
+      for (int k = 0; k < 17; ++k)
+        pos[k] = k / 16.0, r[k] = v[k][0] / 255.0, g[k] = v[k][1] / 255.0, b[k] = v[k][2] / 255.0;
+      pls.scmap1n(256);
+      pls.scmap1l(true, 17, pos, r, g, b, nullptr);
+    }
+
+    // Colour map 0 slots of the pictures (set in plot_file: 0 white, 1 black).
+    constexpr int colour_finger = first_line_colour + 7; // the palette's grey
+  } // namespace
+
+  double
+  film_exaggeration(const double width_um, const double thickness_um)
+  {
+    const double ratio = width_um / thickness_um / 4.0;
+    if (!(ratio > 1))
+      return 1;
+    const double decade = std::pow(10.0, std::floor(std::log10(ratio)));
+    for (const double m : {5.0, 2.0, 1.0})
+      if (m * decade <= ratio * (1 + 1e-12))
+        return m * decade;
+    return decade;
+  }
+
+  std::vector<std::string>
+  write_jv_plots(const JVPlotData &d, const std::string &stem, std::vector<std::string> &warnings)
+  {
+    std::vector<double> all_v = d.light_v, all_j = d.light_j;
+    all_v.insert(all_v.end(), d.dark_v.begin(), d.dark_v.end());
+    all_j.insert(all_j.end(), d.dark_j.begin(), d.dark_j.end());
+    if (all_v.size() < 2)
+      {
+        warnings.push_back("no J-V plot: fewer than two converged points");
+        return {};
+      }
+    const auto [v_lo, v_hi] = padded_range(all_v, 0.03);
+    // The generator convention (current > 0 under light at short circuit);
+    // the dark curve's large forward currents would squash the light one,
+    // so the y range follows the light curve when there is one.
+    std::vector<double> range_j = d.light_j.empty() ? all_j : d.light_j;
+    range_j.push_back(0.0);
+    auto [j_lo, j_hi] = padded_range(range_j, 0.08);
+    auto draw_page = [&](plstream &pls) {
+      pls.adv(0);
+      pls.schr(0, 0.85);
+      pls.vpor(0.12, 0.72, 0.12, 0.9);
+      pls.wind(v_lo, v_hi, j_lo, j_hi);
+      pls.col0(colour_grid);
+      pls.width(0.5);
+      pls.box("g", 0, 0, "g", 0, 0);
+      const double zero_x[] = {v_lo, v_hi}, zero_y[] = {0, 0};
+      pls.col0(1);
+      pls.line(2, zero_x, zero_y);
+      pls.width(1);
+      pls.box("bcnst", 0, 0, "bcnstv", 0, 0);
+      pls.mtex("b", 3.0, 0.5, 0.5, "bias V (V)");
+      pls.mtex("l", 5.0, 0.5, 0.5, "current density J (mA/cm#u2#d), generated current > 0");
+      pls.mtex("t", 1.5, 0.5, 0.5, "J-V of the period under light and in the dark");
+      auto curve = [&](const std::vector<double> &v, const std::vector<double> &j, int colour) {
+        // Points outside the y range are clipped by the viewport.
+        pls.col0(colour);
+        pls.width(2);
+        if (v.size() > 1)
+          pls.line(int(v.size()), v.data(), j.data());
+        pls.string(int(v.size()), v.data(), j.data(), point_glyph);
+      };
+      curve(d.light_v, d.light_j, first_line_colour);
+      curve(d.dark_v, d.dark_j, first_line_colour + 1);
+      if (d.mpp_v && d.mpp_j)
+        {
+          pls.col0(colour_best);
+          pls.schr(0, 1.7);
+          pls.string(1, &*d.mpp_v, &*d.mpp_j, best_glyph);
+          pls.schr(0, 0.85);
+        }
+      // Legend in the right margin.
+      pls.vpor(0.74, 0.99, 0.12, 0.9);
+      pls.wind(0, 1, 0, 1);
+      int row = 0;
+      auto entry = [&](int colour, const std::string &text) {
+        pls.col0(colour);
+        pls.ptex(0.02, 0.95 - 0.06 * row++, 1, 0, 0, text.c_str());
+      };
+      if (!d.light_v.empty())
+        entry(first_line_colour, "● light");
+      if (!d.dark_v.empty())
+        entry(first_line_colour + 1, "● dark");
+      if (d.mpp_v && d.mpp_j)
+        {
+          char text[96];
+          std::snprintf(text, sizeof text, "    %.3f V, %.3g mA/cm#u2#d", *d.mpp_v, *d.mpp_j);
+          entry(colour_best, "★ maximum power point");
+          entry(colour_best, text);
+        }
+      pls.col0(1);
+    };
+    return both_files(draw_page, stem, warnings);
+  }
+
+  std::vector<std::string>
+  write_spectral_plots(const SpectralPlotData &d, const std::string &stem, std::vector<std::string> &warnings)
+  {
+    if (d.wavelength_nm.size() < 2 || d.curves.empty())
+      {
+        warnings.push_back("no spectral plot " + stem + ": fewer than two wavelengths");
+        return {};
+      }
+    const auto [w_lo, w_hi] = padded_range(d.wavelength_nm, 0.02);
+    auto draw_page          = [&](plstream &pls) {
+      pls.adv(0);
+      pls.schr(0, 0.85);
+      pls.vpor(0.1, 0.72, 0.12, 0.9);
+      pls.wind(w_lo, w_hi, 0, 1.05);
+      pls.col0(colour_grid);
+      pls.width(0.5);
+      pls.box("g", 0, 0, "g", 0, 0);
+      pls.col0(1);
+      pls.width(1);
+      pls.box("bcnst", 0, 0, "bcnstv", 0, 0);
+      pls.mtex("b", 3.0, 0.5, 0.5, "wavelength (nm)");
+      pls.mtex("l", 4.0, 0.5, 0.5, "fraction of the incident photons");
+      pls.mtex("t", 1.5, 0.5, 0.5, d.title.c_str());
+      for (std::size_t c = 0; c < d.curves.size(); ++c)
+        {
+          const auto &y = d.curves[c].second;
+          if (y.size() != d.wavelength_nm.size())
+            continue;
+          pls.col0(first_line_colour + int(c));
+          pls.width(2);
+          pls.line(int(y.size()), d.wavelength_nm.data(), y.data());
+        }
+      // Legend in the right margin.
+      pls.vpor(0.74, 0.99, 0.12, 0.9);
+      pls.wind(0, 1, 0, 1);
+      for (std::size_t c = 0; c < d.curves.size(); ++c)
+        {
+          pls.col0(first_line_colour + int(c));
+          pls.ptex(0.02, 0.95 - 0.06 * double(c), 1, 0, 0, ("— " + d.curves[c].first).c_str());
+        }
+      pls.col0(1);
+    };
+    return both_files(draw_page, stem, warnings);
+  }
+
+  std::vector<std::string>
+  write_film_map(const FilmMapData &d, const std::string &stem, std::vector<std::string> &warnings)
+  {
+    const std::size_t nx = d.x_um.size(), ny = d.y_um.size();
+    if (nx < 2 || ny < 2 || d.values.size() != nx * ny)
+      {
+        warnings.push_back("no picture " + stem + ": no grid of values");
+        return {};
+      }
+    const double x0 = d.x_um.front(), x1 = d.x_um.back(), y0 = d.y_um.front(), y1 = d.y_um.back();
+    const double bar = 0.12 * (y1 - y0); // finger bars under the film
+    // Values outside the colour range are not drawn by plimage: NaN
+    // (outside the absorber) goes below it.
+    std::vector<PLFLT> image(d.values);
+    for (auto &v : image)
+      v = std::isfinite(v) ? std::clamp(v, d.lo, d.hi) : d.lo - 1;
+    std::vector<const PLFLT *> image_rows(nx), value_rows(nx);
+    std::vector<PLFLT>         contour_values(d.values);
+    for (auto &v : contour_values)
+      if (!std::isfinite(v))
+        v = d.hi;
+    for (std::size_t i = 0; i < nx; ++i)
+      image_rows[i] = &image[i * ny], value_rows[i] = &contour_values[i * ny];
+    const int page_w = 1400, page_h = 600;
+    auto draw_page = [&](plstream &pls) {
+      pls.adv(0);
+      pls.schr(0, 0.85);
+      viridis(pls);
+      // The film at the stated exaggeration: the viewport's height over
+      // width in page units is (thickness x exaggeration) / width.
+      const double aspect = (y1 - y0 + bar) * d.exaggeration / (x1 - x0) * page_w / page_h;
+      const double vp_w = std::min(0.84, 0.5 / aspect), vp_h = vp_w * aspect;
+      pls.vpor(0.5 - 0.5 * vp_w, 0.5 + 0.5 * vp_w, 0.80 - vp_h, 0.80);
+      pls.wind(x0, x1, y0 - bar, y1);
+      // plimagefr, not plimage: plimage stretches the colours over the data's
+      // own range; the map's range is fixed (lo .. hi).
+      pls.imagefr(image_rows.data(), PLINT(nx), PLINT(ny), x0, x1, y0, y1, d.lo, d.hi, d.lo, d.hi, nullptr, nullptr);
+      if (d.contour)
+        {
+          PLcGrid grid;
+          grid.xg = const_cast<PLFLT *>(d.x_um.data());
+          grid.yg = const_cast<PLFLT *>(d.y_um.data());
+          grid.nx = PLINT(nx), grid.ny = PLINT(ny);
+          const PLFLT level = *d.contour;
+          pls.col0(0);
+          pls.width(2.5);
+          pls.cont(value_rows.data(), PLINT(nx), PLINT(ny), 1, PLINT(nx), 1, PLINT(ny), &level, 1, pltr1, &grid);
+        }
+      pls.col0(colour_finger);
+      for (const auto &[a, b] : d.fingers)
+        {
+          const double px[] = {a, b, b, a}, py[] = {y0 - bar, y0 - bar, y0, y0};
+          pls.fill(4, px, py);
+        }
+      pls.col0(1);
+      pls.width(1);
+      pls.box("bcnst", 0, 0, "bcnstv", 0, 0);
+      char y_label[64];
+      std::snprintf(y_label, sizeof y_label, "y (µm), ×%g", d.exaggeration);
+      pls.mtex("b", 3.0, 0.5, 0.5, "x (µm)");
+      pls.mtex("l", 5.0, 0.5, 0.5, y_label);
+      pls.mtex("t", 1.5, 0.5, 0.5, escaped(d.title).c_str());
+      // Colour bar: the range as a horizontal strip below the film.
+      pls.vpor(0.3, 0.7, 0.08, 0.12);
+      pls.wind(d.lo, d.hi, 0, 1);
+      std::vector<PLFLT>         strip(256 * 2);
+      std::vector<const PLFLT *> strip_rows(256);
+      for (int i = 0; i < 256; ++i)
+        {
+          strip[2 * i] = strip[2 * i + 1] = d.lo + (d.hi - d.lo) * i / 255.0;
+          strip_rows[i]                   = &strip[2 * i];
+        }
+      pls.imagefr(strip_rows.data(), 256, 2, d.lo, d.hi, 0, 1, d.lo, d.hi, d.lo, d.hi, nullptr, nullptr);
+      pls.col0(1);
+      pls.box("bcnst", 0, 0, "bc", 0, 0);
+      pls.mtex("t", 0.6, 0.5, 0.5, escaped(d.colour_label).c_str());
+    };
+    return both_files(draw_page, stem, warnings, page_w, page_h);
+  }
+
+  std::vector<std::string>
+  write_mesh_picture(const MeshPictureData &d, const std::string &stem, std::vector<std::string> &warnings)
+  {
+    if (d.cells.empty())
+      {
+        warnings.push_back("no picture " + stem + ": no cells in the window");
+        return {};
+      }
+    const double bar = 0.06 * (d.y_hi - d.y_lo);
+    auto draw_page = [&](plstream &pls) {
+      pls.adv(0);
+      pls.schr(0, 0.85);
+      // True scale: one micrometre is as long across as up.
+      pls.vpor(0.1, 0.95, 0.1, 0.9);
+      pls.wind(d.x_lo, d.x_hi, d.y_lo - bar, d.y_hi);
+      pls.vpas(0.1, 0.95, 0.1, 0.9, (d.y_hi - d.y_lo + bar) / (d.x_hi - d.x_lo));
+      pls.wind(d.x_lo, d.x_hi, d.y_lo - bar, d.y_hi);
+      pls.col0(colour_finger);
+      for (const auto &[a, b] : d.fingers)
+        {
+          const double px[] = {a, b, b, a}, py[] = {d.y_lo - bar, d.y_lo - bar, d.y_lo, d.y_lo};
+          pls.fill(4, px, py);
+        }
+      pls.col0(first_line_colour);
+      pls.width(0.6);
+      for (const auto &c : d.cells)
+        {
+          const double px[] = {c[0], c[2], c[4], c[6], c[0]}, py[] = {c[1], c[3], c[5], c[7], c[1]};
+          pls.line(5, px, py);
+        }
+      pls.col0(1);
+      pls.width(1);
+      pls.box("bcnst", 0, 0, "bcnstv", 0, 0);
+      pls.mtex("b", 3.0, 0.5, 0.5, "x (µm)");
+      pls.mtex("l", 5.0, 0.5, 0.5, "y (µm)");
+      pls.mtex("t", 1.5, 0.5, 0.5, escaped(d.title).c_str());
+    };
+    return both_files(draw_page, stem, warnings);
   }
 } // namespace backcomb::postprocess

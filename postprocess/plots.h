@@ -4,8 +4,10 @@
 // SVG and PNG.
 #pragma once
 
+#include <array>
 #include <optional>
 #include <string>
+#include <utility>
 #include <vector>
 
 namespace backcomb::postprocess
@@ -50,4 +52,65 @@ namespace backcomb::postprocess
   // `stem`.svg and `stem`.png, like write_sweep_plots.
   std::vector<std::string> write_bar_chart(const BarChart &chart, const std::string &stem,
                                            std::vector<std::string> &warnings);
+
+  // The J-V curves of one solve: light and dark (either may be empty),
+  // current density in mA/cm^2 against bias in V, the maximum power point
+  // marked.
+  struct JVPlotData
+  {
+    std::vector<double>   light_v, light_j, dark_v, dark_j;
+    std::optional<double> mpp_v, mpp_j;
+  };
+
+  // `stem`.svg and `stem`.png, like write_sweep_plots.
+  std::vector<std::string> write_jv_plots(const JVPlotData &data, const std::string &stem,
+                                          std::vector<std::string> &warnings);
+
+  // Spectral response: named curves (fractions 0..1) against wavelength.
+  struct SpectralPlotData
+  {
+    std::vector<double>                                     wavelength_nm;
+    std::vector<std::pair<std::string, std::vector<double>>> curves; // legend text, values
+    std::string                                             title;
+  };
+
+  // `stem`.svg and `stem`.png, like write_sweep_plots.
+  std::vector<std::string> write_spectral_plots(const SpectralPlotData &data, const std::string &stem,
+                                                std::vector<std::string> &warnings);
+
+  // A field over the film cross-section on a regular grid, drawn with the
+  // viridis colour map over a fixed range, with the contour at `contour`
+  // in white, the fingers as grey bars under the film, and the vertical
+  // scale exaggerated by `exaggeration` (stated in the title).
+  struct FilmMapData
+  {
+    std::vector<double> x_um, y_um;   // grid lines, increasing
+    std::vector<double> values;       // values[i * y_um.size() + j] at (x_um[i], y_um[j]); NaN: not drawn
+    double              lo = 0, hi = 1; // colour range
+    std::optional<double> contour;
+    double              exaggeration = 1;
+    std::vector<std::pair<double, double>> fingers; // [x0, x1] in um
+    std::string         title, colour_label;
+  };
+
+  std::vector<std::string> write_film_map(const FilmMapData &data, const std::string &stem,
+                                          std::vector<std::string> &warnings);
+
+  // Cell outlines (quadrilaterals, corner coordinates in um) in a window of
+  // the period at true scale, with the fingers as grey bars.
+  struct MeshPictureData
+  {
+    std::vector<std::array<double, 8>>     cells; // x0 y0 x1 y1 x2 y2 x3 y3
+    double                                 x_lo = 0, x_hi = 1, y_lo = 0, y_hi = 1;
+    std::vector<std::pair<double, double>> fingers;
+    std::string                            title;
+  };
+
+  std::vector<std::string> write_mesh_picture(const MeshPictureData &data, const std::string &stem,
+                                              std::vector<std::string> &warnings);
+
+  // The vertical exaggeration for a period `width_um` wide and
+  // `thickness_um` thick: 1, 2 or 5 times a power of ten, so that the
+  // drawn film is about four times wider than tall (at least 1).
+  double film_exaggeration(double width_um, double thickness_um);
 } // namespace backcomb::postprocess

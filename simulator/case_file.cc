@@ -528,6 +528,16 @@ namespace backcomb::simulator
     return out.str();
   }
 
+  std::vector<std::string>
+  entry_paths()
+  {
+    std::vector<std::string> paths;
+    for (const auto &[section, names] : declared_names().entries)
+      for (const auto &name : names)
+        paths.push_back(section + "/" + name);
+    return paths;
+  }
+
   std::pair<std::string, std::string>
   split_override(const std::string &text)
   {

@@ -73,6 +73,10 @@ namespace backcomb::simulator
   // The complete annotated defaults, as a case file.
   std::string default_case_text();
 
+  // Every entry's path "Section/Subsection/Name", one per entry (for
+  // `template --paths` and the shell completion of --set and --vary).
+  std::vector<std::string> entry_paths();
+
   // Reads `file`, applies the overrides in order and checks everything.
   // Throws InputError with a message "file:line: Section/Name = value: why".
   Case read_case(const std::string &file, const std::vector<std::string> &overrides);

@@ -16,6 +16,7 @@
 #include "postprocess/jv_tables.h"
 #include "postprocess/losses.h"
 #include "postprocess/pvd.h"
+#include "postprocess/views.h"
 #include "simulator/bounds.h"
 #include "simulator/checkpoint.h"
 #include "simulator/guard_rails.h"
@@ -31,6 +32,7 @@
 #include <vtkVersion.h>
 
 #include <algorithm>
+#include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
@@ -60,13 +62,16 @@ namespace backcomb::simulator
               {"worst_aspect_ratio", s.worst_aspect_ratio}};
     }
 
-    void
-    print_statistics(const geometry::MeshStatistics &s)
+    std::string
+    statistics_text(const geometry::MeshStatistics &s)
     {
-      std::printf("mesh: %u cells; cell sides %.4g .. %.4g um (x from %.4g um, y from %.4g um); "
-                  "worst aspect ratio %.0f\n",
-                  s.n_cells, s.min_size_um, s.max_size_um, s.min_x_size_um, s.min_y_size_um,
-                  s.worst_aspect_ratio);
+      char text[300];
+      std::snprintf(text, sizeof text,
+                    "mesh: %u cells; cell sides %.4g .. %.4g um (x from %.4g um, y from %.4g um); "
+                    "worst aspect ratio %.0f",
+                    s.n_cells, s.min_size_um, s.max_size_um, s.min_x_size_um, s.min_y_size_um,
+                    s.worst_aspect_ratio);
+      return text;
     }
 
     // Rank 0 writes the mesh file, then every process reads it. An error
@@ -112,25 +117,81 @@ namespace backcomb::simulator
         }
     }
 
-    // Progress on a terminal; nothing in batch logs or with --quiet.
-    struct Progress
+    // What a run tells while it works: one line per finished stage on
+    // stdout (not with --quiet), each J-V point as a line overwritten in
+    // place when stderr is a terminal, and with --log every one of them,
+    // stamped with the elapsed time, in the log file (written as it goes,
+    // for job scripts; --quiet does not silence the log).
+    class Progress
     {
-      bool on;
-      explicit Progress(bool quiet)
-        : on(!quiet && isatty(fileno(stderr)))
-      {}
+    public:
+      Progress(const bool quiet, const bool root, const std::string &log_file)
+        : print(!quiet && root)
+        , live(print && isatty(fileno(stderr)))
+        , start(std::chrono::steady_clock::now())
+      {
+        if (root && !log_file.empty())
+          {
+            log.reset(std::fopen(log_file.c_str(), "w"));
+            if (!log)
+              throw OutputError("--log " + log_file + ": cannot open the file for writing");
+          }
+      }
+
+      // A finished stage.
+      void
+      stage(const std::string &s) const
+      {
+        done();
+        if (print)
+          {
+            std::printf("[%7.1f s] %s\n", seconds(), s.c_str());
+            std::fflush(stdout);
+          }
+        to_log(s);
+      }
+
+      // One J-V point.
       void
       line(const std::string &s) const
       {
-        if (on)
+        if (live)
           std::fprintf(stderr, "\r%-78s", s.c_str());
+        to_log(s);
       }
+
       void
       done() const
       {
-        if (on)
+        if (live)
           std::fprintf(stderr, "\r%-78s\r", "");
       }
+
+      // A line for the log file only.
+      void
+      to_log(const std::string &s) const
+      {
+        if (log)
+          {
+            std::fprintf(log.get(), "[%7.1f s] %s\n", seconds(), s.c_str());
+            std::fflush(log.get());
+          }
+      }
+
+    private:
+      double
+      seconds() const
+      {
+        return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+      }
+
+      struct Close
+      {
+        void operator()(std::FILE *f) const { std::fclose(f); }
+      };
+      bool                               print, live;
+      std::chrono::steady_clock::time_point start;
+      std::unique_ptr<std::FILE, Close>   log;
     };
 
     std::vector<double>
@@ -245,6 +306,8 @@ namespace backcomb::simulator
     void set_up_solver();
     void solve_light_jv();
     void write_fields();
+    void write_view_fields();
+    void write_collection_picture(const std::string &vtu);
     void analyse_collection(double v, const fem::ScanPoint &sc, const std::string &vtu,
                             const dealii::Vector<double> &fc);
     void compute_power_balance(const fem::JVMetrics &m0);
@@ -325,7 +388,7 @@ namespace backcomb::simulator
     , strip(c.geometry.layout == geometry::GeometryParameters::Layout::test_strip)
     , lit(c.illumination.intensity_suns > 0)
     , input_power(100.0 * c.illumination.intensity_suns)
-    , progress(o.quiet || !root)
+    , progress(o.quiet, root, o.log)
     , timer(o.communicator, std::cout, dealii::TimerOutput::never, dealii::TimerOutput::wall_times)
   {
     total_time.start();
@@ -360,6 +423,7 @@ namespace backcomb::simulator
       return code;
     write_results();
     print_report();
+    progress.to_log("finished: status " + to_string(status) + ", exit code " + std::to_string(code));
     return code;
   }
 
@@ -520,8 +584,7 @@ namespace backcomb::simulator
     build_shared_mesh(c, o.folder + "/mesh.msh", *tria, o.communicator);
     const auto stats = geometry::mesh_statistics(*tria);
     summary["mesh"]  = statistics_json(stats);
-    if (!o.quiet && root)
-      print_statistics(stats);
+    progress.stage(statistics_text(stats));
   }
 
   // The device in scaled units, the solver, the warnings of meshes that
@@ -553,6 +616,13 @@ namespace backcomb::simulator
 
     width  = solver->width_um();
     active = (!strip && c.device.active_area == DeviceSettings::ActiveArea::gap) ? c.geometry.gap_um : width;
+    // The geometry the views of view_in_paraview.py draw.
+    summary["period"] = {{"layout", strip ? "test strip" : "comb period"},
+                         {"width_um", width},
+                         {"absorber_thickness_um", c.geometry.absorber_thickness_um},
+                         {"electron_finger_width_um", strip ? json(nullptr) : json(c.geometry.electron_finger_width_um)},
+                         {"hole_finger_width_um", strip ? json(nullptr) : json(c.geometry.hole_finger_width_um)},
+                         {"gap_um", strip ? json(nullptr) : json(c.geometry.gap_um)}};
   }
 
   // Equilibrium, the light ramp and the J-V scan; under light the maximum
@@ -563,7 +633,8 @@ namespace backcomb::simulator
     dealii::TimerOutput::Scope scope(timer, t_light);
     const std::string          label = lit ? "light" : "dark";
     dealii::Timer ramp;
-    on                  = fem::start_state(*solver, lit ? 1.0 : 0.0, c.numerics.max_halvings, label, resume);
+    on = fem::start_state(*solver, lit ? 1.0 : 0.0, c.numerics.max_halvings, label, resume,
+                          [this](const std::string &s) { progress.stage(s); });
     ramp_seconds        = ramp.wall_time();
     ramp_factorisations = solver->factorisations();
     light.newton += on.newton_iterations;
@@ -580,6 +651,8 @@ namespace backcomb::simulator
                   [this](const std::string &s) { progress.line(s); }, label, resume);
         if (lit)
           fem::refine(*solver, light, c.jv.refine_to, c.numerics.max_halvings, resume);
+        progress.stage(label + " J-V: " + std::to_string(fem::converged_curve(light).size()) + " converged points" +
+                       (lit ? ", maximum power point and open circuit refined" : ""));
       }
     light_assembly       = solver->assembly_seconds();
     light_solve          = solver->linear_solve_seconds();
@@ -636,14 +709,84 @@ namespace backcomb::simulator
               }
             else if (!c.output.fields && root)
               std::filesystem::remove(path);
+            if (lit && std::abs(v) < 1e-9 && collection.is_object())
+              collection["file"] = c.output.fields ? json(name) : json(nullptr);
           }
+    if (c.output.fields)
+      write_view_fields();
     if (root && c.output.fields)
       write_pvd(o.folder + "/fields.pvd", listed_files);
+    progress.stage("fields: " + std::to_string(listed_files.size()) + " bias(es) in " + o.folder + "/fields" +
+                   (lit ? ", collection probability by the adjoint solve" : ""));
     if (!c.output.fields && root)
       {
         std::error_code ec;
         std::filesystem::remove(o.folder + "/fields", ec); // only if empty
       }
+  }
+
+  // What the views of view_in_paraview.py need besides the fields at the
+  // requested biases: the fields at the maximum power point of the light
+  // J-V (quasi-Fermi-level splitting, current streamlines) and the fingers.
+  void
+  CaseRun::write_view_fields()
+  {
+    if (lit)
+      {
+        const fem::ScanPoint *best = nullptr;
+        for (const auto &p : light.points)
+          if (p.jv.converged && p.jv.voltage > 0 &&
+              (!best || p.jv.voltage * p.jv.current > best->jv.voltage * best->jv.current))
+            best = &p;
+        if (best && best->jv.current > 0)
+          {
+            const std::string name = "fields/light_max_power.vtu";
+            solver->set_state(best->state, best->jv.voltage, 1.0);
+            try
+              {
+                solver->write_fields(o.folder + "/" + name, nullptr, c.output.dead_zone_threshold);
+              }
+            catch (const std::exception &e)
+              {
+                throw OutputError(e.what());
+              }
+            summary["max_power_fields"] = {{"bias_V", best->jv.voltage}, {"file", name}};
+          }
+      }
+    if (root && !strip)
+      try
+        {
+          write_finger_bars(o.folder + "/fields/fingers.vtp", 0.5 * c.geometry.electron_finger_width_um,
+                            c.geometry.gap_um, 0.5 * c.geometry.hole_finger_width_um,
+                            0.12 * c.geometry.absorber_thickness_um);
+        }
+      catch (const std::exception &e)
+        {
+          throw OutputError(e.what());
+        }
+  }
+
+  // The quick look without ParaView: f_c over the period with the
+  // dead-zone contour, the vertical scale exaggerated (collection.png/.svg).
+  void
+  CaseRun::write_collection_picture(const std::string &vtu)
+  {
+    const double t = c.geometry.absorber_thickness_um;
+    FilmMapData  m = film_map_from_fields(vtu, "collection_probability", width, t, 700, 60);
+    m.lo = 0, m.hi = 1;
+    m.contour      = c.output.dead_zone_threshold;
+    m.exaggeration = film_exaggeration(width, t);
+    if (!strip)
+      m.fingers = {{0.0, 0.5 * c.geometry.electron_finger_width_um},
+                   {width - 0.5 * c.geometry.hole_finger_width_um, width}};
+    m.title = "Collection probability at short circuit; dead zone (f_c < " +
+              format_number(c.output.dead_zone_threshold, 3) + ") inside the white line; fingers grey; vertical scale ×" +
+              format_number(m.exaggeration, 3);
+    m.colour_label = "collection probability f_c (pairs collected per pair generated)";
+    std::vector<std::string> warnings;
+    write_film_map(m, o.folder + "/collection", warnings);
+    for (const auto &w : warnings)
+      std::fprintf(stderr, "backcomb: %s\n", w.c_str());
   }
 
   // At short circuit: the current collected according to the adjoint map
@@ -696,6 +839,9 @@ namespace backcomb::simulator
         const std::string contour = "fields/dead_zone_contour_V" + format_fixed(v, 4) + ".vtp";
         const DeadZone    d       = analyse_dead_zone(vtu, c.output.dead_zone_threshold, o.folder + "/" + contour);
         dead_zone                 = dead_zone_json(d, contour);
+        write_collection_picture(vtu);
+        progress.stage("dead zone at short circuit: " + format_number(100 * d.area_fraction, 3) +
+                       " % of the absorber has f_c < " + format_number(d.threshold, 3));
       }
     catch (const std::exception &e)
       {
@@ -738,6 +884,7 @@ namespace backcomb::simulator
       }
     for (const double v : c.output.loss_biases)
       balance_at("bias_" + format_fixed(v, 4), v);
+    progress.stage("losses: power balance at " + std::to_string(loss_points.size()) + " operating points");
   }
 
   void
@@ -777,6 +924,7 @@ namespace backcomb::simulator
         suns_voc.emplace_back(s, oc.voltage);
         previous = s;
       }
+    progress.stage("suns-Voc: open circuit at " + std::to_string(suns_voc.size()) + " light levels");
   }
 
   // The dark J-V over the same biases, from equilibrium.
@@ -795,6 +943,7 @@ namespace backcomb::simulator
     else
       dark.failures.push_back(eq.diagnostic);
     dark_factorisations = solver->factorisations() - before;
+    progress.stage("dark J-V: " + std::to_string(fem::converged_curve(dark).size()) + " converged points");
   }
 
   // The whole comb cell (fingers and contact resistance, Electrodes
@@ -1004,7 +1153,35 @@ namespace backcomb::simulator
       std::fprintf(stderr, "backcomb: %s\n", w.c_str());
     write_file_atomically(o.folder + "/jv.csv", jv_csv(light, dark, width));
     if (eqe)
-      write_file_atomically(o.folder + "/eqe.csv", eqe_csv(*eqe));
+      {
+        write_file_atomically(o.folder + "/eqe.csv", eqe_csv(*eqe));
+        SpectralPlotData plot;
+        plot.wavelength_nm = eqe->wavelength_nm;
+        plot.title         = "Quantum efficiency at short circuit";
+        plot.curves.push_back({"EQE, bias light " + format_number(eqe->bias_light_suns, 3) + " suns", eqe->eqe});
+        if (eqe->eqe_no_bias_light)
+          plot.curves.push_back({"EQE, no bias light", *eqe->eqe_no_bias_light});
+        plot.curves.push_back({"absorptance of the absorber", eqe->absorbed});
+        std::vector<std::string> eqe_warnings;
+        write_spectral_plots(plot, o.folder + "/eqe", eqe_warnings);
+        for (const auto &w : eqe_warnings)
+          std::fprintf(stderr, "backcomb: %s\n", w.c_str());
+      }
+    {
+      JVPlotData jv;
+      for (const auto &p : fem::converged_curve(light))
+        (lit ? jv.light_v : jv.dark_v).push_back(p.voltage), (lit ? jv.light_j : jv.dark_j).push_back(p.current);
+      for (const auto &p : fem::converged_curve(dark))
+        jv.dark_v.push_back(p.voltage), jv.dark_j.push_back(p.current);
+      if (metrics.valid)
+        jv.mpp_v = metrics.Vmp, jv.mpp_j = metrics.Jmp;
+      std::vector<std::string> jv_warnings;
+      write_jv_plots(jv, o.folder + "/jv", jv_warnings);
+      for (const auto &w : jv_warnings)
+        std::fprintf(stderr, "backcomb: %s\n", w.c_str());
+    }
+    if (collection.is_object() && collection["file"].is_string())
+      write_view_script(o.folder); // the views need the collection probability
     json s                  = summary_of_results();
     s["timings_s"]["total"] = total_time.wall_time();
     // File names and messages are user text: a byte that is not UTF-8
@@ -1057,6 +1234,47 @@ namespace backcomb::simulator
                 o.folder.c_str(), fields.empty() ? "" : " and fields.pvd");
   }
 
+  namespace
+  {
+    // The cells near the electron finger's edge (where the mesh is finest
+    // laterally), in a window two film thicknesses to either side, at
+    // true scale; a test strip shows its left end.
+    MeshPictureData
+    edge_of_mesh(const Case &c, const dealii::Triangulation<2> &tria)
+    {
+      const bool   strip = c.geometry.layout == geometry::GeometryParameters::Layout::test_strip;
+      const double t     = c.geometry.absorber_thickness_um;
+      const double edge  = strip ? 0.0 : 0.5 * c.geometry.electron_finger_width_um;
+      MeshPictureData d;
+      d.x_lo = std::max(0.0, edge - 2 * t), d.x_hi = edge + 2 * t;
+      d.y_lo = 1e300, d.y_hi = -1e300;
+      for (const auto &cell : tria.active_cell_iterators())
+        for (const unsigned v : cell->vertex_indices())
+          d.y_lo = std::min(d.y_lo, cell->vertex(v)[1]), d.y_hi = std::max(d.y_hi, cell->vertex(v)[1]);
+      for (const auto &cell : tria.active_cell_iterators())
+        {
+          double lo = 1e300, hi = -1e300;
+          for (const unsigned v : cell->vertex_indices())
+            lo = std::min(lo, cell->vertex(v)[0]), hi = std::max(hi, cell->vertex(v)[0]);
+          if (hi < d.x_lo || lo > d.x_hi)
+            continue;
+          // deal.II numbers a quadrilateral's vertices lexicographically.
+          std::array<double, 8> q;
+          const unsigned        order[4] = {0, 1, 3, 2};
+          for (unsigned k = 0; k < 4; ++k)
+            q[2 * k] = cell->vertex(order[k])[0], q[2 * k + 1] = cell->vertex(order[k])[1];
+          d.cells.push_back(q);
+        }
+      if (!strip)
+        d.fingers = {{0.0, edge}};
+      d.title = (strip ? std::string("Mesh at the strip's left end") : "Mesh near the electron finger's edge (x = " +
+                                                                       format_number(edge, 4) + " µm)") +
+                ": " + std::to_string(d.cells.size()) + " of " + std::to_string(tria.n_active_cells()) +
+                " cells, true scale" + (strip ? "" : "; finger grey");
+      return d;
+    }
+  } // namespace
+
   int
   run_mesh(const Case &c, const RunOptions &o)
   {
@@ -1076,8 +1294,13 @@ namespace backcomb::simulator
       {
         throw OutputError(e.what());
       }
-    print_statistics(geometry::mesh_statistics(tria));
-    std::printf("wrote %s/mesh.msh and %s/mesh.vtu\n", o.folder.c_str(), o.folder.c_str());
+    std::printf("%s\n", statistics_text(geometry::mesh_statistics(tria)).c_str());
+    std::vector<std::string> warnings;
+    const bool               picture = !write_mesh_picture(edge_of_mesh(c, tria), o.folder + "/mesh", warnings).empty();
+    for (const auto &w : warnings)
+      std::fprintf(stderr, "backcomb: %s\n", w.c_str());
+    std::printf("wrote %s/mesh.msh, %s/mesh.vtu%s\n", o.folder.c_str(), o.folder.c_str(),
+                picture ? (" and " + o.folder + "/mesh.png/.svg").c_str() : "");
     return exit_ok;
   }
 

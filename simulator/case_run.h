@@ -38,6 +38,9 @@ namespace backcomb::simulator
   {
     std::string folder;
     bool        quiet = false;
+    // Also write the progress lines, with the elapsed time, to this file
+    // (`solve --log FILE`); "" for none.
+    std::string log;
     // Processes that solve this one case together (a sweep passes
     // MPI_COMM_SELF so that each rank runs its own cases).
     MPI_Comm    communicator = MPI_COMM_WORLD;

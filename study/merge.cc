@@ -6,6 +6,7 @@
 #include "base/format.h"
 #include "postprocess/plots.h"
 #include "postprocess/pvd.h"
+#include "postprocess/views.h"
 #include "study/layout.h"
 #include "study/rows.h"
 
@@ -123,6 +124,70 @@ namespace backcomb::study
       return written;
     }
 
+    // What the ParaView views of the sweep (view_in_paraview.py, written
+    // here) step through: one collection per kind of file, the swept value
+    // (or the case index of a grid) as time, for the cases that have it.
+    json
+    write_view_collections(const std::string &folder, const StudyPlan &plan, const std::vector<StudyRow> &rows)
+    {
+      const bool by_value = plan.entries.size() == 1 && all_numeric(plan.entries[0].values);
+      std::vector<postprocess::PvdDataSet> collection, max_power, fingers;
+      json                                 cases = json::array(), times = json::array();
+      for (std::size_t i = 0; i < rows.size(); ++i)
+        {
+          if (rows[i].status != Status::converged && rows[i].status != Status::partial)
+            continue;
+          const std::string dir = "cases/" + rows[i].id;
+          json              s;
+          try
+            {
+              s = read_json(folder + "/" + dir + "/summary.json");
+            }
+          catch (const InputError &)
+            {
+              continue;
+            }
+          const auto file_of = [&s](const char *key) -> std::string {
+            if (s.contains(key) && s[key].is_object() && s[key].contains("file") && s[key]["file"].is_string())
+              return s[key]["file"].get<std::string>();
+            return "";
+          };
+          const std::string fc = file_of("collection_map");
+          if (fc.empty())
+            continue;
+          const double time = by_value ? *to_number(rows[i].values[0]) : double(i);
+          cases.push_back(dir);
+          times.push_back(time);
+          collection.push_back({time, dir + "/" + fc});
+          if (const std::string mpp = file_of("max_power_fields"); !mpp.empty())
+            max_power.push_back({time, dir + "/" + mpp});
+          if (fs::exists(folder + "/" + dir + "/fields/fingers.vtp"))
+            fingers.push_back({time, dir + "/fields/fingers.vtp"});
+        }
+      if (collection.empty())
+        return nullptr;
+      json views = {{"swept_entry", by_value ? plan.entries[0].path : std::string("case index")},
+                    {"swept_unit", by_value ? plan.entries[0].unit : std::string("")},
+                    {"cases", cases},
+                    {"times", times},
+                    {"script", postprocess::view_script_name}};
+      const auto write = [&](const char *key, const char *name, const std::vector<postprocess::PvdDataSet> &d) {
+        // A collection that misses cases would shift the others in time.
+        if (d.size() != collection.size())
+          {
+            views[key] = nullptr;
+            return;
+          }
+        postprocess::write_pvd(folder + "/" + name, d);
+        views[key] = name;
+      };
+      write("collection", "sweep-collection.pvd", collection);
+      write("max_power", "sweep-max-power.pvd", max_power);
+      write("fingers", "sweep-fingers.pvd", fingers);
+      postprocess::write_view_script(folder);
+      return views;
+    }
+
     // The plot: the first entry along x, one line per combination of the
     // others, the PCE that decided the recommendation on the upper panel.
     std::vector<std::string>
@@ -210,6 +275,9 @@ namespace backcomb::study
       for (const auto &c : collections)
         std::printf("  %s: ParaView collection of every case's fields at that bias\n", c.c_str());
       std::printf("  cases/<case>/: each case's own results (jv.csv, summary.json, fields) and solve.log\n");
+      if (fs::exists(folder + "/" + postprocess::view_script_name))
+        std::printf("  %s: the dead zone of every case in ParaView: paraview --script=%s/%s\n",
+                    postprocess::view_script_name, folder.c_str(), postprocess::view_script_name);
     }
   } // namespace
 
@@ -334,12 +402,14 @@ namespace backcomb::study
     else
       warnings.push_back("no plot: the values of " + plan.entries[0].path + " are not all numbers");
     const std::vector<std::string> collections = write_field_collections(folder, plan, rows);
+    const json                     views       = write_view_collections(folder, plan, rows);
 
     json j     = study_json(plan, rows, rec);
     j["files"] = {{"table", "sweep.csv"}, {"plots", json::array()}, {"field_collections", collections}};
     for (const auto &p : plots)
       j["files"]["plots"].push_back(fs::path(p).filename().string());
     j["warnings"] = warnings;
+    j["views"]    = views;
     write_json_atomically(folder + "/sweep.json", j);
 
     std::printf("\n%s", screen_table(plan, rows).c_str());

@@ -117,18 +117,79 @@ TEST(DeadZone, VtkAreaMatchesDirectQuadrature)
   reader->SetFileName(vtu.c_str());
   reader->Update();
   vtkPointData *pd = reader->GetOutput()->GetPointData();
-  for (const char *name : {"potential_V", "quasi_fermi_n_eV", "quasi_fermi_p_eV", "n_per_cm3", "p_per_cm3",
-                           "J_n_mA_per_cm2", "J_p_mA_per_cm2", "J_mA_per_cm2", "field_V_per_cm",
-                           "G_per_cm3_s", "R_per_cm3_s", "R_srh_per_cm3_s", "R_radiative_per_cm3_s",
-                           "R_auger_per_cm3_s", "collection_probability", "dead_zone_mask"})
+  for (const char *name :
+       {"electrostatic_potential_V", "electron_quasi_fermi_level_eV", "hole_quasi_fermi_level_eV",
+        "quasi_fermi_level_splitting_eV", "electron_density_per_cm3", "hole_density_per_cm3",
+        "electron_current_density_mA_per_cm2", "hole_current_density_mA_per_cm2", "current_density_mA_per_cm2",
+        "electric_field_strength_V_per_cm", "generation_rate_per_cm3_s", "recombination_rate_per_cm3_s",
+        "R_srh_per_cm3_s", "R_radiative_per_cm3_s", "R_auger_per_cm3_s", "collection_probability",
+        "collection_probability_electron_equation_part", "collection_probability_hole_equation_part",
+        "dead_zone_mask", "in_absorber", "region_id"})
     ASSERT_NE(pd->GetArray(name), nullptr) << name;
+  // Every field name says what it is: no placeholder components.
+  for (int i = 0; i < pd->GetNumberOfArrays(); ++i)
+    EXPECT_EQ(std::string(pd->GetArrayName(i)).find("unused"), std::string::npos) << pd->GetArrayName(i);
   double range[2];
   pd->GetArray("collection_probability")->GetRange(range);
   EXPECT_GT(range[0], -1e-3);
   EXPECT_LT(range[1], 1 + 1e-3);
-  pd->GetArray("n_per_cm3")->GetRange(range);
+  pd->GetArray("electron_density_per_cm3")->GetRange(range);
   EXPECT_GT(range[0], 0);
-  pd->GetArray("p_per_cm3")->GetRange(range);
+  pd->GetArray("hole_density_per_cm3")->GetRange(range);
   EXPECT_GT(range[0], 0);
+  std::filesystem::remove_all(dir);
+}
+
+TEST(DeadZone, MaskCoversOnlyTheAbsorber)
+{
+  // A period with an electron interlayer over the electron finger. With a
+  // threshold above every f_c the whole absorber is "dead", so the mask
+  // must equal the absorber flag: 1 in the absorber, 0 in the interlayer.
+  geometry::GeometryParameters g;
+  g.electron_finger_width_um = 2;
+  g.hole_finger_width_um     = 2;
+  g.gap_um                   = 4;
+  g.absorber_thickness_um    = 0.3;
+  g.electron_interlayer_nm   = 50;
+  geometry::MeshParameters mesh;
+  mesh.smallest_cell_nm         = 10;
+  mesh.growth_ratio             = 1.5;
+  mesh.largest_lateral_cell_um  = 0.5;
+  mesh.largest_vertical_cell_nm = 50;
+  dealii::Triangulation<2> tria;
+  geometry::build_triangulation(g, mesh, tria);
+
+  Material m;
+  m.tau_n = m.tau_p = 1e-7;
+  ContactParameters e, h;
+  e.work_function = 4.0, e.S_n = 1e7, e.S_p = 10;
+  h.work_function = 5.4, h.S_n = 10, h.S_p = 1e7;
+  auto G = [](double, double) { return 1e21; };
+  DeviceModel dev(300, {{ids::absorber, m}, {ids::electron_interlayer, m}}, {ids::absorber}, e, h,
+                  SurfaceParameters(), SurfaceParameters(), G);
+  NumericsParameters num;
+  DriftDiffusionSolver solver(tria, dev, num);
+  ASSERT_TRUE(illuminate(solver, 1.0, 8).converged);
+  const dealii::Vector<double> fc = solver.collection_probability();
+
+  const auto dir = std::filesystem::temp_directory_path() / ("backcomb-mask-" + std::to_string(::getpid()));
+  std::filesystem::create_directories(dir);
+  const std::string vtu = (dir / "f.vtu").string();
+  solver.write_fields(vtu, &fc, 2.0);
+  vtkNew<vtkXMLUnstructuredGridReader> reader;
+  reader->SetFileName(vtu.c_str());
+  reader->Update();
+  vtkPointData *pd       = reader->GetOutput()->GetPointData();
+  vtkDataArray *mask     = pd->GetArray("dead_zone_mask");
+  vtkDataArray *absorber = pd->GetArray("in_absorber");
+  ASSERT_NE(mask, nullptr);
+  ASSERT_NE(absorber, nullptr);
+  vtkIdType outside = 0;
+  for (vtkIdType i = 0; i < mask->GetNumberOfTuples(); ++i)
+    {
+      EXPECT_EQ(mask->GetTuple1(i), absorber->GetTuple1(i)) << "point " << i;
+      outside += absorber->GetTuple1(i) == 0;
+    }
+  EXPECT_GT(outside, 0); // the interlayer is in the file
   std::filesystem::remove_all(dir);
 }
