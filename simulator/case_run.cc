@@ -1158,10 +1158,10 @@ namespace backcomb::simulator
         SpectralPlotData plot;
         plot.wavelength_nm = eqe->wavelength_nm;
         plot.title         = "Quantum efficiency at short circuit";
-        plot.curves.push_back({"EQE, bias light " + format_number(eqe->bias_light_suns, 3) + " suns", eqe->eqe});
+        plot.curves.push_back({"EQE, " + format_number(eqe->bias_light_suns, 3) + " sun bias", eqe->eqe});
         if (eqe->eqe_no_bias_light)
-          plot.curves.push_back({"EQE, no bias light", *eqe->eqe_no_bias_light});
-        plot.curves.push_back({"absorptance of the absorber", eqe->absorbed});
+          plot.curves.push_back({"EQE, dark", *eqe->eqe_no_bias_light});
+        plot.curves.push_back({"absorptance", eqe->absorbed});
         std::vector<std::string> eqe_warnings;
         write_spectral_plots(plot, o.folder + "/eqe", eqe_warnings);
         for (const auto &w : eqe_warnings)
