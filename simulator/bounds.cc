@@ -103,8 +103,9 @@ namespace backcomb::simulator
           out.push_back({"per_active_detailed_balance", false,
                          "the per-active-area PCE " + number(active_pce) +
                            " % exceeds the detailed-balance limit " + number(limit) +
-                           " %: it counts carriers generated outside the active width (Device/Active area); "
-                           "compare designs by the footprint figures"});
+                           " %: the share of the current from the active width (collection map at short "
+                           "circuit) does not hold when the cell is far from linear in the light "
+                           "(collection_map.relative_difference); compare designs by the footprint figures"});
       }
 
     // (4) Per-active-area figures far above the footprint's.
@@ -112,15 +113,17 @@ namespace backcomb::simulator
       out.push_back({"active_width", false,
                      "per-active-area figures are " + number(r.active_scale, 3) +
                        " times the footprint's (the active width is less than 1/" + number(active_scale_limit, 3) +
-                       " of the period, Device/Active area): they mostly count carriers generated outside "
-                       "it; compare designs by the footprint figures"});
+                       " of the period, Device/Active area, and nearly all collected carriers come from it): "
+                       "compare designs by the footprint figures"});
     if (r.Jsc && r.photon_current_mA_per_cm2 && r.active_scale > 1 + 1e-12 &&
         *r.Jsc * r.active_scale > over * *r.photon_current_mA_per_cm2)
       out.push_back({"per_active_photons", false,
                      "the per-active-area Jsc " + number(*r.Jsc * r.active_scale) +
                        " mA/cm2 exceeds the incident above-gap photon current " +
                        number(*r.photon_current_mA_per_cm2) +
-                       " mA/cm2: it counts carriers generated outside the active width (Device/Active area)"});
+                       " mA/cm2: the share of the current from the active width (collection map at short circuit) "
+                       "does not hold when the cell is far from linear in the light "
+                       "(collection_map.relative_difference)"});
 
     // (5) Boltzmann statistics.
     if (r.degeneracy && *r.degeneracy > 1)
