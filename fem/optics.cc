@@ -703,6 +703,25 @@ namespace backcomb::fem
     return (1 - interlayer_absorptance) * (1 - back_reflectance) * finger_transmittance;
   }
 
+  OpticalColumn::Fractions
+  OpticalColumn::fractions(const double R_f, const double R_b, const double e) const
+  {
+    const bool   behind_finger = from_substrate && finger; // the light crosses finger and interlayer first
+    const double T_f           = behind_finger ? finger_transmittance : 1;
+    const double A_front       = behind_finger ? interlayer_absorptance : 0;
+    const double into          = (1 - R_f) * entering();
+    const double R             = returned(R_b);
+    Fractions    f;
+    f.reflected   = R_f;
+    f.shaded      = (1 - R_f) * (1 - T_f) + into * e * shaded_behind(R_b);
+    f.parasitic   = (1 - R_f) * T_f * A_front + into * e * parasitic_behind(R_b);
+    // Absorbed on the way in and, of what comes back, on the way out.
+    f.absorbed    = into * (1 - e) * (1 + R * e);
+    f.transmitted = into * e * leaving_behind(R_b);
+    f.escaped     = into * e * R * e;
+    return f;
+  }
+
   OpticalBudget
   column_budget(const Spectrum         &spectrum,
                 const AboveGapSpectrum &above_gap,
@@ -716,14 +735,9 @@ namespace backcomb::fem
     // (alpha = 0) integrated apart; they share the prefix's last node, so
     // the two parts add up to the trapezoidal rule over the whole grid and
     // the absorbed part is exactly the one of the generation profile.
-    const auto       &w       = spectrum.wavelength_nm;
-    const std::size_t m       = above_gap.wavelength_nm.size();
-    const double      R_f     = front_reflectance;
-    const double      T_f     = column.from_substrate && column.finger ? column.finger_transmittance : 1;
-    const double      A_front = column.from_substrate && column.finger ? column.interlayer_absorptance : 0;
-    const double      into    = (1 - R_f) * column.entering();
-    const double      R       = column.returned(back_reflectance);
-    const double      t_cm    = 1e-4 * column.absorber_um;
+    const auto       &w    = spectrum.wavelength_nm;
+    const std::size_t m    = above_gap.wavelength_nm.size();
+    const double      t_cm = 1e-4 * column.absorber_um;
 
     OpticalBudget                    b;
     const std::array<std::size_t, 2> first{0, m == 0 ? 0 : m - 1}, last{m == 0 ? 0 : m - 1, w.size() - 1};
@@ -733,7 +747,7 @@ namespace backcomb::fem
         if (above && m < 2)
           continue; // no above-gap interval
         const std::size_t   n     = last[part] - first[part] + 1;
-        std::vector<double> x(n), inc(n), abs(n), abs_photons(n), par(n), shade(n), out(n);
+        std::vector<double> x(n), inc(n), refl(n), abs(n), abs_photons(n), par(n), shade(n), out(n);
         for (std::size_t k = 0; k < n; ++k)
           {
             const std::size_t i = first[part] + k;
@@ -741,22 +755,19 @@ namespace backcomb::fem
             // W m^-2 nm^-1 to mW cm^-2 nm^-1: 0.1.
             const double P      = 0.1 * intensity_suns * spectrum.irradiance[i];
             const double alpha  = above ? above_gap.alpha_per_cm[k] : 0;
-            const double e      = std::exp(-alpha * t_cm);
+            const auto   f      = column.fractions(front_reflectance, back_reflectance, std::exp(-alpha * t_cm));
             inc[k]              = P;
-            // Absorbed on the way in and, of what comes back, on the way out.
-            const double a      = into * (1 - e) * (1 + R * e);
-            abs[k]              = P * a;
-            abs_photons[k]      = above ? P * a / photon_energy_eV(w[i]) : 0;
-            par[k]              = P * ((1 - R_f) * T_f * A_front + into * e * column.parasitic_behind(back_reflectance));
-            shade[k]            = P * ((1 - R_f) * (1 - T_f) + into * e * column.shaded_behind(back_reflectance));
-            // Out through the far side, or back out of the front after the
-            // second pass.
-            out[k]              = P * into * e * (column.leaving_behind(back_reflectance) + R * e);
+            refl[k]             = P * f.reflected;
+            abs[k]              = P * f.absorbed;
+            abs_photons[k]      = above ? P * f.absorbed / photon_energy_eV(w[i]) : 0;
+            par[k]              = P * f.parasitic;
+            shade[k]            = P * f.shaded;
+            out[k]              = P * (f.transmitted + f.escaped);
           }
         if (n < 2)
           continue;
         b.incident += integrate_trapezoid(x, inc);
-        b.reflected += R_f * integrate_trapezoid(x, inc);
+        b.reflected += integrate_trapezoid(x, refl);
         b.shaded += integrate_trapezoid(x, shade);
         b.parasitic += integrate_trapezoid(x, par);
         b.absorbed += integrate_trapezoid(x, abs);
@@ -887,21 +898,17 @@ namespace backcomb::fem
         col.optics.interlayer_absorptance = 1 - std::exp(-alpha_per_cm[c] * 1e-4 * interlayer_um[c]);
         // A column whose light path matches an earlier one's shares its
         // profile (film side without interlayers: all three).
-        const BeerLambert key{col.optics.absorber_um, 1, 0, col.optics.returned(parameters.back_reflectance),
-                              col.optics.entering()};
+        const auto same_light_path = [&](const OpticalColumn &a) {
+          return a.absorber_um == col.optics.absorber_um && a.entering() == col.optics.entering() &&
+                 a.returned(parameters.back_reflectance) == col.optics.returned(parameters.back_reflectance);
+        };
         bool shared = false;
         for (std::size_t e = 0; e < c && !shared; ++e)
-          {
-            const Column &o = columns_[e];
-            const BeerLambert other{o.optics.absorber_um, 1, 0, o.optics.returned(parameters.back_reflectance),
-                                    o.optics.entering()};
-            if (key.thickness_um == other.thickness_um && key.back_reflectance == other.back_reflectance &&
-                key.transmitted == other.transmitted)
-              {
-                col.profile = o.profile;
-                shared      = true;
-              }
-          }
+          if (same_light_path(columns_[e].optics))
+            {
+              col.profile = columns_[e].profile;
+              shared      = true;
+            }
         if (!shared)
           col.profile = model->profile(parameters, band_gap_eV, col.optics);
         col.budget = model->budget(parameters, band_gap_eV, col.optics);
@@ -959,16 +966,15 @@ namespace backcomb::fem
       {
         if (!(width[c] > 0))
           continue;
-        const OpticalColumn &o    = columns_[c].optics;
-        const double         into = (1 - front_reflectance_) * o.entering();
-        const double         R    = o.returned(back_reflectance_);
+        const OpticalColumn &o     = columns_[c].optics;
         const double         share = width[c] / period;
         for (std::size_t i = 0; i < n; ++i)
           {
-            const double e = std::exp(-spectral_.alpha_per_cm[i] * 1e-4 * o.absorber_um);
-            f.absorbed[i] += share * into * (1 - e) * (1 + R * e);
-            f.reflected[i] += share * (front_reflectance_ + into * e * R * e);
-            f.transmitted[i] += share * into * e * o.leaving_behind(back_reflectance_);
+            const auto p = o.fractions(front_reflectance_, back_reflectance_,
+                                       std::exp(-spectral_.alpha_per_cm[i] * 1e-4 * o.absorber_um));
+            f.absorbed[i] += share * p.absorbed;
+            f.reflected[i] += share * (p.reflected + p.escaped);
+            f.transmitted[i] += share * p.transmitted;
           }
       }
     return f;

@@ -214,6 +214,20 @@ namespace backcomb::fem
     double parasitic_behind(double back_reflectance) const;
     double shaded_behind(double back_reflectance) const;
     double leaving_behind(double back_reflectance) const;
+
+    // Where the photons of one wavelength incident on the column go, per
+    // photon, for a single-pass transmission e = exp(-alpha t) of the
+    // absorber; the six fractions add up to 1.
+    struct Fractions
+    {
+      double reflected;    // at the front
+      double shaded;       // taken by the finger
+      double parasitic;    // absorbed in the interlayer
+      double absorbed;     // in the absorber, both passes
+      double transmitted;  // out through the far side
+      double escaped;      // back out of the front after the reflected pass
+    };
+    Fractions fractions(double front_reflectance, double back_reflectance, double e) const;
   };
 
   // The budget of one column, per unit footprint of that column, from the

@@ -15,6 +15,7 @@
 #include <cmath>
 #include <cstdlib>
 #include <filesystem>
+#include <utility>
 #include <vector>
 
 using namespace backcomb;
@@ -32,6 +33,21 @@ namespace
     n.tolerance = 1e-11;
     return n;
   }
+  // The diffusion-limited strip: p-type film (1e16 cm^-3) with an electron
+  // diffusion length of 1 um, ohmic contacts at both ends.
+  std::pair<Material, ContactParameters>
+  diffusion_strip()
+  {
+    Material m;
+    m.acceptors = 1e16;
+    m.mu_n = m.mu_p = 10.0;
+    const double D = m.mu_n * Vt;
+    m.tau_n = m.tau_p = 1e-8 / D; // L = 1 um
+    ContactParameters c;
+    c.model         = "ohmic";
+    c.work_function = m.electron_affinity + m.band_gap - Vt * std::log(m.Nv / m.acceptors);
+    return {m, c};
+  }
 } // namespace
 
 // Doped strip with minority-absorbing contacts at both ends, low injection:
@@ -45,14 +61,7 @@ namespace
 // G tau (1 - cosh((x - g/2)/L) / cosh(g/(2L))).
 TEST(CollectionProbability, DopedStripMatchesDiffusionSolution)
 {
-  Material m;
-  m.acceptors = 1e16;
-  m.mu_n = m.mu_p = 10.0;
-  const double D = m.mu_n * Vt;
-  m.tau_n = m.tau_p = 1e-8 / D; // L = 1 um
-  ContactParameters c;
-  c.model         = "ohmic";
-  c.work_function = m.electron_affinity + m.band_gap - Vt * std::log(m.Nv / m.acceptors);
+  const auto [m, c] = diffusion_strip();
   const double g  = 5.0; // g/L = 5
   dealii::Triangulation<2> tria;
   test_support::make_strip(tria, g, 1.0, 0.0, 0.002, 1.1, 0.05);
@@ -272,14 +281,7 @@ TEST(QuantumEfficiency, MapMatchesMonochromaticPerturbation)
 // collected fraction (2L/g) tanh(g/(2L)) (Donolato 1985, as above).
 TEST(QuantumEfficiency, StripInternalQEIsDiffusionLimit)
 {
-  Material m;
-  m.acceptors = 1e16;
-  m.mu_n = m.mu_p = 10.0;
-  const double D = m.mu_n * Vt;
-  m.tau_n = m.tau_p = 1e-8 / D; // L = 1 um
-  ContactParameters c;
-  c.model         = "ohmic";
-  c.work_function = m.electron_affinity + m.band_gap - Vt * std::log(m.Nv / m.acceptors);
+  const auto [m, c] = diffusion_strip();
   const double g  = 5.0;
   // The strip of DopedStripMatchesDiffusionSolution with 40 layers of 25 nm
   // in depth, so that the quadrature resolves light absorbed within 50 nm.
