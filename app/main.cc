@@ -5,6 +5,7 @@
 #include "simulator/case_file.h"
 #include "simulator/case_run.h"
 #include "simulator/legacy_entries.h"
+#include "study/calibration.h"
 #include "study/study.h"
 
 #include <deal.II/base/exceptions.h>
@@ -123,6 +124,30 @@ namespace
      "\n"
      "Prints the case file with the current section and entry names (for a file\n"
      "written for an older backcomb); comments and layout are kept.\n"},
+    {"calibrate",
+     "usage: backcomb calibrate CASE.prm --data FILE [--data FILE]...\n"
+     "                     --fit \"Section/Name=LOW:HIGH[:log|:linear]\" [--fit ...]\n"
+     "                     [--set \"Section/Name=value\"]... [--loss huber|cauchy[:SCALE]]\n"
+     "                     [--iterations N] [--out FOLDER] [--quiet]\n"
+     "\n"
+     "Fits the chosen entries of the case to measured data of test cells (README,\n"
+     "\"Calibration\", describes the data files) by bounded least squares (PETSc TAO).\n"
+     "Writes FOLDER/fit.json (values, standard errors, correlations, warnings),\n"
+     "FOLDER/fitted.prm (the case with the fitted values), FOLDER/fit-points.csv and\n"
+     "one plot per data set. Run again with the same command after a kill: the\n"
+     "evaluations in FOLDER/evaluations.jsonl are replayed. Under mpirun the model\n"
+     "solves of each iteration are shared by the ranks.\n"
+     "\n"
+     "  --data FILE                  one measured data set (repeatable)\n"
+     "  --fit \"Section/Name=LOW:HIGH\" a fitted entry and its bounds; :log or :linear\n"
+     "                               scaling (default log when HIGH >= 10 LOW > 0);\n"
+     "                               the fit starts from the case's (or --set) value\n"
+     "  --set \"Section/Name=value\"  override one case-file entry for every device\n"
+     "  --loss huber|cauchy[:SCALE]  robust loss against outliers, SCALE in standard\n"
+     "                               deviations (default 3); default: plain least squares\n"
+     "  --iterations N               at most N optimiser iterations (default 30)\n"
+     "  --out FOLDER                 results folder (default: backcomb-fit)\n"
+     "  --quiet                      no progress lines\n"},
     {"merge",
      "usage: backcomb merge FOLDER [--quiet]\n"
      "\n"
@@ -145,6 +170,9 @@ namespace
     std::vector<std::string> overrides, vary;
     bool                     quiet = false, retry_failed = false, paths = false;
     unsigned                 task = 0, tasks = 0;
+    std::vector<std::string> data, fit; // calibrate
+    std::string              loss;
+    unsigned                 iterations = 0;
   };
 
   // A whole positive number for --task / --of, or 0.
@@ -177,6 +205,17 @@ namespace
           a.vary.push_back(argv[++i]);
         else if (s == "--retry-failed")
           a.retry_failed = true;
+        else if ((s == "--data" || s == "--fit" || s == "--loss") && i + 1 < argc && a.command == "calibrate")
+          (s == "--data" ? a.data.push_back(argv[++i]) : s == "--fit" ? a.fit.push_back(argv[++i]) : void(a.loss = argv[++i]));
+        else if (s == "--iterations" && i + 1 < argc && a.command == "calibrate")
+          {
+            a.iterations = positive(argv[++i]);
+            if (a.iterations == 0)
+              {
+                std::fprintf(stderr, "backcomb: --iterations needs a whole number >= 1, not '%s'\n", argv[i]);
+                return false;
+              }
+          }
         else if ((s == "--task" || s == "--of") && i + 1 < argc)
           {
             const unsigned v = positive(argv[++i]);
@@ -339,6 +378,22 @@ main(int argc, char **argv)
         {
           std::fprintf(stderr, "backcomb: %s needs a case file\n\n%s", args.command.c_str(), usage);
           return exit_usage;
+        }
+      if (args.command == "calibrate")
+        {
+          study::CalibrationOptions options;
+          options.case_file  = args.case_file;
+          options.sets       = args.overrides;
+          options.data_files = args.data;
+          options.fit        = args.fit;
+          if (!args.loss.empty())
+            study::parse_loss(args.loss, options);
+          if (args.iterations > 0)
+            options.max_iterations = args.iterations;
+          if (!args.out.empty())
+            options.folder = args.out;
+          options.quiet = args.quiet;
+          return study::run_calibration(options, MPI_COMM_WORLD);
         }
       if (args.command == "sweep")
         {

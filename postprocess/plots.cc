@@ -484,6 +484,113 @@ namespace backcomb::postprocess
   }
 
   std::vector<std::string>
+  write_fit_plots(const FitPlotData &d, const std::string &stem, std::vector<std::string> &warnings)
+  {
+    if (d.x.size() < 2)
+      {
+        warnings.push_back("no fit plot " + stem + ": fewer than two points");
+        return {};
+      }
+    auto shown = [&](double y) { return d.log_y ? (std::abs(y) > 0 ? std::log10(std::abs(y)) : NAN) : y; };
+    std::vector<double> ym, yf, ys, res, all;
+    for (std::size_t i = 0; i < d.x.size(); ++i)
+      {
+        ym.push_back(shown(d.measured[i]));
+        yf.push_back(shown(d.fitted[i]));
+        ys.push_back(i < d.start.size() ? shown(d.start[i]) : NAN);
+        res.push_back(d.fitted[i] - d.measured[i]);
+      }
+    for (const auto *v : {&ym, &yf})
+      for (const double y : *v)
+        if (std::isfinite(y))
+          all.push_back(y);
+    std::vector<double> finite_res;
+    for (const double r : res)
+      if (std::isfinite(r))
+        finite_res.push_back(r);
+    finite_res.push_back(0.0);
+    if (all.empty())
+      all.push_back(0.0);
+    const auto [x_lo, x_hi] = padded_range(d.x, 0.03);
+    const auto [y_lo, y_hi] = padded_range(all, 0.08);
+    const auto [r_lo, r_hi] = padded_range(finite_res, 0.15);
+    auto draw_page          = [&](plstream &pls) {
+      pls.adv(0);
+      pls.schr(0, 0.8);
+      // Upper panel: data and model.
+      pls.vpor(0.12, 0.72, 0.40, 0.92);
+      pls.wind(x_lo, x_hi, y_lo, y_hi);
+      pls.col0(colour_grid);
+      pls.width(0.5);
+      pls.box("g", 0, 0, "g", 0, 0);
+      pls.col0(1);
+      pls.width(1);
+      pls.box("bcst", 0, 0, d.log_y ? "bcnstvl" : "bcnstv", 0, 0);
+      pls.mtex("l", 5.0, 0.5, 0.5, d.y_label.c_str());
+      pls.mtex("t", 1.5, 0.5, 0.5, d.title.c_str());
+      auto line = [&](const std::vector<double> &y, int colour, int style) {
+        pls.col0(colour);
+        pls.width(2);
+        pls.lsty(style);
+        // Drawn piecewise between points where the model has a value.
+        std::vector<double> xs, yv;
+        auto flush = [&]() {
+          if (xs.size() > 1)
+            pls.line(int(xs.size()), xs.data(), yv.data());
+          xs.clear(), yv.clear();
+        };
+        for (std::size_t i = 0; i < y.size(); ++i)
+          if (std::isfinite(y[i]))
+            xs.push_back(d.x[i]), yv.push_back(y[i]);
+          else
+            flush();
+        flush();
+        pls.lsty(1);
+      };
+      if (!d.start.empty())
+        line(ys, colour_grid, 2);
+      line(yf, first_line_colour, 1);
+      pls.col0(first_line_colour + 1);
+      pls.schr(0, 0.8);
+      pls.string(int(d.x.size()), d.x.data(), ym.data(), point_glyph);
+      // Lower panel: residuals.
+      pls.vpor(0.12, 0.72, 0.12, 0.36);
+      pls.wind(x_lo, x_hi, r_lo, r_hi);
+      pls.col0(colour_grid);
+      pls.width(0.5);
+      pls.box("g", 0, 0, "g", 0, 0);
+      pls.col0(1);
+      const double zx[] = {x_lo, x_hi}, zy[] = {0, 0};
+      pls.line(2, zx, zy);
+      pls.width(1);
+      pls.box("bcnst", 0, 0, "bcnstv", 0, 0);
+      pls.mtex("b", 3.0, 0.5, 0.5, d.x_label.c_str());
+      pls.mtex("l", 5.0, 0.5, 0.5, "model - data");
+      pls.col0(first_line_colour);
+      std::vector<double> rx, ry;
+      for (std::size_t i = 0; i < res.size(); ++i)
+        if (std::isfinite(res[i]))
+          rx.push_back(d.x[i]), ry.push_back(res[i]);
+      if (!rx.empty())
+        pls.string(int(rx.size()), rx.data(), ry.data(), point_glyph);
+      // Legend in the right margin.
+      pls.vpor(0.74, 0.99, 0.12, 0.92);
+      pls.wind(0, 1, 0, 1);
+      int  row   = 0;
+      auto entry = [&](int colour, const std::string &text) {
+        pls.col0(colour);
+        pls.ptex(0.02, 0.95 - 0.06 * row++, 1, 0, 0, text.c_str());
+      };
+      entry(first_line_colour + 1, "● measured");
+      entry(first_line_colour, "— fitted model");
+      if (!d.start.empty())
+        entry(colour_grid, "- - start values");
+      pls.col0(1);
+    };
+    return both_files(draw_page, stem, warnings);
+  }
+
+  std::vector<std::string>
   write_spectral_plots(const SpectralPlotData &d, const std::string &stem, std::vector<std::string> &warnings)
   {
     if (d.wavelength_nm.size() < 2 || d.curves.empty())

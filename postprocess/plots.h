@@ -66,6 +66,20 @@ namespace backcomb::postprocess
   std::vector<std::string> write_jv_plots(const JVPlotData &data, const std::string &stem,
                                           std::vector<std::string> &warnings);
 
+  // Measured data against the fitted model (upper panel) and the residual
+  // model - measured (lower panel), one data set of a calibration.
+  struct FitPlotData
+  {
+    std::string         title, x_label, y_label;
+    std::vector<double> x, measured, fitted; // fitted NaN where the model did not converge
+    std::vector<double> start;               // the model at the start values (may be empty)
+    bool                log_y = false;       // |y| on a logarithmic axis (dark J-V)
+  };
+
+  // `stem`.svg and `stem`.png, like write_sweep_plots.
+  std::vector<std::string> write_fit_plots(const FitPlotData &data, const std::string &stem,
+                                           std::vector<std::string> &warnings);
+
   // Spectral response: named curves (fractions 0..1) against wavelength.
   struct SpectralPlotData
   {

@@ -593,6 +593,60 @@ namespace backcomb::simulator
     return "";
   }
 
+  namespace
+  {
+    // Sets (value given) or reads (value null) entry `path` of `prm`.
+    std::string
+    visit_entry(dealii::ParameterHandler &prm, const std::string &path, const std::string *value)
+    {
+      std::vector<std::string> parts;
+      std::stringstream        p(path);
+      for (std::string s; std::getline(p, s, '/');)
+        parts.push_back(s);
+      unsigned    depth = 0;
+      std::string found;
+      try
+        {
+          for (std::size_t i = 0; i + 1 < parts.size(); ++i, ++depth)
+            prm.enter_subsection(parts[i]);
+          if (value)
+            prm.set(parts.back(), *value);
+          else
+            found = prm.get(parts.back());
+        }
+      catch (const dealii::ExceptionBase &e)
+        {
+          for (; depth > 0; --depth)
+            prm.leave_subsection();
+          throw InputError("--set " + path, value ? *value : "", override_problem(path, e));
+        }
+      for (; depth > 0; --depth)
+        prm.leave_subsection();
+      return found;
+    }
+
+    void
+    set_entry(dealii::ParameterHandler &prm, const std::string &path, const std::string &value)
+    {
+      visit_entry(prm, path, &value);
+    }
+  } // namespace
+
+  std::string
+  entry_value(const Case &c, const std::string &path)
+  {
+    dealii::ParameterHandler prm;
+    declare_case(prm);
+    std::istringstream in(c.echo);
+    prm.parse_input(in, c.file);
+    for (const auto &o : c.overrides)
+      {
+        const auto [p, v] = split_override(o);
+        set_entry(prm, p, v);
+      }
+    return visit_entry(prm, path, nullptr);
+  }
+
   Case
   read_case(const std::string &file, const std::vector<std::string> &overrides)
   {
@@ -657,25 +711,7 @@ namespace backcomb::simulator
         refuse_old_override(path, value);
         if (!seen.insert(path).second)
           throw InputError("--set " + path, value, "given more than once");
-        std::vector<std::string> parts;
-        std::stringstream        p(path);
-        for (std::string s; std::getline(p, s, '/');)
-          parts.push_back(s);
-        unsigned depth = 0;
-        try
-          {
-            for (std::size_t i = 0; i + 1 < parts.size(); ++i, ++depth)
-              prm.enter_subsection(parts[i]);
-            prm.set(parts.back(), value);
-          }
-        catch (const dealii::ExceptionBase &e)
-          {
-            for (; depth > 0; --depth)
-              prm.leave_subsection();
-            throw InputError("--set " + path, value, override_problem(path, e));
-          }
-        for (; depth > 0; --depth)
-          prm.leave_subsection();
+        set_entry(prm, path, value);
       }
 
     try

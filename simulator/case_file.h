@@ -86,6 +86,10 @@ namespace backcomb::simulator
   Case read_case(std::istream &case_text, const std::string &file,
                  const std::vector<std::string> &overrides);
 
+  // The value of entry `path` ("Section/Name") in the case's text with
+  // its overrides applied, as written (InputError for an unknown entry).
+  std::string entry_value(const Case &c, const std::string &path);
+
   // Splits "Section/Sub/Name=value" into path and value; throws InputError.
   // Why `path` ("Section/Subsection/Name") is not an entry of the case
   // file: an unknown section or entry, with the nearest declared names
