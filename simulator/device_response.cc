@@ -67,7 +67,8 @@ namespace backcomb::simulator
   }
 
   DeviceResponse
-  device_response(const Case &c, const ResponseRequest &r, const std::string &scratch, MPI_Comm comm)
+  device_response(const Case &c, const ResponseRequest &r, const std::string &scratch, MPI_Comm comm,
+                  WarmStart *warm)
   {
     const bool needs_light =
       !r.light_biases.empty() || !r.eqe_wavelengths_nm.empty() || !r.voc_light_factors.empty();
@@ -104,7 +105,22 @@ namespace backcomb::simulator
 
     if (needs_light)
       {
-        const fem::StepReport on = fem::start_state(solver, 1.0, halvings, "light", none);
+        fem::StepReport on;
+        if (warm && warm->light.size() == solver.n_dofs())
+          {
+            solver.set_state(warm->light, 0.0, 1.0);
+            const fem::NewtonReport n = solver.solve(0.0, 1.0);
+            on.converged              = n.converged;
+            on.newton_iterations      = n.iterations;
+          }
+        if (!on.converged)
+          {
+            const unsigned spent = on.newton_iterations;
+            on                   = fem::start_state(solver, 1.0, halvings, "light", none);
+            on.newton_iterations += spent;
+          }
+        if (on.converged && warm)
+          warm->light = solver.state();
         out.newton += on.newton_iterations;
         if (!on.converged)
           out.failures.push_back("light: " + on.diagnostic);
@@ -113,6 +129,11 @@ namespace backcomb::simulator
             fem::JVScan light;
             std::vector<double> biases = r.light_biases;
             biases.push_back(0.0); // the EQE's short circuit
+            if (!r.voc_light_factors.empty())
+              // The case's positive biases: the scan reaches open circuit
+              // (it goes on at most 1 V past its last bias).
+              for (double v = c.jv.step; v < c.jv.stop + 1e-9; v += c.jv.step)
+                biases.push_back(v);
             fem::scan(solver, sorted_unique(biases), false, 1.0, c.jv.step, halvings, light, {}, "light", none);
             out.light_current = currents_at(light, r.light_biases);
             for (const auto &f : light.failures)

@@ -32,13 +32,24 @@ namespace backcomb::simulator
     unsigned                 newton = 0;             // Newton steps spent
   };
 
+  // The state under full light at short circuit of an earlier solve of
+  // the same device (same mesh), the first guess of the next solve with
+  // other parameter values: a converged Newton solve from it replaces the
+  // light ramp from equilibrium (which is the fall-back). Results agree
+  // with a solve from scratch to the Newton tolerance.
+  struct WarmStart
+  {
+    dealii::Vector<double> light;
+  };
+
   // Meshes the case (the mesh file goes to `scratch`, which must exist),
-  // solves what `r` asks for and returns it. Every process of `comm` gets
+  // solves what `r` asks for and returns it (with `warm`, starting from
+  // and updating its state). Every process of `comm` gets
   // the same response. Throws InputError when the case cannot give what is
   // asked (light data for an unlit case, EQE without a spectral model or
   // outside its wavelengths).
   DeviceResponse device_response(const Case &c, const ResponseRequest &r, const std::string &scratch,
-                                 MPI_Comm comm);
+                                 MPI_Comm comm, WarmStart *warm = nullptr);
 
   // The EQE per wavelength of the optical model from a collection map f_c:
   // the pairs of each wavelength weighted by f_c over the absorber, per

@@ -179,6 +179,9 @@ namespace backcomb::study
       std::vector<double>       sigma; // per set, internal unit
       bool                      sigma_given = true;
       std::vector<Device>       devices;
+      // Per device, this rank's last state under light: the first guess of
+      // its next solve of that device.
+      std::vector<simulator::WarmStart> warm;
       std::size_t               n_points = 0;
       std::string               fingerprint;
 
@@ -313,6 +316,7 @@ namespace backcomb::study
             }
           n_points += s.x.size();
         }
+      warm.resize(devices.size());
       if (n_points <= entries.size())
         throw InputError("calibrate: " + std::to_string(n_points) + " data points for " +
                          std::to_string(entries.size()) +
@@ -424,7 +428,7 @@ namespace backcomb::study
           try
             {
               const simulator::Case c = simulator::read_case(o.case_file, overrides_at(d, us[t / devices.size()]));
-              r = simulator::device_response(c, d.request, scratch, MPI_COMM_SELF);
+              r = simulator::device_response(c, d.request, scratch, MPI_COMM_SELF, &warm[t % devices.size()]);
             }
           catch (const std::exception &e)
             {
@@ -851,8 +855,12 @@ namespace backcomb::study
       const double largest_norm = *std::max_element(norm.begin(), norm.end());
       std::vector<bool> identifiable(p, true);
       std::vector<std::string> warnings;
+      // An entry whose column is below 1e-6 of the largest one moves the
+      // data less than the finite differences' noise (solves converged to
+      // the Newton tolerance from different first guesses): the data do
+      // not depend on it.
       for (std::size_t k = 0; k < p; ++k)
-        if (!(norm[k] > 1e-8 * largest_norm) || !(norm[k] > 0))
+        if (!(norm[k] > 1e-6 * largest_norm) || !(norm[k] > 0))
           {
             identifiable[k] = false;
             warnings.push_back(entries[k].path + ": not identifiable: the data do not depend on it");
@@ -927,6 +935,7 @@ namespace backcomb::study
                     {"upper_bound", e.high},
                     {"scaling", e.log ? "log" : "linear"},
                     {"at_bound", at_bound},
+                    {"sensitivity", norm[k]},
                     {"identifiable", bool(identifiable[k])}};
           if (identifiable[k] && std::isfinite(su))
             {
