@@ -64,13 +64,17 @@ namespace backcomb::study
       rec.at_edge = line.size() > 1 && (at == 0 || at + 1 == line.size());
     }
 
-    // The deciding PCE at gap `g`, interpolated linearly between the two
-    // computed gaps of the line around it (the line ordered by gap);
-    // nothing outside the computed gaps or next to a case without a PCE.
+    // The deciding PCE at gap `g`: a computed gap's own, or interpolated
+    // linearly between the two computed gaps of the line around it (the
+    // line ordered by gap); nothing outside the computed gaps or next to a
+    // case without a PCE.
     std::optional<double>
     pce_at_gap(const Recommendation &rec, const std::vector<StudyRow> &rows, const std::vector<std::size_t> &line,
                const double g)
     {
+      for (const auto i : line) // a computed gap itself
+        if (*to_number(rows[i].values[0]) == g)
+          return deciding_pce(rec.criterion, rows[i]);
       for (std::size_t k = 0; k + 1 < line.size(); ++k)
         {
           const double g0 = *to_number(rows[line[k]].values[0]), g1 = *to_number(rows[line[k + 1]].values[0]);
@@ -82,8 +86,6 @@ namespace backcomb::study
             return std::nullopt;
           return *p0 + (*p1 - *p0) * (g - g0) / (g1 - g0);
         }
-      if (line.size() == 1 && g == *to_number(rows[line[0]].values[0]))
-        return deciding_pce(rec.criterion, rows[line[0]]);
       return std::nullopt;
     }
 
@@ -242,10 +244,12 @@ namespace backcomb::study
       if (rec.at_edge)
         text << " The best value lies at the edge of the swept range: extend the sweep beyond it.";
       if (rec.outside_limits > 0)
-        text << " " << rec.outside_limits << " computed case" << (rec.outside_limits > 1 ? "s lie" : " lies")
+        text << " " << rec.outside_limits
+             << (rec.outside_limits > 1 ? " computed cases lie" : " computed case lies")
              << " outside the fabrication limits (Fabrication/Smallest gap "
              << format_number(plan.fabrication.smallest_gap_um, 6) << " to Largest gap "
-             << format_number(plan.fabrication.largest_gap_um, 6) << " um) and are not considered.";
+             << format_number(plan.fabrication.largest_gap_um, 6) << " um) and "
+             << (rec.outside_limits > 1 ? "are" : "is") << " not considered.";
       if (rec.gap_study)
         text << gap_text(plan, rows, rec);
       const auto unfinished = std::count_if(rows.begin(), rows.end(), [](const StudyRow &r) {

@@ -927,9 +927,22 @@ TEST(SweepRecommendation, WidestGapWithinMarginAndWhatLimitsIt)
   EXPECT_EQ(rec.tolerance, ToleranceCheck::fails);
   EXPECT_NEAR(*rec.pce_high, 9.80, 1e-9);
   EXPECT_NE(rec.text.find("does not keep the PCE within 2 %"), std::string::npos) << rec.text;
+  // +/- 20 um: the ends are computed gaps (20 um: 10.045, 60 um: 9.70).
+  plan.fabrication.gap_tolerance_um = 20;
+  rec                               = recommend(plan, rows);
+  EXPECT_EQ(rec.tolerance, ToleranceCheck::fails);
+  EXPECT_DOUBLE_EQ(*rec.pce_low, 10.045);
+  EXPECT_DOUBLE_EQ(*rec.pce_high, 9.70);
   // +/- 50 um: 90 um lies beyond the computed gaps.
   plan.fabrication.gap_tolerance_um = 50;
   EXPECT_EQ(recommend(plan, rows).tolerance, ToleranceCheck::not_known);
+  // The next gap failed: what limits wider gaps is not known.
+  std::vector<StudyRow> failed = rows;
+  failed[4].status             = Status::failed;
+  failed[4].PCE.reset();
+  rec = recommend(plan, failed);
+  EXPECT_EQ(rec.limiting_loss, "");
+  EXPECT_NE(rec.text.find("The next gap, 60 um, has no result"), std::string::npos) << rec.text;
 
   // A wider margin (5 %: limit 9.5475) takes in 60 um; 80 um is next.
   plan.fabrication                   = {};
@@ -938,6 +951,22 @@ TEST(SweepRecommendation, WidestGapWithinMarginAndWhatLimitsIt)
   EXPECT_EQ(*rec.widest, 4u);
   EXPECT_EQ(*rec.beyond, 5u);
   EXPECT_EQ(rec.limiting_loss, ""); // no losses known at 80 um
+}
+
+// Where the margin ends between two gaps whose PCE differ by less than the
+// solve's resolution: 10 um (9.8005) is in, 20 um (9.7995) is out of
+// 0.98 * 10 = 9.8, but they differ by 0.001 < 1e-3 * 10.
+TEST(SweepRecommendation, UnresolvedEndOfTheMargin)
+{
+  StudyPlan plan;
+  plan.entries                     = {{"Geometry/Gap", {"5", "10", "20"}, "um"}};
+  const std::vector<StudyRow> rows = gap_rows(plan, {10.0, 9.8005, 9.7995}, {});
+  const Recommendation        rec  = recommend(plan, rows);
+  EXPECT_EQ(*rec.widest, 1u);
+  EXPECT_EQ(*rec.beyond, 2u);
+  EXPECT_TRUE(rec.limit_unresolved);
+  EXPECT_TRUE(rec.inseparable.empty());
+  EXPECT_NE(rec.text.find("10 um and 20 um cannot be told apart"), std::string::npos) << rec.text;
 }
 
 // The recommendation never lies outside the fabrication limits, and with a
