@@ -8,6 +8,8 @@
 
 #include <deal.II/base/parameter_handler.h>
 
+#include <algorithm>
+#include <cmath>
 #include <cstring>
 #include <set>
 #include <sstream>
