@@ -1,6 +1,6 @@
 # Bash completion for backcomb: the commands, each command's options, case
-# files (*.prm) and folders, and the case-file entry paths after --set and
-# --vary, also inside an opened quote: --set "Absorber/<TAB>.
+# files (*.prm) and folders, and the case-file entry paths after --set,
+# --vary and --in-step, also inside an opened quote: --set "Absorber/<TAB>.
 #
 # Load it in a shell:  source app/backcomb-completion.bash
 # or install it (cmake --install) to share/bash-completion/completions/.
@@ -13,7 +13,7 @@ _backcomb_options()
     template) echo "--paths --help" ;;
     mesh) echo "--set --out --quiet --help" ;;
     solve) echo "--set --out --quiet --log --help" ;;
-    sweep) echo "--vary --set --out --quiet --task --of --retry-failed --help" ;;
+    sweep) echo "--vary --in-step --set --out --quiet --task --of --retry-failed --help" ;;
     upgrade) echo "--help" ;;
     merge) echo "--quiet --help" ;;
   esac
@@ -57,7 +57,7 @@ _backcomb()
   fi
   local command=${COMP_WORDS[1]}
   case $prev in
-    --set | --vary)
+    --set | --vary | --in-step)
       _backcomb_entry_paths "${COMP_WORDS[0]}" "$cur"
       return
       ;;

@@ -55,6 +55,8 @@ namespace
     "  --vary \"Section/Name=VALUES\" swept entry; VALUES is a comma list of values,\n"
     "                               start:stop:step and start:stop:xN (N values,\n"
     "                               constant ratio); a second --vary makes a grid\n"
+    "  --in-step \"Section/Name=VALUES\" entry that moves with the --vary before it:\n"
+    "                               as many values, the i-th with its i-th (no new cases)\n"
     "  --task I --of N              run only share I (1..N) of the cases, no merge\n"
     "  --retry-failed               recompute cases that failed before\n"
     "\n"
@@ -103,17 +105,21 @@ namespace
      "  --quiet                      no progress lines (the final report stays)\n"
      "  --log FILE                   also write the progress lines, with times, to FILE\n"},
     {"sweep",
-     "usage: backcomb sweep CASE.prm --vary \"Section/Name=VALUES\" [--vary ...]\n"
+     "usage: backcomb sweep CASE.prm --vary \"Section/Name=VALUES\" [--in-step ...] [--vary ...]\n"
      "                     [--set \"Section/Name=value\"]... [--out FOLDER] [--quiet]\n"
      "                     [--task I --of N] [--retry-failed]\n"
      "\n"
      "Solves every case of the grid (one folder per case under FOLDER/cases), then\n"
      "writes FOLDER/sweep.csv, FOLDER/sweep.json, FOLDER/sweep.svg/.png, the ParaView\n"
      "collections and FOLDER/view_in_paraview.py (one time step per swept value).\n"
+     "The case file's Fabrication section (gap limits, tolerance, near-best margin,\n"
+     "cost per gap) shapes the recommendation.\n"
      "\n"
      "  --vary \"Section/Name=VALUES\" swept entry; VALUES is a comma list of values,\n"
      "                               start:stop:step and start:stop:xN (N values,\n"
      "                               constant ratio); a second --vary makes a grid\n"
+     "  --in-step \"Section/Name=VALUES\" entry that moves with the --vary before it:\n"
+     "                               as many values, the i-th with its i-th (no new cases)\n"
      "  --set \"Section/Name=value\"  override one case-file entry (repeatable)\n"
      "  --out FOLDER                 results folder (default: Output/Folder)\n"
      "  --quiet                      no progress lines\n"
@@ -168,6 +174,7 @@ namespace
   {
     std::string              command, case_file, out, log;
     std::vector<std::string> overrides, vary;
+    std::vector<study::InStepArgument> in_step; // each after the --vary it moves with
     bool                     quiet = false, retry_failed = false, paths = false;
     unsigned                 task = 0, tasks = 0;
     std::vector<std::string> data, fit; // calibrate
@@ -203,6 +210,8 @@ namespace
           a.paths = true;
         else if (s == "--vary" && i + 1 < argc)
           a.vary.push_back(argv[++i]);
+        else if (s == "--in-step" && i + 1 < argc)
+          a.in_step.push_back({a.vary.size(), argv[++i]});
         else if (s == "--retry-failed")
           a.retry_failed = true;
         else if ((s == "--data" || s == "--fit" || s == "--loss") && i + 1 < argc && a.command == "calibrate")
@@ -239,10 +248,10 @@ namespace
         std::fprintf(stderr, "backcomb: --task I and --of N go together, with 1 <= I <= N\n");
         return false;
       }
-    const bool sweep_options = !a.vary.empty() || a.tasks > 0 || a.retry_failed;
+    const bool sweep_options = !a.vary.empty() || !a.in_step.empty() || a.tasks > 0 || a.retry_failed;
     if (sweep_options && a.command != "sweep")
       {
-        std::fprintf(stderr, "backcomb: --vary, --task, --of and --retry-failed belong to 'sweep'\n");
+        std::fprintf(stderr, "backcomb: --vary, --in-step, --task, --of and --retry-failed belong to 'sweep'\n");
         return false;
       }
     if (!a.log.empty() && a.command != "solve")
@@ -400,7 +409,7 @@ main(int argc, char **argv)
           // Every rank checks the whole grid: the same input gives every
           // rank the same error, so all stop alike before anything is written.
           const study::StudyPlan plan =
-            study::make_plan(args.case_file, args.overrides, args.vary);
+            study::make_plan(args.case_file, args.overrides, args.vary, args.in_step);
           study::StudyOptions options;
           options.folder = args.out.empty()
                              ? simulator::read_case(args.case_file, args.overrides).output.folder

@@ -458,7 +458,76 @@ namespace backcomb::simulator
       "Power balance biases", "", "V", bias_range, 1000,
       "Biases (within the J-V scan) at which the power balance is reported besides short "
       "circuit, maximum power point and open circuit"};
+
+    // Section "Fabrication": read only by a sweep's recommendation, which
+    // applies the limits to Geometry/Gap.
+    const FabricationSettings fabrication_defaults;
+    const std::string         fabrication = "Fabrication";
+    const NumberEntry         smallest_gap{
+      "Smallest gap", fabrication_defaults.smallest_gap_um, "um", Range::closed(0, 10000),
+      "Narrowest gap between the fingers that the patterning process makes; a sweep recommends no "
+      "narrower gap (0: no lower limit)"};
+    const NumberEntry largest_gap{
+      "Largest gap", fabrication_defaults.largest_gap_um, "um", Range::above(0, 10000),
+      "Widest gap between the fingers that the patterning process makes; a sweep recommends no wider "
+      "gap (the default sets no practical limit); not below Smallest gap"};
+    const NumberEntry gap_tolerance{
+      "Gap tolerance", fabrication_defaults.gap_tolerance_um, "um", Range::closed(0, 1000),
+      "The made gap lies within the drawn gap +/- this; a sweep checks that the PCE stays within the "
+      "near-best margin over that interval (0: not checked)"};
+    const NumberEntry near_best_margin{
+      "Near-best margin", fabrication_defaults.near_best_percent, "%", Range::above(0, 50),
+      "A sweep's preference: the widest gap whose PCE lies within this relative margin of the best PCE"};
+
+    // "5:3, 20:1.5, 50:1": gap (um) and relative cost pairs, gaps
+    // increasing.
+    std::vector<std::pair<double, double>>
+    parse_gap_cost(const std::string &text)
+    {
+      const std::string                      path = fabrication + "/Cost per gap";
+      std::vector<std::pair<double, double>> pairs;
+      if (trim(text).empty())
+        return pairs;
+      for (const auto &item : split(text, ','))
+        {
+          const auto colon = item.find(':');
+          char      *end_gap = nullptr, *end_cost = nullptr;
+          const std::string gap_text  = trim(item.substr(0, colon));
+          const std::string cost_text = colon == std::string::npos ? "" : trim(item.substr(colon + 1));
+          const double      gap       = std::strtod(gap_text.c_str(), &end_gap);
+          const double      cost      = std::strtod(cost_text.c_str(), &end_cost);
+          if (colon == std::string::npos || gap_text.empty() || cost_text.empty() || *end_gap != '\0' ||
+              *end_cost != '\0' || !std::isfinite(gap) || !std::isfinite(cost))
+            throw InputError(path, text, "expected a comma list of gap:cost pairs (um, relative), not '" +
+                                           trim(item) + "'");
+          if (!(gap > 0) || !(cost >= 0))
+            throw InputError(path, text, "in '" + trim(item) + "' the gap must be > 0 um and the cost >= 0");
+          if (!pairs.empty() && !(gap > pairs.back().first))
+            throw InputError(path, text, "the gaps must increase from pair to pair");
+          if (pairs.size() == 1000)
+            throw InputError(path, text, "more than 1000 pairs");
+          pairs.emplace_back(gap, cost);
+        }
+      return pairs;
+    }
   } // namespace
+
+  double
+  FabricationSettings::cost_at(const double gap_um) const
+  {
+    if (gap_cost.empty())
+      return 1;
+    if (gap_um <= gap_cost.front().first)
+      return gap_cost.front().second;
+    for (std::size_t i = 1; i < gap_cost.size(); ++i)
+      if (gap_um <= gap_cost[i].first)
+        {
+          const auto [g0, c0] = gap_cost[i - 1];
+          const auto [g1, c1] = gap_cost[i];
+          return c0 + (c1 - c0) * (gap_um - g0) / (g1 - g0);
+        }
+    return gap_cost.back().second;
+  }
 
   void
   declare_case(dealii::ParameterHandler &prm)
@@ -513,6 +582,18 @@ namespace backcomb::simulator
                  "Besides the EQE under the case's light (differential, at short circuit), write the "
                  "linear-response EQE of the cell in the dark (eqe.csv column EQE_no_bias_light; one more "
                  "adjoint solve).");
+    prm.leave_subsection();
+
+    prm.enter_subsection(fabrication);
+    declare(prm, fabrication, smallest_gap);
+    declare(prm, fabrication, largest_gap);
+    declare(prm, fabrication, gap_tolerance);
+    declare(prm, fabrication, near_best_margin);
+    declare_text(prm, fabrication, "Cost per gap", "", Anything(), "",
+                 "Relative cost of making a gap, as gap:cost pairs with the gap in um, increasing "
+                 "(\"5:3, 20:1.5, 50:1\"); linear between the pairs, constant beyond the first and "
+                 "the last. With a cost, a sweep recommends the cheapest gap within the near-best margin "
+                 "(the wider one of equal cost); empty: no cost, the widest such gap.");
     prm.leave_subsection();
   }
 
@@ -770,6 +851,17 @@ namespace backcomb::simulator
         };
         check_within_scan(field_biases, c.output.field_biases);
         check_within_scan(power_balance_biases, c.output.loss_biases);
+        prm.leave_subsection();
+
+        prm.enter_subsection(fabrication);
+        c.fabrication.smallest_gap_um   = get(prm, fabrication, smallest_gap);
+        c.fabrication.largest_gap_um    = get(prm, fabrication, largest_gap);
+        c.fabrication.gap_tolerance_um  = get(prm, fabrication, gap_tolerance);
+        c.fabrication.near_best_percent = get(prm, fabrication, near_best_margin);
+        c.fabrication.gap_cost          = parse_gap_cost(prm.get("Cost per gap"));
+        if (c.fabrication.largest_gap_um < c.fabrication.smallest_gap_um)
+          throw InputError(fabrication + "/Largest gap", prm.get("Largest gap"),
+                           "must not be below Smallest gap = " + prm.get("Smallest gap") + " um");
         prm.leave_subsection();
 
         // Contradictions between sections.

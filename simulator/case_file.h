@@ -9,6 +9,7 @@
 #include "fem/material.h"
 #include "fem/optics.h"
 #include "geometry/parameters.h"
+#include "simulator/fabrication.h"
 
 #include <deal.II/base/parameter_handler.h>
 
@@ -64,6 +65,7 @@ namespace backcomb::simulator
     DeviceSettings               device;
     JVSettings                   jv;
     OutputSettings               output;
+    FabricationSettings          fabrication;
     std::vector<std::string>     overrides;
   };
 

@@ -83,6 +83,41 @@ namespace backcomb::study
       return (w && w->is_array()) ? double(w->size()) : 0.0;
     }
 
+    // The loss parts of a summary (loss_parts()), those it has.
+    std::map<std::string, double>
+    read_loss_parts(const json &summary)
+    {
+      std::map<std::string, double> parts;
+      const json *terms = node_at(summary, {"losses", "points", "max_power", "terms"});
+      if (terms && terms->is_object())
+        {
+          const auto term = [&](const std::string &name) { return number_at(*terms, {name}); };
+          double     bulk = 0;
+          bool       any_bulk = false;
+          for (const auto &[name, value] : terms->items())
+            if (name.rfind("bulk_", 0) == 0 && value.is_number())
+              bulk += value.get<double>(), any_bulk = true;
+          if (any_bulk)
+            parts["bulk_recombination"] = bulk;
+          if (const auto v = term("gap_interface"))
+            parts["gap_interface_recombination"] = *v;
+          if (const auto v = term("top_surface"))
+            parts["top_surface_recombination"] = *v;
+          const auto h = term("holes_at_electron_comb"), e = term("electrons_at_hole_comb");
+          if (h && e)
+            parts["minority_carriers_at_combs"] = *h + *e;
+        }
+      const std::vector<std::pair<std::string, std::vector<std::string>>> direct = {
+        {"film_joule", {"losses", "points", "max_power", "split", "film_joule"}},
+        {"comb_extraction", {"losses", "points", "max_power", "split", "contacts"}},
+        {"finger_resistance", {"losses", "electrodes_at_cell_max_power", "fingers"}},
+        {"contact_resistance", {"losses", "electrodes_at_cell_max_power", "contact_resistance"}}};
+      for (const auto &[key, path] : direct)
+        if (const auto v = number_at(summary, path))
+          parts[key] = *v;
+      return parts;
+    }
+
     // A column whose JSON key is its CSV header, read from nowhere yet.
     Column &
     add(std::vector<Column> &table, const std::string &csv_header, const std::string &unit,
@@ -161,6 +196,21 @@ namespace backcomb::study
       return t;
     }
   } // namespace
+
+  const std::vector<LossPart> &
+  loss_parts()
+  {
+    static const std::vector<LossPart> parts = {
+      {"gap_interface_recombination", "recombination at the gap interface"},
+      {"bulk_recombination", "recombination in the absorber"},
+      {"top_surface_recombination", "recombination at the top surface"},
+      {"minority_carriers_at_combs", "minority carriers lost at the combs"},
+      {"film_joule", "the film's resistance (Joule heat)"},
+      {"comb_extraction", "carriers crossing the combs"},
+      {"finger_resistance", "the fingers' resistance"},
+      {"contact_resistance", "the combs' contact resistance"}};
+    return parts;
+  }
 
   const std::vector<Column> &
   columns()
@@ -275,5 +325,7 @@ namespace backcomb::study
       if (!c.metric || row.status != Status::failed)
         if (c.summary_reader || !c.summary_path.empty())
           row.*c.field = c.from_summary(summary);
+    if (row.status != Status::failed)
+      row.loss_parts = read_loss_parts(summary);
   }
 } // namespace backcomb::study

@@ -16,6 +16,7 @@
 
 #include <nlohmann/json.hpp>
 
+#include <map>
 #include <optional>
 #include <string>
 #include <vector>
@@ -50,7 +51,24 @@ namespace backcomb::study
     // summary.json "bounds" (simulator/bounds.h): results outside a
     // physical bound, and all warnings (bounds and mesh guard rails).
     std::optional<double> bound_violations, warnings;
+    // The gap between the fingers (from the plan, not a column: it is the
+    // varied entry or a fixed one), for the fabrication limits.
+    std::optional<double> gap_um;
+    // Power lost at the maximum power point per mechanism, mW/cm^2 of
+    // footprint, keyed by LossPart::key (summary.json "losses"; only the
+    // parts the case has): what the recommendation compares between gaps.
+    std::map<std::string, double> loss_parts;
   };
+
+  // A mechanism of loss in StudyRow::loss_parts: its key (also in
+  // sweep.json) and its name in the recommendation's sentence.
+  struct LossPart
+  {
+    std::string key, words;
+  };
+
+  // Every LossPart, in the order the recommendation lists them.
+  const std::vector<LossPart> &loss_parts();
 
   struct Column
   {

@@ -263,8 +263,11 @@ namespace backcomb::study
     {
       std::printf("sweep: %zu cases", plan.cases.size());
       for (const auto &e : plan.entries)
-        std::printf("%s %s (%zu values)", &e == &plan.entries.front() ? " over" : " x", e.path.c_str(),
-                    e.values.size());
+        if (e.is_axis())
+          std::printf("%s %s (%zu values)", &e == &plan.entries.front() ? " over" : " x", e.path.c_str(),
+                      e.values.size());
+        else
+          std::printf(" with %s in step", e.path.c_str());
       if (o.tasks > 0)
         std::printf("; task %u of %u: %zu cases", o.task, o.tasks, share_size);
       std::printf("; %zu to run on %d process%s; results in %s\n", to_run, size, size > 1 ? "es" : "",

@@ -87,7 +87,7 @@ namespace backcomb::study
     std::vector<std::string>
     write_field_collections(const std::string &folder, const StudyPlan &plan, const std::vector<StudyRow> &rows)
     {
-      const bool by_value = plan.entries.size() == 1 && all_numeric(plan.entries[0].values);
+      const bool by_value = axis_count(plan) == 1 && all_numeric(plan.entries[0].values);
       std::map<std::string, std::vector<std::pair<double, std::string>>> by_bias;
       for (std::size_t i = 0; i < rows.size(); ++i)
         {
@@ -130,7 +130,7 @@ namespace backcomb::study
     json
     write_view_collections(const std::string &folder, const StudyPlan &plan, const std::vector<StudyRow> &rows)
     {
-      const bool by_value = plan.entries.size() == 1 && all_numeric(plan.entries[0].values);
+      const bool by_value = axis_count(plan) == 1 && all_numeric(plan.entries[0].values);
       std::vector<postprocess::PvdDataSet> collection, max_power, fingers;
       json                                 cases = json::array(), times = json::array();
       for (std::size_t i = 0; i < rows.size(); ++i)
@@ -199,13 +199,19 @@ namespace backcomb::study
         data.pce_label = "PCE of the comb cell (%)";
       const std::string unit = plan.entries[0].unit == "um" ? "µm" : plan.entries[0].unit;
       data.x_label           = plan.entries[0].path + (unit.empty() ? "" : " (" + unit + ")");
+      // Entries that move with the first one: named on the axis.
+      for (std::size_t k = 1; k < plan.entries.size(); ++k)
+        if (plan.entries[k].in_step_with == plan.entries[0].path)
+          data.x_label += ", with " + last_component(plan.entries[k].path) + " in step";
       for (const auto &line : lines_of(plan, rows))
         {
           postprocess::PlotSeries s;
-          // Legend text: "Name = value unit" of the other entries.
+          // Legend text: "Name = value unit" of the other entries, but not
+          // of those that move with the first one (along the line).
           for (std::size_t k = 1; k < plan.entries.size(); ++k)
-            s.label += (k > 1 ? ", " : "") + last_component(plan.entries[k].path) + " = " +
-                       with_unit(rows[line.front()].values[k], plan.entries[k].unit);
+            if (plan.entries[k].in_step_with != plan.entries[0].path)
+              s.label += (s.label.empty() ? "" : ", ") + last_component(plan.entries[k].path) + " = " +
+                         with_unit(rows[line.front()].values[k], plan.entries[k].unit);
           for (const auto i : line)
             {
               s.x.push_back(*to_number(rows[i].values[0]));
@@ -220,9 +226,63 @@ namespace backcomb::study
           data.best_pce    = deciding_pce(rec.criterion, rows[rec.best]);
           data.range_from  = to_number(rows[rec.near_best.front()].values[0]);
           data.range_to    = to_number(rows[rec.near_best.back()].values[0]);
-          data.range_label = "within " + format_number(100 * near_best_tolerance, 3) + " % of the highest PCE";
+          data.range_label = "within " + format_number(100 * rec.margin, 3) + " % of the highest PCE";
         }
       return postprocess::write_sweep_plots(data, folder + "/sweep", warnings);
+    }
+
+    // The gap to make and why (a study whose first entry is the gap).
+    json
+    gap_json(const StudyPlan &plan, const std::vector<StudyRow> &rows, const Recommendation &rec)
+    {
+      const auto gap     = [&](std::size_t i) { return json_number(to_number(rows[i].values[0])); };
+      const auto pce     = [&](std::size_t i) { return json_number(deciding_pce(rec.criterion, rows[i])); };
+      json       tol     = {{"tolerance_um", plan.fabrication.gap_tolerance_um},
+                            {"method", "deciding PCE interpolated linearly between the computed gaps at gap -/+ "
+                                       "tolerance"},
+                            {"PCE_low_percent", json_number(rec.pce_low)},
+                            {"PCE_high_percent", json_number(rec.pce_high)}};
+      switch (rec.tolerance)
+        {
+          case ToleranceCheck::not_asked: tol["result"] = "not asked"; break;
+          case ToleranceCheck::holds: tol["result"] = "within the margin"; break;
+          case ToleranceCheck::fails: tol["result"] = "outside the margin"; break;
+          case ToleranceCheck::not_known: tol["result"] = "not known"; break;
+        }
+      json inseparable = json::array();
+      for (const auto i : rec.inseparable)
+        inseparable.push_back(gap(i));
+      json limit = nullptr;
+      if (rec.beyond)
+        {
+          limit = {{"next_gap_um", gap(*rec.beyond)},
+                   {"next_gap_PCE_percent", pce(*rec.beyond)},
+                   {"next_gap_outside_limits", rec.beyond_outside_limits},
+                   {"unresolved", rec.limit_unresolved},
+                   {"loss", rec.limiting_loss.empty() ? json(nullptr) : json(rec.limiting_loss)},
+                   {"growth_mW_per_cm2", rec.limiting_loss.empty() ? json(nullptr) : json(rec.limiting_growth)}};
+          json growth = json::object();
+          for (const auto &part : loss_parts())
+            {
+              const auto a = rows[rec.best].loss_parts.find(part.key);
+              const auto b = rows[*rec.beyond].loss_parts.find(part.key);
+              if (a != rows[rec.best].loss_parts.end() && b != rows[*rec.beyond].loss_parts.end())
+                growth[part.key] = b->second - a->second;
+            }
+          limit["growth_by_loss_mW_per_cm2"] = growth;
+        }
+      return {{"best_gap_um", gap(rec.best)},
+              {"widest_near_best_gap_um", gap(*rec.widest)},
+              {"recommended_gap_um", gap(*rec.chosen)},
+              {"recommended_case", rows[*rec.chosen].id},
+              {"recommended_PCE_percent", pce(*rec.chosen)},
+              {"recommended_relative_cost", plan.fabrication.gap_cost.empty()
+                                              ? json(nullptr)
+                                              : json(plan.fabrication.cost_at(*to_number(rows[*rec.chosen].values[0])))},
+              {"gap_tolerance_check", tol},
+              {"inseparable_from_best_gap_um", inseparable},
+              {"solve_resolution_relative", solve_resolution},
+              {"what_sets_the_limit", limit}};
     }
 
     json
@@ -237,18 +297,27 @@ namespace backcomb::study
       json near = json::array();
       for (const auto i : rec.near_best)
         near.push_back(rows[i].id);
-      return {{"text", rec.text},
+      json j = {{"text", rec.text},
               {"best_case", best.id},
               {"best_values", best_values},
               {"PCE_percent", json_number(best.PCE)},
               {"PCE_cell_percent", json_number(best.PCE_cell)},
               {"collection_efficiency", json_number(best.collection_efficiency)},
               {"criterion", criterion_text(rec.criterion)},
-              {"tolerance_relative", near_best_tolerance},
+              {"tolerance_relative", rec.margin},
               {"near_best_cases", near},
               {"near_best_from", rows[rec.near_best.front()].values[0]},
               {"near_best_to", rows[rec.near_best.back()].values[0]},
               {"best_at_edge_of_range", rec.at_edge}};
+      const auto &fab  = plan.fabrication;
+      j["fabrication"] = {{"smallest_gap_um", fab.smallest_gap_um},
+                          {"largest_gap_um", fab.largest_gap_um},
+                          {"gap_tolerance_um", fab.gap_tolerance_um},
+                          {"near_best_percent", fab.near_best_percent},
+                          {"gap_cost", fab.gap_cost},
+                          {"cases_outside_limits", rec.outside_limits}};
+      j["gap"] = rec.gap_study ? gap_json(plan, rows, rec) : json(nullptr);
+      return j;
     }
 
     std::map<std::string, std::size_t>
@@ -329,7 +398,10 @@ namespace backcomb::study
     j["sets"]      = plan.sets;
     j["entries"]   = json::array();
     for (const auto &e : plan.entries)
-      j["entries"].push_back({{"path", e.path}, {"unit", e.unit}, {"values", e.values}});
+      j["entries"].push_back({{"path", e.path},
+                              {"unit", e.unit},
+                              {"values", e.values},
+                              {"in_step_with", e.is_axis() ? json(nullptr) : json(e.in_step_with)}});
     j["pitch_definition"] = "w_e + w_h + 2 gap: centre to centre of neighbouring fingers of the same polarity";
     j["counts"]           = status_counts(rows);
     j["cases"]            = json::array();

@@ -8,6 +8,8 @@
 
 #include <deal.II/base/parameter_handler.h>
 
+#include <algorithm>
+#include <cmath>
 #include <cstring>
 #include <set>
 #include <sstream>
@@ -74,31 +76,76 @@ namespace backcomb::study
       return out;
     }
 
-    // The --vary entries, checked against the case file and the --set list,
-    // with their units.
+    // One --vary or --in-step entry checked against the case file and the
+    // --set list, with its unit.
+    StudyEntry
+    checked_entry(const std::set<std::string> &fixed, const std::string &option, const std::string &text)
+    {
+      StudyEntry e = parse_vary(text, option);
+      if (!is_case_entry(e.path))
+        {
+          const std::string why = unknown_entry_reason(e.path);
+          throw InputError(option + " " + e.path, e.values.front(),
+                           why.empty() ? "unknown entry (print every entry with 'backcomb template')" : why);
+        }
+      if (fixed.count(e.path))
+        throw InputError(option + " " + e.path, e.values.front(), "is also given with --set");
+      if (e.path.rfind("Fabrication/", 0) == 0)
+        throw InputError(option + " " + e.path, e.values.front(),
+                         "the Fabrication section applies to the whole sweep; give it with --set");
+      e.unit = entry_unit(e.path);
+      return e;
+    }
+
+    // The --vary entries in order, each followed by its --in-step entries.
     std::vector<StudyEntry>
-    varied_entries(const std::vector<std::string> &sets, const std::vector<std::string> &vary)
+    varied_entries(const std::vector<std::string>    &sets,
+                   const std::vector<std::string>    &vary,
+                   const std::vector<InStepArgument> &in_step)
     {
       std::set<std::string> fixed;
       for (const auto &s : sets)
         fixed.insert(split_override(s).first);
-      std::vector<StudyEntry> entries;
+      std::vector<StudyEntry> axes;
       for (const auto &v : vary)
         {
-          StudyEntry e = parse_vary(v);
-          if (!is_case_entry(e.path))
-            {
-              const std::string why = unknown_entry_reason(e.path);
-              throw InputError("--vary " + e.path, e.values.front(),
-                               why.empty() ? "unknown entry (print every entry with 'backcomb template')" : why);
-            }
-          if (fixed.count(e.path))
-            throw InputError("--vary " + e.path, e.values.front(), "is also given with --set");
-          for (const auto &other : entries)
+          StudyEntry e = checked_entry(fixed, "--vary", v);
+          for (const auto &other : axes)
             if (other.path == e.path)
               throw InputError("--vary " + e.path, e.values.front(), "is given with --vary more than once");
-          e.unit = entry_unit(e.path);
-          entries.push_back(std::move(e));
+          axes.push_back(std::move(e));
+        }
+      std::vector<std::vector<StudyEntry>> linked(axes.size());
+      for (const auto &arg : in_step)
+        {
+          StudyEntry        e     = checked_entry(fixed, "--in-step", arg.text);
+          const std::string where = "--in-step " + e.path;
+          if (arg.after_vary == 0 || arg.after_vary > axes.size())
+            throw InputError(where, e.values.front(), "must follow the --vary entry it moves with");
+          const StudyEntry &axis = axes[arg.after_vary - 1];
+          if (axis.path == e.path)
+            throw InputError(where, e.values.front(), "is linked to itself (it is the --vary entry before it)");
+          for (const auto &other : axes)
+            if (other.path == e.path)
+              throw InputError(where, e.values.front(), "is also given with --vary");
+          for (const auto &l : linked)
+            for (const auto &other : l)
+              if (other.path == e.path)
+                throw InputError(where, e.values.front(),
+                                 "is given with --in-step more than once (linked to " + other.in_step_with + ")");
+          if (e.values.size() != axis.values.size())
+            throw InputError(where, e.values.front(),
+                             "has " + std::to_string(e.values.size()) + " values, but the --vary entry " + axis.path +
+                               " it moves with has " + std::to_string(axis.values.size()));
+          e.in_step_with = axis.path;
+          linked[arg.after_vary - 1].push_back(std::move(e));
+        }
+      std::vector<StudyEntry> entries;
+      for (std::size_t k = 0; k < axes.size(); ++k)
+        {
+          entries.push_back(std::move(axes[k]));
+          for (auto &l : linked[k])
+            entries.push_back(std::move(l));
         }
       return entries;
     }
@@ -128,8 +175,11 @@ namespace backcomb::study
         {
           const Case checked = read_case(plan.case_file, c.overrides);
           if (checked.geometry.layout == geometry::GeometryParameters::Layout::comb_period)
-            c.pitch_um = checked.geometry.electron_finger_width_um + checked.geometry.hole_finger_width_um +
-                         2 * checked.geometry.gap_um;
+            {
+              c.pitch_um = checked.geometry.electron_finger_width_um + checked.geometry.hole_finger_width_um +
+                           2 * checked.geometry.gap_um;
+              c.gap_um = checked.geometry.gap_um;
+            }
         }
       catch (const InputError &e)
         {
@@ -138,24 +188,29 @@ namespace backcomb::study
           for (const auto &entry : plan.entries)
             for (std::size_t at = message.find("--set " + entry.path); at != std::string::npos;
                  at = message.find("--set " + entry.path, at + 1))
-              message.replace(at, 5, "--vary");
+              message.replace(at, 5, entry.is_axis() ? "--vary" : "--in-step");
           throw InputError("grid point " + c.id + ": " + message);
         }
     }
 
     // Grid point `index` of the cartesian product, the first entry varying
-    // fastest.
+    // fastest; an --in-step entry at the position of its --vary entry,
+    // which comes before it.
     StudyCase
     grid_point(const StudyPlan &plan, const std::vector<std::string> &names, const std::size_t index)
     {
-      StudyCase c;
+      StudyCase   c;
       c.overrides      = plan.sets;
-      std::size_t rest = index;
+      std::size_t rest = index, position = 0;
       for (std::size_t k = 0; k < plan.entries.size(); ++k)
         {
-          const auto &e     = plan.entries[k];
-          const auto &value = e.values[rest % e.values.size()];
-          rest /= e.values.size();
+          const auto &e = plan.entries[k];
+          if (e.is_axis())
+            {
+              position = rest % e.values.size();
+              rest /= e.values.size();
+            }
+          const auto &value = e.values[position];
           c.values.push_back(value);
           c.overrides.push_back(e.path + "=" + value);
           c.id += (k ? "__" : "") + names[k] + "=" + sanitised(value);
@@ -164,8 +219,18 @@ namespace backcomb::study
     }
   } // namespace
 
+  std::size_t
+  axis_count(const StudyPlan &plan)
+  {
+    return std::size_t(
+      std::count_if(plan.entries.begin(), plan.entries.end(), [](const StudyEntry &e) { return e.is_axis(); }));
+  }
+
   StudyPlan
-  make_plan(const std::string &case_file, const std::vector<std::string> &sets, const std::vector<std::string> &vary)
+  make_plan(const std::string                 &case_file,
+            const std::vector<std::string>    &sets,
+            const std::vector<std::string>    &vary,
+            const std::vector<InStepArgument> &in_step)
   {
     if (vary.empty())
       throw InputError("--vary", "", "a sweep needs at least one --vary \"Section/Name=values\"");
@@ -174,16 +239,19 @@ namespace backcomb::study
     plan.sets      = sets;
     // The case with the common overrides: checks the file and the --set
     // list once, with their own messages.
-    plan.case_text = read_case(case_file, sets).echo;
-    plan.entries   = varied_entries(sets, vary);
+    const Case common = read_case(case_file, sets);
+    plan.case_text    = common.echo;
+    plan.fabrication  = common.fabrication;
+    plan.entries      = varied_entries(sets, vary, in_step);
 
     std::size_t total = 1;
     for (const auto &e : plan.entries)
-      {
-        total *= e.values.size();
-        if (total > max_cases)
-          throw InputError("--vary", e.path, "the grid has more than 100000 cases");
-      }
+      if (e.is_axis())
+        {
+          total *= e.values.size();
+          if (total > max_cases)
+            throw InputError("--vary", e.path, "the grid has more than 100000 cases");
+        }
 
     const std::vector<std::string> names = folder_names(plan.entries);
     std::set<std::string>          ids;
@@ -216,13 +284,26 @@ namespace backcomb::study
     j["sets"]      = plan.sets;
     j["entries"]   = json::array();
     for (const auto &e : plan.entries)
-      j["entries"].push_back({{"path", e.path}, {"unit", e.unit}, {"values", e.values}});
-    j["cases"] = json::array();
+      {
+        json entry = {{"path", e.path}, {"unit", e.unit}, {"values", e.values}};
+        if (!e.is_axis())
+          entry["in_step_with"] = e.in_step_with;
+        j["entries"].push_back(entry);
+      }
+    const auto number = [](double v) { return std::isfinite(v) ? json(v) : json(nullptr); };
+    j["cases"]        = json::array();
     for (const auto &c : plan.cases)
       j["cases"].push_back({{"id", c.id},
                             {"values", c.values},
                             {"overrides", c.overrides},
-                            {"pitch_um", std::isfinite(c.pitch_um) ? json(c.pitch_um) : json(nullptr)}});
+                            {"pitch_um", number(c.pitch_um)},
+                            {"gap_um", number(c.gap_um)}});
+    const auto &f     = plan.fabrication;
+    j["fabrication"] = {{"smallest_gap_um", f.smallest_gap_um},
+                        {"largest_gap_um", f.largest_gap_um},
+                        {"gap_tolerance_um", f.gap_tolerance_um},
+                        {"near_best_percent", f.near_best_percent},
+                        {"gap_cost", f.gap_cost}};
     return j;
   }
 
@@ -240,7 +321,21 @@ namespace backcomb::study
         for (const auto &e : j.at("entries"))
           plan.entries.push_back({e.at("path").get<std::string>(),
                                   e.at("values").get<std::vector<std::string>>(),
-                                  e.at("unit").get<std::string>()});
+                                  e.at("unit").get<std::string>(),
+                                  e.value("in_step_with", std::string())});
+        // A plan written before linked entries and fabrication limits
+        // has neither: no link, the default limits.
+        if (plan.entries.empty() || !plan.entries.front().is_axis())
+          throw InputError(file + ": damaged sweep plan (no --vary entry first)");
+        if (j.contains("fabrication"))
+          {
+            const json &f                         = j.at("fabrication");
+            plan.fabrication.smallest_gap_um      = f.at("smallest_gap_um").get<double>();
+            plan.fabrication.largest_gap_um       = f.at("largest_gap_um").get<double>();
+            plan.fabrication.gap_tolerance_um     = f.at("gap_tolerance_um").get<double>();
+            plan.fabrication.near_best_percent    = f.at("near_best_percent").get<double>();
+            plan.fabrication.gap_cost = f.at("gap_cost").get<std::vector<std::pair<double, double>>>();
+          }
         for (const auto &c : j.at("cases"))
           {
             StudyCase sc;
@@ -249,6 +344,8 @@ namespace backcomb::study
             sc.overrides = c.at("overrides").get<std::vector<std::string>>();
             if (c.at("pitch_um").is_number())
               sc.pitch_um = c.at("pitch_um").get<double>();
+            if (c.contains("gap_um") && c.at("gap_um").is_number())
+              sc.gap_um = c.at("gap_um").get<double>();
             sc.fingerprint = result_fingerprint(plan.case_text, sc.overrides);
             plan.cases.push_back(std::move(sc));
           }
@@ -274,11 +371,16 @@ namespace backcomb::study
     if (existing.sets != wanted.sets)
       return "the --set overrides differ";
     if (existing.entries.size() != wanted.entries.size())
-      return "the number of --vary entries differs";
+      return "the number of --vary and --in-step entries differs";
     for (std::size_t k = 0; k < wanted.entries.size(); ++k)
-      if (existing.entries[k].path != wanted.entries[k].path ||
-          existing.entries[k].values != wanted.entries[k].values)
-        return "the --vary entry " + wanted.entries[k].path + " or its values differ";
+      {
+        const StudyEntry &e = existing.entries[k], &w = wanted.entries[k];
+        const std::string option = w.is_axis() ? "--vary" : "--in-step";
+        if (e.path != w.path || e.values != w.values)
+          return "the " + option + " entry " + w.path + " or its values differ";
+        if (e.in_step_with != w.in_step_with)
+          return "the " + option + " entry " + w.path + " moves with another entry";
+      }
     return "";
   }
 } // namespace backcomb::study

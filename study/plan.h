@@ -3,6 +3,7 @@
 // saved as FOLDER/sweep-plan.json.
 #pragma once
 
+#include "simulator/fabrication.h"
 #include "study/values.h"
 
 #include <nlohmann/json.hpp>
@@ -24,6 +25,8 @@ namespace backcomb::study
     // Electrode pitch w_e + w_h + 2 g (centre to centre of neighbouring
     // fingers of the same polarity), NaN for the test strip.
     double pitch_um = std::numeric_limits<double>::quiet_NaN();
+    // The gap g between the fingers (Geometry/Gap), NaN for the test strip.
+    double gap_um = std::numeric_limits<double>::quiet_NaN();
     // result_fingerprint() of the plan's case text and these overrides:
     // the fingerprint a summary.json of this case must carry.
     std::string fingerprint;
@@ -34,19 +37,44 @@ namespace backcomb::study
     std::string              case_file; // as given on the command line
     std::string              case_text; // its content, to detect a changed case on resume
     std::vector<std::string> sets;      // the --set overrides common to all cases
-    std::vector<StudyEntry>  entries;   // the --vary entries, in order
-    // The cartesian product of the entries' values; the first entry varies
-    // fastest, so the cases of one line of the plot are consecutive.
+    // The --vary entries in order, each followed by the --in-step entries
+    // that move with it. The first entry is always a --vary entry.
+    std::vector<StudyEntry> entries;
+    // The cartesian product of the --vary entries' values (an --in-step
+    // entry takes the value of the same position as its --vary entry); the
+    // first entry varies fastest, so the cases of one line of the plot are
+    // consecutive.
     std::vector<StudyCase> cases;
+    // The case's Fabrication section (with the --set list), which the
+    // recommendation applies; the same for every case.
+    simulator::FabricationSettings fabrication;
   };
+
+  // An --in-step "Section/Name=VALUES" argument and the number of --vary
+  // arguments given before it on the command line: it moves with the last
+  // of those (0: none, an error).
+  struct InStepArgument
+  {
+    std::size_t after_vary = 0;
+    std::string text;
+  };
+
+  // The number of --vary entries (the axes of the grid).
+  std::size_t axis_count(const StudyPlan &plan);
 
   // Builds the grid and checks every grid point with read_case, so that an
   // invalid entry or value is reported (InputError) before anything is
   // written. A point whose physics fails later is just a failed case. The
   // entries' units come from entry_unit().
-  StudyPlan make_plan(const std::string              &case_file,
-                      const std::vector<std::string> &sets,
-                      const std::vector<std::string> &vary);
+  // --in-step entries: errors (InputError naming the option, the entry and
+  // the value) for an entry not following a --vary, a value count other
+  // than its --vary entry's, an entry linked to itself, linked twice, also
+  // given with --vary or --set. Entries of the Fabrication section cannot
+  // be varied (they apply to the whole sweep).
+  StudyPlan make_plan(const std::string                 &case_file,
+                      const std::vector<std::string>    &sets,
+                      const std::vector<std::string>    &vary,
+                      const std::vector<InStepArgument> &in_step = {});
 
   // The plan as stored in sweep-plan.json, and back (InputError naming
   // `file` when it is not a plan or is damaged).

@@ -40,6 +40,8 @@ namespace backcomb::study
     r.values = c.values;
     if (std::isfinite(c.pitch_um))
       r.pitch_um = c.pitch_um;
+    if (std::isfinite(c.gap_um))
+      r.gap_um = c.gap_um;
     const std::string dir = case_folder(folder, c.id);
     if (fs::exists(dir + "/summary.json"))
       {
@@ -103,7 +105,13 @@ namespace backcomb::study
     std::vector<std::vector<std::size_t>>           lines;
     for (std::size_t i = 0; i < rows.size(); ++i)
       {
-        const std::vector<std::string> rest(rows[i].values.begin() + 1, rows[i].values.end());
+        // The values of the other --vary entries and of the --in-step
+        // entries that move with them (those moving with the first entry
+        // change along the line).
+        std::vector<std::string> rest;
+        for (std::size_t k = 1; k < plan.entries.size(); ++k)
+          if (plan.entries[k].in_step_with != plan.entries[0].path)
+            rest.push_back(rows[i].values[k]);
         const auto [it, fresh] = index.emplace(rest, lines.size());
         if (fresh)
           lines.emplace_back();

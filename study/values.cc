@@ -156,14 +156,14 @@ namespace backcomb::study
   }
 
   StudyEntry
-  parse_vary(const std::string &text)
+  parse_vary(const std::string &text, const std::string &option)
   {
     const auto eq = text.find('=');
     if (eq == std::string::npos)
-      throw InputError("--vary", text, "expected \"Section/Name=values\"");
+      throw InputError(option, text, "expected \"Section/Name=values\"");
     const std::string path = trim(text.substr(0, eq));
     if (path.empty() || path.find('/') == std::string::npos || path.front() == '/' || path.back() == '/')
-      throw InputError("--vary", text, "expected \"Section/Name=values\"");
+      throw InputError(option, text, "expected \"Section/Name=values\"");
     StudyEntry e;
     e.path   = path;
     e.values = expand_values(path, text.substr(eq + 1));

@@ -18,6 +18,12 @@ namespace backcomb::study
     std::string              path;   // "Geometry/Gap"
     std::vector<std::string> values; // "5", "10", ...
     std::string              unit;   // entry_unit(path); "" if dimensionless or unknown
+    // "" for a --vary entry (an axis of the grid); for an --in-step entry
+    // the path of the --vary entry it moves with: its i-th value goes with
+    // that entry's i-th value, so it adds no cases.
+    std::string in_step_with = {};
+
+    bool is_axis() const { return in_step_with.empty(); }
   };
 
   // Expands the value list of a --vary argument. The list is
@@ -35,9 +41,10 @@ namespace backcomb::study
   // 10000 values and a value given twice throw InputError naming `entry`.
   std::vector<std::string> expand_values(const std::string &entry, const std::string &list);
 
-  // Parses one --vary argument "Section/Name=LIST" (entry not yet checked
-  // against the case file; make_plan does that). The unit stays empty.
-  StudyEntry parse_vary(const std::string &text);
+  // Parses one --vary (or --in-step, named by `option`) argument
+  // "Section/Name=LIST" (entry not yet checked against the case file;
+  // make_plan does that). The unit stays empty.
+  StudyEntry parse_vary(const std::string &text, const std::string &option = "--vary");
 
   // The parts of `text` between separators; a trailing separator gives a
   // trailing empty part ("5," -> "5", "").

@@ -21,6 +21,11 @@ if [[ $mode == serial ]]; then
   expect_exit 2 "$binary" sweep "$case_file" --vary "Geometry/Strip length=1,abc" --out bad
   expect_exit 2 "$binary" sweep "$case_file" --vary "Geometry/Strip length=1,-2" --out bad
   grep -q "Strip_length=-2" out.log || fail "the message does not name the grid point"
+  # --in-step with another number of values than its --vary entry.
+  expect_exit 2 "$binary" sweep "$case_file" --vary "Geometry/Strip length=0.5,1" \
+    --in-step "Absorber/Transport/Electron mobility=10,20,30" --out bad
+  grep -q -- "--in-step Absorber/Transport/Electron mobility = 10: has 3 values" out.log ||
+    fail "the --in-step count error does not name the option and value"
   [[ ! -e bad ]] || fail "an invalid sweep wrote its folder"
   # Usage errors: exit 1.
   expect_exit 1 "$binary" sweep "$case_file" "${vary[@]}" --task 3 --of 2

@@ -238,6 +238,10 @@ TEST(Entries, TemplateRangeIsTheCheckedRange)
     {"J-V scan/Maximum power point resolution"},
     {"J-V scan/Suns-Voc intensities"},
     {"Output/Dead zone threshold"},
+    {"Fabrication/Smallest gap"},
+    {"Fabrication/Largest gap"},
+    {"Fabrication/Gap tolerance"},
+    {"Fabrication/Near-best margin"},
   };
   for (const auto &s : samples)
     check_sample(s);
@@ -272,7 +276,8 @@ TEST(Entries, TemplateStatesUnitAndRange)
     {
       const std::string section = path.substr(0, path.find('/'));
       if (section != "Geometry" && section != "Mesh" && section != "Illumination" && section != "Numerics" &&
-          section != "Electrodes" && section != "Device" && section != "J-V scan" && section != "Output")
+          section != "Electrodes" && section != "Device" && section != "J-V scan" && section != "Output" &&
+          section != "Fabrication")
         continue;
       if (doc.find("Allowed") == std::string::npos)
         continue; // a selection, flag or file name
@@ -281,8 +286,8 @@ TEST(Entries, TemplateStatesUnitAndRange)
                   (entry_unit(path).empty() && doc.find(" Dimensionless.") != std::string::npos))
         << path << ": " << doc;
     }
-  // 8 + 4 + 7 + 5 + 6 + 1 + 5 + 3 number entries in these sections.
-  EXPECT_EQ(checked, 39u);
+  // 8 + 4 + 7 + 5 + 6 + 1 + 5 + 3 + 4 number entries in these sections.
+  EXPECT_EQ(checked, 43u);
 }
 
 TEST(Entries, DeclaredUnits)
@@ -302,6 +307,8 @@ TEST(Entries, DeclaredUnits)
   EXPECT_EQ(entry_unit("Device/Temperature"), "K");
   EXPECT_EQ(entry_unit("J-V scan/Voltage step"), "V");
   EXPECT_EQ(entry_unit("Output/Field biases"), "V");
+  EXPECT_EQ(entry_unit("Fabrication/Gap tolerance"), "um");
+  EXPECT_EQ(entry_unit("Fabrication/Near-best margin"), "%");
   EXPECT_EQ(entry_unit("No such/Entry"), "");
 }
 

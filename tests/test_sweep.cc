@@ -674,3 +674,397 @@ TEST(SweepRun, FailingCasesAreRecordedAndOthersComplete)
   EXPECT_EQ(fs::last_write_time(dir / "out" / "cases" / "Newton_iterations=1" / "summary.json"), failed_time);
   fs::remove_all(dir);
 }
+
+// --in-step: a linked entry takes the i-th value with its --vary entry's
+// i-th value, so it adds no cases (3 x 2 = 6 cases, not 3 x 3 x 2 = 18);
+// each case carries both overrides and both values in its folder name.
+TEST(SweepPlan, InStepEntriesMoveWithTheirVaryEntry)
+{
+  const fs::path dir  = fresh_folder("in-step");
+  const auto     file = write_case(dir, comb);
+  const StudyPlan plan =
+    make_plan(file, {}, {"Geometry/Gap=5,10,20", "Geometry/Electron finger width=2,4"},
+              {{1, "Gap interface/Electron recombination velocity=10,100,1000"},
+               {1, "Gap interface/Hole recombination velocity=1,2,3"},
+               {2, "Geometry/Hole finger width=3,5"}});
+  ASSERT_EQ(plan.cases.size(), 6u);
+  EXPECT_EQ(axis_count(plan), 2u);
+  ASSERT_EQ(plan.entries.size(), 5u);
+  EXPECT_EQ(plan.entries[1].path, "Gap interface/Electron recombination velocity");
+  EXPECT_EQ(plan.entries[1].in_step_with, "Geometry/Gap");
+  EXPECT_EQ(plan.entries[4].in_step_with, "Geometry/Electron finger width");
+  EXPECT_EQ(plan.entries[1].unit, "cm/s");
+  EXPECT_EQ(plan.cases[1].id, "Gap=10__Electron_recombination_velocity=100__Hole_recombination_velocity=2__"
+                              "Electron_finger_width=2__Hole_finger_width=3");
+  EXPECT_EQ(plan.cases[5].overrides,
+            (std::vector<std::string>{"Geometry/Gap=20", "Gap interface/Electron recombination velocity=1000",
+                                      "Gap interface/Hole recombination velocity=3",
+                                      "Geometry/Electron finger width=4", "Geometry/Hole finger width=5"}));
+  // The linked finger width enters the pitch: 4 + 5 + 2 * 20.
+  EXPECT_DOUBLE_EQ(plan.cases[5].pitch_um, 49.0);
+  EXPECT_DOUBLE_EQ(plan.cases[5].gap_um, 20.0);
+  for (const auto &c : plan.cases)
+    {
+      const std::size_t at = std::size_t(
+        std::find(plan.entries[0].values.begin(), plan.entries[0].values.end(), c.values[0]) -
+        plan.entries[0].values.begin());
+      EXPECT_EQ(c.values[1], plan.entries[1].values[at]) << c.id;
+      EXPECT_EQ(c.values[2], plan.entries[2].values[at]) << c.id;
+    }
+
+  // The plan's lines: one per finger width (the linked velocities move
+  // along the gap, not across lines).
+  std::vector<StudyRow> rows;
+  for (const auto &c : plan.cases)
+    {
+      StudyRow r;
+      r.id     = c.id;
+      r.values = c.values;
+      rows.push_back(r);
+    }
+  EXPECT_EQ(lines_of(plan, rows).size(), 2u);
+
+  // Round trip through sweep-plan.json: the same plan, and no difference.
+  const StudyPlan back = plan_from_json(nlohmann::json::parse(plan_to_json(plan).dump()), "sweep-plan.json");
+  ASSERT_EQ(back.entries.size(), plan.entries.size());
+  for (std::size_t k = 0; k < plan.entries.size(); ++k)
+    {
+      EXPECT_EQ(back.entries[k].path, plan.entries[k].path);
+      EXPECT_EQ(back.entries[k].values, plan.entries[k].values);
+      EXPECT_EQ(back.entries[k].in_step_with, plan.entries[k].in_step_with);
+    }
+  ASSERT_EQ(back.cases.size(), plan.cases.size());
+  for (std::size_t i = 0; i < plan.cases.size(); ++i)
+    {
+      EXPECT_EQ(back.cases[i].id, plan.cases[i].id);
+      EXPECT_EQ(back.cases[i].overrides, plan.cases[i].overrides);
+      EXPECT_EQ(back.cases[i].fingerprint, plan.cases[i].fingerprint);
+    }
+  EXPECT_EQ(plan_difference(back, plan), "");
+  // The same entries as a grid are another plan (a resume refuses it).
+  const StudyPlan grid =
+    make_plan(file, {}, {"Geometry/Gap=5,10,20", "Gap interface/Electron recombination velocity=10,100,1000"});
+  const StudyPlan linked =
+    make_plan(file, {}, {"Geometry/Gap=5,10,20"}, {{1, "Gap interface/Electron recombination velocity=10,100,1000"}});
+  EXPECT_EQ(grid.cases.size(), 9u);
+  EXPECT_EQ(linked.cases.size(), 3u);
+  EXPECT_NE(plan_difference(grid, linked).find("moves with another entry"), std::string::npos)
+    << plan_difference(grid, linked);
+  fs::remove_all(dir);
+}
+
+// --in-step errors name the option, the entry and the value.
+TEST(SweepPlan, InStepErrorsNameOptionAndValue)
+{
+  const fs::path dir  = fresh_folder("in-step-errors");
+  const auto     file = write_case(dir, comb);
+  const auto     message = [&](const std::vector<std::string> &sets, const std::vector<std::string> &vary,
+                           const std::vector<InStepArgument> &in_step) {
+    try
+      {
+        make_plan(file, sets, vary, in_step);
+      }
+    catch (const InputError &e)
+      {
+        return std::string(e.what());
+      }
+    return std::string("no error");
+  };
+  const std::string velocity = "Gap interface/Electron recombination velocity";
+  // A different number of values.
+  std::string m = message({}, {"Geometry/Gap=5,10,20"}, {{1, velocity + "=10,100"}});
+  EXPECT_NE(m.find("--in-step " + velocity + " = 10: has 2 values, but the --vary entry Geometry/Gap it moves "
+                                             "with has 3"),
+            std::string::npos)
+    << m;
+  // Linked twice (to the same or to another --vary entry).
+  m = message({}, {"Geometry/Gap=5,10", "Geometry/Electron finger width=2,4"},
+              {{1, velocity + "=1,2"}, {2, velocity + "=3,4"}});
+  EXPECT_NE(m.find("--in-step " + velocity + " = 3: is given with --in-step more than once"), std::string::npos) << m;
+  // Linked to itself.
+  m = message({}, {"Geometry/Gap=5,10"}, {{1, "Geometry/Gap=6,11"}});
+  EXPECT_NE(m.find("--in-step Geometry/Gap = 6: is linked to itself"), std::string::npos) << m;
+  // Linked to an entry that is also varied.
+  m = message({}, {"Geometry/Gap=5,10", "Geometry/Electron finger width=2,4"},
+              {{1, "Geometry/Electron finger width=3,5"}});
+  EXPECT_NE(m.find("--in-step Geometry/Electron finger width = 3: is also given with --vary"), std::string::npos)
+    << m;
+  // No --vary before it, also given with --set, unknown entry, a
+  // Fabrication entry, a bad value in one linked grid point.
+  m = message({}, {"Geometry/Gap=5,10"}, {{0, velocity + "=1,2"}});
+  EXPECT_NE(m.find("--in-step " + velocity + " = 1: must follow the --vary entry"), std::string::npos) << m;
+  m = message({velocity + "=7"}, {"Geometry/Gap=5,10"}, {{1, velocity + "=1,2"}});
+  EXPECT_NE(m.find("is also given with --set"), std::string::npos) << m;
+  m = message({}, {"Geometry/Gap=5,10"}, {{1, "Gap interface/Electron velocity=1,2"}});
+  EXPECT_NE(m.find("--in-step Gap interface/Electron velocity = 1: unknown entry"), std::string::npos) << m;
+  m = message({}, {"Geometry/Gap=5,10"}, {{1, "Fabrication/Gap tolerance=1,2"}});
+  EXPECT_NE(m.find("--in-step Fabrication/Gap tolerance = 1: the Fabrication section applies to the whole sweep"),
+            std::string::npos)
+    << m;
+  m = message({}, {"Geometry/Gap=5,10"}, {{1, velocity + "=1,-2"}});
+  EXPECT_NE(m.find("grid point Gap=10__Electron_recombination_velocity=-2"), std::string::npos) << m;
+  EXPECT_NE(m.find("--in-step " + velocity), std::string::npos) << m;
+  fs::remove_all(dir);
+}
+
+// The Fabrication section reaches the plan (case file and --set) and is
+// checked like every entry.
+TEST(SweepPlan, FabricationSectionIsReadAndChecked)
+{
+  const fs::path dir  = fresh_folder("fabrication");
+  const auto     file = write_case(dir, std::string(comb) + R"(
+subsection Fabrication
+  set Smallest gap = 8
+  set Largest gap = 30
+  set Cost per gap = 5:3, 20:1, 40:2
+end
+)");
+  const StudyPlan plan = make_plan(file, {"Fabrication/Gap tolerance=2.5"}, {"Geometry/Gap=5,10"});
+  EXPECT_EQ(plan.fabrication.smallest_gap_um, 8);
+  EXPECT_EQ(plan.fabrication.largest_gap_um, 30);
+  EXPECT_EQ(plan.fabrication.gap_tolerance_um, 2.5);
+  EXPECT_EQ(plan.fabrication.near_best_percent, 2);
+  // Linear between the pairs, constant beyond: 3 + (1 - 3) * 5 / 15 at 10 um.
+  EXPECT_DOUBLE_EQ(plan.fabrication.cost_at(10), 3 - 2.0 / 3);
+  EXPECT_DOUBLE_EQ(plan.fabrication.cost_at(1), 3);
+  EXPECT_DOUBLE_EQ(plan.fabrication.cost_at(100), 2);
+  const StudyPlan back = plan_from_json(nlohmann::json::parse(plan_to_json(plan).dump()), "sweep-plan.json");
+  EXPECT_EQ(back.fabrication.gap_cost, plan.fabrication.gap_cost);
+  EXPECT_EQ(back.fabrication.gap_tolerance_um, 2.5);
+  const auto error = [&](const std::string &set) {
+    try
+      {
+        make_plan(file, {set}, {"Geometry/Gap=5,10"});
+      }
+    catch (const InputError &e)
+      {
+        return std::string(e.what());
+      }
+    return std::string("no error");
+  };
+  EXPECT_NE(error("Fabrication/Largest gap=6").find("Fabrication/Largest gap = 6: must not be below Smallest gap"),
+            std::string::npos)
+    << error("Fabrication/Largest gap=6");
+  EXPECT_NE(error("Fabrication/Cost per gap=5:1, 4:2").find("the gaps must increase"), std::string::npos);
+  EXPECT_NE(error("Fabrication/Cost per gap=5").find("gap:cost pairs"), std::string::npos);
+  EXPECT_NE(error("Fabrication/Cost per gap=5:-1").find("the cost >= 0"), std::string::npos);
+  EXPECT_NE(error("Fabrication/Near-best margin=0").find("Fabrication/Near-best margin"), std::string::npos);
+  fs::remove_all(dir);
+}
+
+// The gap to make, on constructed rows (PCE in %, losses in mW/cm^2):
+//   gap  5     10     20      40    60    80
+//   PCE  10.0  10.05  10.045  9.90  9.70  9.00
+// best 10 um; margin 2 %: limit 0.98 * 10.05 = 9.849, so 5..40 um are
+// near the best and 40 um is the widest; 60 um is the next gap. 20 um
+// differs from the best by 0.005 / 10.05 = 5.0e-4 < 1e-3: not separable.
+namespace
+{
+  StudyPlan
+  fabrication_plan()
+  {
+    StudyPlan plan;
+    plan.entries = {{"Geometry/Gap", {"5", "10", "20", "40", "60", "80"}, "um"}};
+    return plan;
+  }
+
+  std::vector<StudyRow>
+  fabrication_rows(const StudyPlan &plan)
+  {
+    std::vector<StudyRow> rows = gap_rows(plan, {10.0, 10.05, 10.045, 9.90, 9.70, 9.00}, {});
+    rows[1].loss_parts = {{"gap_interface_recombination", 1.0}, {"film_joule", 0.5}, {"finger_resistance", 0.2}};
+    rows[4].loss_parts = {{"gap_interface_recombination", 1.3}, {"film_joule", 1.2}, {"finger_resistance", 0.25}};
+    return rows;
+  }
+} // namespace
+
+TEST(SweepRecommendation, WidestGapWithinMarginAndWhatLimitsIt)
+{
+  StudyPlan                   plan = fabrication_plan();
+  const std::vector<StudyRow> rows = fabrication_rows(plan);
+  Recommendation              rec  = recommend(plan, rows);
+  ASSERT_TRUE(rec.valid);
+  ASSERT_TRUE(rec.gap_study);
+  EXPECT_EQ(rec.best, 1u);
+  EXPECT_EQ(rec.near_best, (std::vector<std::size_t>{0, 1, 2, 3}));
+  EXPECT_EQ(*rec.widest, 3u);
+  EXPECT_EQ(*rec.chosen, 3u);
+  EXPECT_EQ(*rec.beyond, 4u);
+  EXPECT_EQ(rec.inseparable, (std::vector<std::size_t>{2}));
+  EXPECT_FALSE(rec.limit_unresolved);
+  // Growth from 10 to 60 um: gap interface +0.3, film +0.7, fingers +0.05.
+  EXPECT_EQ(rec.limiting_loss, "film_joule");
+  EXPECT_NEAR(rec.limiting_growth, 0.7, 1e-12);
+  EXPECT_EQ(rec.tolerance, ToleranceCheck::not_asked);
+  EXPECT_NE(rec.text.find("Widest gap within 2 % of the best: 40 um (PCE 9.9 %)"), std::string::npos) << rec.text;
+  EXPECT_NE(rec.text.find("Make 40 um."), std::string::npos) << rec.text;
+  EXPECT_NE(rec.text.find("The solve cannot tell 10 um from 20 um"), std::string::npos) << rec.text;
+  EXPECT_NE(rec.text.find("Wider gaps lose most to the film's resistance (Joule heat) (+0.7 mW/cm^2 from 10 um to "
+                          "60 um)"),
+            std::string::npos)
+    << rec.text;
+  const nlohmann::json j = study_json(plan, rows, rec)["recommendation"];
+  EXPECT_EQ(j["gap"]["best_gap_um"], 10.0);
+  EXPECT_EQ(j["gap"]["widest_near_best_gap_um"], 40.0);
+  EXPECT_EQ(j["gap"]["recommended_gap_um"], 40.0);
+  EXPECT_EQ(j["gap"]["inseparable_from_best_gap_um"], nlohmann::json::array({20.0}));
+  EXPECT_EQ(j["gap"]["what_sets_the_limit"]["loss"], "film_joule");
+  EXPECT_EQ(j["gap"]["what_sets_the_limit"]["next_gap_um"], 60.0);
+  EXPECT_EQ(j["fabrication"]["near_best_percent"], 2.0);
+
+  // Gap tolerance +/- 4 um around 40 um, interpolated linearly:
+  // 36 um: 9.90 + 0.145 * 4 / 20 = 9.929; 44 um: 9.90 - 0.2 * 4 / 20 = 9.86,
+  // both >= 9.849: within the margin.
+  plan.fabrication.gap_tolerance_um = 4;
+  rec                               = recommend(plan, rows);
+  EXPECT_EQ(rec.tolerance, ToleranceCheck::holds);
+  EXPECT_NEAR(*rec.pce_low, 9.929, 1e-9);
+  EXPECT_NEAR(*rec.pce_high, 9.86, 1e-9);
+  EXPECT_NE(rec.text.find("A gap tolerance of +/- 4 um keeps the PCE within 2 %"), std::string::npos) << rec.text;
+  // +/- 10 um: 50 um gives 9.80 < 9.849.
+  plan.fabrication.gap_tolerance_um = 10;
+  rec                               = recommend(plan, rows);
+  EXPECT_EQ(rec.tolerance, ToleranceCheck::fails);
+  EXPECT_NEAR(*rec.pce_high, 9.80, 1e-9);
+  EXPECT_NE(rec.text.find("does not keep the PCE within 2 %"), std::string::npos) << rec.text;
+  // +/- 20 um: the ends are computed gaps (20 um: 10.045, 60 um: 9.70).
+  plan.fabrication.gap_tolerance_um = 20;
+  rec                               = recommend(plan, rows);
+  EXPECT_EQ(rec.tolerance, ToleranceCheck::fails);
+  EXPECT_DOUBLE_EQ(*rec.pce_low, 10.045);
+  EXPECT_DOUBLE_EQ(*rec.pce_high, 9.70);
+  // +/- 50 um: 90 um lies beyond the computed gaps.
+  plan.fabrication.gap_tolerance_um = 50;
+  EXPECT_EQ(recommend(plan, rows).tolerance, ToleranceCheck::not_known);
+  // The next gap failed: what limits wider gaps is not known.
+  std::vector<StudyRow> failed = rows;
+  failed[4].status             = Status::failed;
+  failed[4].PCE.reset();
+  rec = recommend(plan, failed);
+  EXPECT_EQ(rec.limiting_loss, "");
+  EXPECT_NE(rec.text.find("The next gap, 60 um, has no result"), std::string::npos) << rec.text;
+
+  // A wider margin (5 %: limit 9.5475) takes in 60 um; 80 um is next.
+  plan.fabrication                   = {};
+  plan.fabrication.near_best_percent = 5;
+  rec                                = recommend(plan, rows);
+  EXPECT_EQ(*rec.widest, 4u);
+  EXPECT_EQ(*rec.beyond, 5u);
+  EXPECT_EQ(rec.limiting_loss, ""); // no losses known at 80 um
+}
+
+// Where the margin ends between two gaps whose PCE differ by less than the
+// solve's resolution: 10 um (9.8005) is in, 20 um (9.7995) is out of
+// 0.98 * 10 = 9.8, but they differ by 0.001 < 1e-3 * 10.
+TEST(SweepRecommendation, UnresolvedEndOfTheMargin)
+{
+  StudyPlan plan;
+  plan.entries                     = {{"Geometry/Gap", {"5", "10", "20"}, "um"}};
+  const std::vector<StudyRow> rows = gap_rows(plan, {10.0, 9.8005, 9.7995}, {});
+  const Recommendation        rec  = recommend(plan, rows);
+  EXPECT_EQ(*rec.widest, 1u);
+  EXPECT_EQ(*rec.beyond, 2u);
+  EXPECT_TRUE(rec.limit_unresolved);
+  EXPECT_TRUE(rec.inseparable.empty());
+  EXPECT_NE(rec.text.find("10 um and 20 um cannot be told apart"), std::string::npos) << rec.text;
+}
+
+// The recommendation never lies outside the fabrication limits, and with a
+// cost it moves to the cheapest gap within the margin.
+TEST(SweepRecommendation, FabricationLimitsAndCost)
+{
+  StudyPlan                   plan = fabrication_plan();
+  const std::vector<StudyRow> rows = fabrication_rows(plan);
+  // Gaps from 8 to 30 um: 10 and 20 um are candidates; 40 um is beyond
+  // the process, which is then what sets the limit.
+  plan.fabrication.smallest_gap_um = 8;
+  plan.fabrication.largest_gap_um  = 30;
+  Recommendation rec               = recommend(plan, rows);
+  EXPECT_EQ(rec.best, 1u);
+  EXPECT_EQ(rec.outside_limits, 4u);
+  EXPECT_EQ(rec.near_best, (std::vector<std::size_t>{1, 2}));
+  EXPECT_EQ(*rec.chosen, 2u);
+  EXPECT_TRUE(rec.beyond_outside_limits);
+  EXPECT_NE(rec.text.find("4 computed cases lie outside the fabrication limits"), std::string::npos) << rec.text;
+  EXPECT_NE(rec.text.find("Wider gaps are beyond Fabrication/Largest gap = 30 um"), std::string::npos) << rec.text;
+  // Every limit: the recommended gap and the best lie inside.
+  for (const auto &[lo, hi] : std::vector<std::pair<double, double>>{{0, 7}, {6, 15}, {15, 50}, {50, 100}, {45, 55}})
+    {
+      plan.fabrication.smallest_gap_um = lo;
+      plan.fabrication.largest_gap_um  = hi;
+      rec                              = recommend(plan, rows);
+      if (!rec.valid)
+        {
+          EXPECT_TRUE(lo == 45) << lo << " " << hi; // no computed gap in 45..55
+          EXPECT_NE(rec.text.find("no case within the fabrication limits"), std::string::npos) << rec.text;
+          continue;
+        }
+      for (const auto i : {rec.best, *rec.chosen, *rec.widest})
+        {
+          const double g = *to_number(rows[i].values[0]);
+          EXPECT_GE(g, lo);
+          EXPECT_LE(g, hi);
+        }
+    }
+  // Cost 5:3, 20:1, 40:2 (10 um: 3 - 2 * 5 / 15 = 2.33): the cheapest gap
+  // within the margin (5..40 um) is 20 um at cost 1, not the widest (40 um,
+  // cost 2).
+  plan.fabrication          = {};
+  plan.fabrication.gap_cost = {{5, 3}, {20, 1}, {40, 2}};
+  rec                       = recommend(plan, rows);
+  EXPECT_EQ(*rec.widest, 3u);
+  EXPECT_EQ(*rec.chosen, 2u);
+  EXPECT_NE(rec.text.find("Cheapest gap within 2 % of the best (Fabrication/Cost per gap): 20 um (relative cost 1 "
+                          "against 2)"),
+            std::string::npos)
+    << rec.text;
+  EXPECT_EQ(study_json(plan, rows, rec)["recommendation"]["gap"]["recommended_gap_um"], 20.0);
+  // Equal cost everywhere: the wider gap.
+  plan.fabrication.gap_cost = {{5, 1}};
+  EXPECT_EQ(*recommend(plan, rows).chosen, 3u);
+  // A study over another entry: limits still filter by the cases' gaps,
+  // no gap sentences.
+  StudyPlan other;
+  other.entries = {{"Geometry/Absorber thickness", {"0.3", "0.5"}, "um"}};
+  std::vector<StudyRow> two = gap_rows(other, {9.0, 9.5}, {});
+  two[0].gap_um             = 10;
+  two[1].gap_um             = 50;
+  other.fabrication.largest_gap_um = 20;
+  rec                              = recommend(other, two);
+  EXPECT_FALSE(rec.gap_study);
+  EXPECT_EQ(rec.best, 0u);
+  EXPECT_EQ(rec.text.find("Widest gap"), std::string::npos) << rec.text;
+}
+
+// A whole sweep with an entry in step (tiny strip): 2 cases, not 4; the
+// linked entry's column in sweep.csv, its link in sweep.json; a rerun
+// resumes, the same entries as a grid are refused in that folder.
+TEST(SweepRun, InStepSweepEndToEnd)
+{
+  const fs::path  dir  = fresh_folder("in-step-run");
+  const StudyPlan plan = make_plan(tiny_strip_file, {}, {"Geometry/Strip length=0.5,1"},
+                                   {{1, "Absorber/Recombination/SRH/Electron lifetime=1e-5,2e-5"}});
+  StudyOptions    o;
+  o.folder = (dir / "out").string();
+  o.quiet  = true;
+  ASSERT_EQ(run_study(plan, o), 0);
+  const std::vector<std::string> rows = csv_rows(dir / "out" / "sweep.csv");
+  ASSERT_EQ(rows.size(), 3u); // header + 2
+  EXPECT_EQ(rows[0].rfind("case,Geometry/Strip length [um],Absorber/Recombination/SRH/Electron lifetime [s],", 0), 0u)
+    << rows[0];
+  EXPECT_EQ(rows[2].rfind("Strip_length=1__Electron_lifetime=2e-5,1,2e-5,", 0), 0u) << rows[2];
+  std::ifstream        in(dir / "out" / "sweep.json");
+  const nlohmann::json j = nlohmann::json::parse(in);
+  EXPECT_EQ(j["entries"][1]["in_step_with"], "Geometry/Strip length");
+  EXPECT_TRUE(j["entries"][0]["in_step_with"].is_null());
+  EXPECT_EQ(j["cases"][1]["values"]["Absorber/Recombination/SRH/Electron lifetime"], "2e-5");
+  EXPECT_EQ(j["counts"]["converged"], 2);
+  // Not a gap study: no gap sentences, the limits block is there.
+  EXPECT_TRUE(j["recommendation"]["gap"].is_null());
+  EXPECT_EQ(j["recommendation"]["fabrication"]["cases_outside_limits"], 0);
+  ASSERT_EQ(run_study(plan, o), 0);
+  const StudyPlan grid = make_plan(tiny_strip_file, {}, {"Geometry/Strip length=0.5,1",
+                                                         "Absorber/Recombination/SRH/Electron lifetime=1e-5,2e-5"});
+  EXPECT_THROW(run_study(grid, o), InputError);
+  fs::remove_all(dir);
+}
