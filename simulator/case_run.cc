@@ -1,5 +1,6 @@
 #include "simulator/case_run.h"
 #include "simulator/case_setup.h"
+#include "simulator/device_response.h"
 
 #include "base/files.h"
 #include "base/json_file.h"
@@ -301,7 +302,6 @@ namespace backcomb::simulator
 
     json     fields = json::array(), dead_zone = nullptr, collection = nullptr;
     std::optional<QuantumEfficiency> eqe; // spectrum model, under light
-    std::vector<double> spectral_collection(const dealii::Vector<double> &fc) const;
     double   adjoint_seconds = 0;
     unsigned adjoint_solves  = 0;
 
@@ -733,7 +733,7 @@ namespace backcomb::simulator
         QuantumEfficiency q;
         q.wavelength_nm   = generation->wavelengths_nm();
         q.photon_flux     = generation->incident_photon_flux();
-        q.eqe             = spectral_collection(fc);
+        q.eqe             = spectral_collection(*solver, *generation, fc, o.communicator);
         q.bias_light_suns = c.illumination.intensity_suns;
         const auto f      = generation->spectral_fractions();
         q.absorbed        = f.absorbed;
@@ -743,7 +743,8 @@ namespace backcomb::simulator
           {
             dealii::Timer t;
             solver->solve_equilibrium();
-            q.eqe_no_bias_light = spectral_collection(solver->collection_probability());
+            q.eqe_no_bias_light =
+              spectral_collection(*solver, *generation, solver->collection_probability(), o.communicator);
             adjoint_seconds += t.wall_time();
             ++adjoint_solves;
             solver->set_state(sc.state, sc.jv.voltage, 1.0);
@@ -776,21 +777,6 @@ namespace backcomb::simulator
       {
         throw OutputError(e.what());
       }
-  }
-
-  // EQE per wavelength of the optical model from a collection map: the
-  // pairs of each wavelength weighted by f_c over the absorber, per photon
-  // incident on the footprint.
-  std::vector<double>
-  CaseRun::spectral_collection(const dealii::Vector<double> &fc) const
-  {
-    std::vector<double> acc(generation->wavelengths_nm().size(), 0.0);
-    for (const auto &p : solver->collection_points(fc))
-      generation->add_pair_densities(p.x_um, p.y_um, p.weight, acc);
-    MPI_Allreduce(MPI_IN_PLACE, acc.data(), int(acc.size()), MPI_DOUBLE, MPI_SUM, o.communicator);
-    for (double &a : acc)
-      a /= width;
-    return acc;
   }
 
   // Where the power goes: the balance at short circuit, the maximum power
