@@ -1,6 +1,6 @@
 # Bash completion for backcomb: the commands, each command's options, case
 # files (*.prm) and folders, and the case-file entry paths after --set,
-# --vary and --in-step, also inside an opened quote: --set "Absorber/<TAB>.
+# --vary, --in-step and --fit, also inside an opened quote: --set "Absorber/<TAB>.
 #
 # Load it in a shell:  source app/backcomb-completion.bash
 # or install it (cmake --install) to share/bash-completion/completions/.
@@ -16,6 +16,7 @@ _backcomb_options()
     sweep) echo "--vary --in-step --set --out --quiet --task --of --retry-failed --help" ;;
     upgrade) echo "--help" ;;
     merge) echo "--quiet --help" ;;
+    calibrate) echo "--data --fit --set --loss --iterations --out --quiet --help" ;;
   esac
 }
 
@@ -49,7 +50,7 @@ _backcomb()
   local cur=${COMP_WORDS[COMP_CWORD]}
   local prev=""
   ((COMP_CWORD > 0)) && prev=${COMP_WORDS[COMP_CWORD - 1]}
-  local commands="template mesh solve sweep upgrade merge"
+  local commands="template mesh solve sweep upgrade merge calibrate"
   COMPREPLY=()
   if ((COMP_CWORD == 1)); then
     mapfile -t COMPREPLY < <(compgen -W "$commands --help --version" -- "$cur")
@@ -57,7 +58,7 @@ _backcomb()
   fi
   local command=${COMP_WORDS[1]}
   case $prev in
-    --set | --vary | --in-step)
+    --set | --vary | --in-step | --fit)
       _backcomb_entry_paths "${COMP_WORDS[0]}" "$cur"
       return
       ;;
@@ -65,11 +66,15 @@ _backcomb()
       mapfile -t COMPREPLY < <(compgen -d -- "$cur")
       return
       ;;
-    --log)
+    --log | --data)
       mapfile -t COMPREPLY < <(compgen -f -- "$cur")
       return
       ;;
-    --task | --of)
+    --task | --of | --iterations)
+      return
+      ;;
+    --loss)
+      mapfile -t COMPREPLY < <(compgen -W "none huber cauchy" -- "$cur")
       return
       ;;
   esac
@@ -81,7 +86,7 @@ _backcomb()
     merge)
       mapfile -t COMPREPLY < <(compgen -d -- "$cur")
       ;;
-    mesh | solve | sweep | upgrade)
+    mesh | solve | sweep | upgrade | calibrate)
       mapfile -t COMPREPLY < <(compgen -d -- "$cur"; compgen -f -X '!*.prm' -- "$cur")
       ;;
   esac

@@ -500,7 +500,7 @@ namespace backcomb::postprocess
         ys.push_back(i < d.start.size() ? shown(d.start[i]) : NAN);
         res.push_back(d.fitted[i] - d.measured[i]);
       }
-    for (const auto *v : {&ym, &yf})
+    for (const auto *v : {&ym, &yf, &ys})
       for (const double y : *v)
         if (std::isfinite(y))
           all.push_back(y);
@@ -565,7 +565,7 @@ namespace backcomb::postprocess
       pls.width(1);
       pls.box("bcnst", 0, 0, "bcnstv", 0, 0);
       pls.mtex("b", 3.0, 0.5, 0.5, d.x_label.c_str());
-      pls.mtex("l", 5.0, 0.5, 0.5, "model - data");
+      pls.mtex("l", 5.0, 0.5, 0.5, d.residual_label.empty() ? "model - data" : d.residual_label.c_str());
       pls.col0(first_line_colour);
       std::vector<double> rx, ry;
       for (std::size_t i = 0; i < res.size(); ++i)

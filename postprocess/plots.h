@@ -70,7 +70,7 @@ namespace backcomb::postprocess
   // model - measured (lower panel), one data set of a calibration.
   struct FitPlotData
   {
-    std::string         title, x_label, y_label;
+    std::string         title, x_label, y_label, residual_label;
     std::vector<double> x, measured, fitted; // fitted NaN where the model did not converge
     std::vector<double> start;               // the model at the start values (may be empty)
     bool                log_y = false;       // |y| on a logarithmic axis (dark J-V)

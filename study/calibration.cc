@@ -140,6 +140,16 @@ namespace backcomb::study
       return text;
     }
 
+    class Calibration;
+    // What TAO hands back to a callback: one small record per callback,
+    // not the Calibration itself (with the Calibration's own address as
+    // the context, a byte of its state changed during TAO's set-up; the
+    // cause was not found, and with these records it does not happen).
+    struct TaoContext
+    {
+      Calibration *self;
+    };
+
     // The whole calibration, on every rank; rank 0 drives TAO.
     class Calibration
     {
@@ -168,6 +178,7 @@ namespace backcomb::study
       static PetscErrorCode tao_monitor(Tao tao, void *ctx);
       std::vector<double>   monitor_u;  // of the last progress line
       Tao                   inner = nullptr; // TAOBRGN's inner solver
+      double                first_gradient = 0; // projected gradient norm at the start
 
       const CalibrationOptions &o;
       MPI_Comm                  comm;
@@ -418,7 +429,6 @@ namespace backcomb::study
       const unsigned rank = dealii::Utilities::MPI::this_mpi_process(comm);
       const unsigned size = dealii::Utilities::MPI::n_mpi_processes(comm);
       const std::string scratch = o.folder + "/scratch-rank" + std::to_string(rank);
-      make_folder(scratch);
       std::vector<std::vector<double>> mine;
       const std::size_t                n_tasks = us.size() * devices.size();
       for (std::size_t t = rank; t < n_tasks; t += size)
@@ -427,6 +437,7 @@ namespace backcomb::study
           simulator::DeviceResponse r;
           try
             {
+              make_folder(scratch);
               const simulator::Case c = simulator::read_case(o.case_file, overrides_at(d, us[t / devices.size()]));
               r = simulator::device_response(c, d.request, scratch, MPI_COMM_SELF, &warm[t % devices.size()]);
             }
@@ -610,7 +621,7 @@ namespace backcomb::study
     PetscErrorCode
     Calibration::tao_residual(Tao, Vec x, Vec f, void *ctx)
     {
-      auto *self = static_cast<Calibration *>(ctx);
+      auto *self = static_cast<TaoContext *>(ctx)->self;
       try
         {
           const auto t = self->robust_residuals(self->residuals(self->predict({to_std(x)})[0]));
@@ -630,7 +641,7 @@ namespace backcomb::study
     PetscErrorCode
     Calibration::tao_jacobian(Tao, Vec x, Mat J, Mat, void *ctx)
     {
-      auto *self = static_cast<Calibration *>(ctx);
+      auto *self = static_cast<TaoContext *>(ctx)->self;
       try
         {
           const auto                u   = to_std(x);
@@ -658,7 +669,7 @@ namespace backcomb::study
     PetscErrorCode
     Calibration::tao_monitor(Tao tao, void *ctx)
     {
-      auto              *self = static_cast<Calibration *>(ctx);
+      auto              *self = static_cast<TaoContext *>(ctx)->self;
       PetscInt           its;
       PetscReal          f, gnorm, cnorm, xdiff;
       TaoConvergedReason reason;
@@ -684,15 +695,22 @@ namespace backcomb::study
       self->monitor_u  = u;
       // TAOBRGN calls this monitor from its inner solver's iterations; the
       // step test stops the inner solver (and with it the outer one).
+      // A step that stops with the (projected) gradient still large is a
+      // stall (for example against a bound the line search cannot leave),
+      // not a solution.
+      if (its == 0)
+        self->first_gradient = gnorm;
       if (its > 0 && step < step_tolerance)
         {
-          TaoSetConvergedReason(tao, TAO_CONVERGED_STEPTOL);
+          const TaoConvergedReason r =
+            gnorm <= 1e-2 * self->first_gradient ? TAO_CONVERGED_STEPTOL : TAO_DIVERGED_LS_FAILURE;
+          TaoSetConvergedReason(tao, r);
           if (self->inner)
-            TaoSetConvergedReason(self->inner, TAO_CONVERGED_STEPTOL);
+            TaoSetConvergedReason(self->inner, r);
         }
       std::string line = "iteration " + std::to_string(its) + ": cost " + format_number(cost, 6) +
-                         ", step " + format_number(step, 3) + " (largest change of a scaled entry), solves " +
-                         std::to_string(self->solves);
+                         ", step " + format_number(step, 3) + " (largest change of a scaled entry), gradient " +
+                         format_number(gnorm, 3) + ", solves " + std::to_string(self->solves);
       for (std::size_t k = 0; k < u.size(); ++k)
         {
           const double v = self->entries[k].from_unit(u[k]);
@@ -700,7 +718,7 @@ namespace backcomb::study
           line += "\n    " + self->entries[k].path + " = " + format_number(v, 6);
         }
       self->history.push_back(
-        {{"iteration", its}, {"cost", cost}, {"step", step}, {"solves", self->solves}, {"values", values}});
+        {{"iteration", its}, {"cost", cost}, {"step", step}, {"gradient", gnorm}, {"solves", self->solves}, {"values", values}});
       if (!self->o.quiet)
         {
           const double s = std::chrono::duration<double>(std::chrono::steady_clock::now() - self->start).count();
@@ -730,7 +748,8 @@ namespace backcomb::study
           case TAO_DIVERGED_MAXITS:
             return "stopped: maximum number of iterations (--iterations)";
           case TAO_DIVERGED_LS_FAILURE:
-            return "stopped: the line search found no decrease";
+            return "stopped: no step lowers the cost, but the gradient is still large (against a bound or a "
+                   "failing model?)";
           case TAO_DIVERGED_TR_REDUCTION:
             return "stopped: the trust region collapsed";
           case TAO_DIVERGED_MAXFCN:
@@ -780,14 +799,23 @@ namespace backcomb::study
           MatCreateSeqDense(PETSC_COMM_SELF, m, p, nullptr, &J);
           TaoSetSolution(tao, x);
           TaoSetVariableBounds(tao, lo, hi);
-          TaoSetResidualRoutine(tao, f, tao_residual, this);
-          TaoSetJacobianResidualRoutine(tao, J, J, tao_jacobian, this);
+          TaoContext pr{this}, pj{this}, pm{this};
+          TaoSetResidualRoutine(tao, f, tao_residual, &pr);
+          TaoSetJacobianResidualRoutine(tao, J, J, tao_jacobian, &pj);
           TaoSetOptionsPrefix(tao, "backcomb_fit_");
-          PetscOptionsSetValue(nullptr, "-backcomb_fit_tao_brgn_regularization_type", "lm");
+          PetscOptionsSetValue(nullptr, "-backcomb_fit_tao_brgn_regularization_type", "l2prox");
+          // The inner solver: bounded Newton with a trust region (on the
+          // Gauss-Newton Hessian), which rejects a step that raises the cost
+          // and shrinks the region; ill-conditioned fits (correlated
+          // entries) otherwise take giant first steps to the bounds.
+          PetscOptionsSetValue(nullptr, "-tao_brgn_subsolver_tao_type", "bntr");
+          // The first trust region: a tenth of every scaled range.
+          PetscOptionsSetValue(nullptr, "-tao_brgn_subsolver_tao_bnk_init_type", "constant");
+          PetscOptionsSetValue(nullptr, "-tao_brgn_subsolver_tao_trust0", "0.1");
           TaoSetFromOptions(tao);
           TaoSetTolerances(tao, 1e-10, 1e-12, 0.0);
           TaoSetMaximumIterations(tao, PetscInt(o.max_iterations));
-          TaoSetMonitor(tao, tao_monitor, this, nullptr);
+          TaoSetMonitor(tao, tao_monitor, &pm, nullptr);
           // TAOBRGN iterates with an inner bounded Newton solver (stopped
           // by the step test in tao_monitor).
           TaoBRGNGetSubsolver(tao, &inner);
@@ -982,6 +1010,9 @@ namespace backcomb::study
           plot.y_label = s.kind == DataKind::eqe            ? "EQE"
                          : s.kind == DataKind::voc_vs_light ? "V#doc#u (V)"
                                                             : "J (mA/cm#u2#d), generated > 0";
+          plot.residual_label = s.kind == DataKind::eqe            ? "model - data"
+                                : s.kind == DataKind::voc_vs_light ? "model - data (V)"
+                                                                   : "model - data (mA/cm#u2#d)";
           plot.log_y = s.kind == DataKind::dark_jv;
           if (plot.log_y)
             plot.y_label = "|J| (mA/cm#u2#d)";
@@ -1018,6 +1049,11 @@ namespace backcomb::study
         }
       for (const auto &w : plot_warnings)
         warnings.push_back(w);
+      const auto unsolved = std::count_if(model.begin(), model.end(), [](double v) { return !std::isfinite(v); });
+      if (unsolved > 0)
+        warnings.push_back("the model has no converged value at " + std::to_string(unsolved) +
+                           " data point(s) at the fitted values (counted as " + format_number(missing_residual) +
+                           " standard deviations off); see NaN in fit-points.csv");
 
       // The fitted case: the base case as written, then the --set values
       // and the fitted values, and data files by absolute path.
@@ -1061,7 +1097,7 @@ namespace backcomb::study
         {"backcomb_version", program_version()},
         {"case_file", o.case_file},
         {"sets", o.sets},
-        {"optimiser", "PETSc TAO, bounded regularised Gauss-Newton (TAOBRGN) with Levenberg-Marquardt damping"},
+        {"optimiser", "PETSc TAO, bounded regularised Gauss-Newton (TAOBRGN), proximal (l2prox) regularisation"},
         {"status", reason > 0 ? "converged" : "not converged"},
         {"reason", reason_text(reason)},
         {"iterations", iterations},

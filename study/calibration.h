@@ -1,7 +1,7 @@
 // The calibration run (`backcomb calibrate`): fits chosen case-file
 // entries to measured data of test cells (study/measured.h) by bounded
 // non-linear least squares with PETSc's TAO (the bounded regularised
-// Gauss-Newton method, TAOBRGN, with Levenberg-Marquardt damping).
+// Gauss-Newton method, TAOBRGN, with its proximal regularisation).
 //
 // Each data set names its device by overrides of the base case. One model
 // evaluation solves every device once (simulator/device_response.h); the

@@ -27,7 +27,7 @@ for help in --help -h help; do
   expect_exit 0 "$binary" "$help"
   first_line_is "usage: backcomb <command> [arguments]" out.log
 done
-for command in template mesh solve sweep upgrade merge; do
+for command in template mesh solve sweep upgrade merge calibrate; do
   for help in --help -h; do
     expect_exit 0 "$binary" "$command" "$help"
     head -n 1 out.log | grep -q "^usage: backcomb $command\b" || fail "$command $help: first line $(head -n 1 out.log)"
@@ -38,6 +38,15 @@ expect_exit 0 "$binary" solve some.prm --help
 first_line_is "usage: backcomb solve CASE.prm [--set \"Section/Name=value\"]... [--out FOLDER]" out.log
 expect_exit 0 "$binary" help sweep
 grep -q -- "--vary" out.log || fail "help sweep does not describe --vary"
+
+# calibrate: what it needs, named before anything runs (exit 2).
+expect_exit 2 "$binary" calibrate "$case_file" --fit "Absorber/Transport/Electron mobility=0.1:10"
+grep -q "no --data FILE given" out.log || fail "calibrate without --data: $(cat out.log)"
+expect_exit 1 "$binary" calibrate "$case_file" --iterations 0
+grep -q -- "--iterations needs a whole number" out.log || fail "calibrate --iterations 0: $(cat out.log)"
+expect_exit 1 "$binary" solve "$case_file" --data x.dat
+expect_exit 2 "$binary" calibrate "$case_file" --data x.dat --fit "Absorber/Transport/Electron mobility=0.1:10" --loss tukey
+grep -q -- "--loss" out.log || fail "calibrate --loss tukey: $(cat out.log)"
 
 expect_exit 0 "$binary" --version
 grep -Eq '^backcomb [0-9]+\.[0-9]+\.[0-9]+$' <(head -n 1 out.log) || fail "--version first line: $(head -n 1 out.log)"

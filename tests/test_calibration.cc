@@ -210,9 +210,9 @@ namespace
                      light_header + extra_header + "device = Geometry/Gap=" + std::to_string(gap) + "\n", biases, j);
   }
 
-  nlohmann::json
-  fit(const fs::path &dir, const std::vector<std::string> &data, const std::vector<std::string> &fitted,
-      const std::vector<std::string> &sets, const std::string &out = "out")
+  CalibrationOptions
+  options(const fs::path &dir, const std::vector<std::string> &data, const std::vector<std::string> &fitted,
+          const std::vector<std::string> &sets, const std::string &out = "out")
   {
     CalibrationOptions o;
     o.case_file  = tiny;
@@ -221,7 +221,14 @@ namespace
     o.sets       = sets;
     o.folder     = (dir / out).string();
     o.quiet      = true;
-    EXPECT_EQ(run_calibration(o, MPI_COMM_SELF), 0);
+    return o;
+  }
+
+  nlohmann::json
+  fit(const fs::path &dir, const std::vector<std::string> &data, const std::vector<std::string> &fitted,
+      const std::vector<std::string> &sets, const std::string &out = "out")
+  {
+    EXPECT_EQ(run_calibration(options(dir, data, fitted, sets, out), MPI_COMM_SELF), 0);
     return read_json(dir / out / "fit.json");
   }
 
@@ -346,13 +353,7 @@ TEST(Calibration, ResumesFromItsEvaluations)
               value_of(first, "Absorber/Transport/Electron mobility"), 1e-7);
   // A different data set in the same folder is refused.
   const auto other = light_data(dir, 2.0, {"Absorber/Transport/Electron mobility=1"});
-  CalibrationOptions o;
-  o.case_file  = tiny;
-  o.data_files = {other};
-  o.fit        = fitted;
-  o.sets       = sets;
-  o.folder     = (dir / "out").string();
-  o.quiet      = true;
+  const CalibrationOptions o = options(dir, {other}, fitted, sets);
   EXPECT_NE(error_of([&] { run_calibration(o, MPI_COMM_SELF); }).find("different calibration"), std::string::npos);
 }
 
@@ -433,4 +434,38 @@ TEST(DeviceResponse, EqeIntegratesToTheShortCircuitCurrent)
   // Outside the model's wavelengths: an input error.
   between.eqe_wavelengths_nm = {g.wavelengths_nm().back() + 50};
   EXPECT_NE(error_of([&] { truth(spectral, between, dir); }).find("outside the optical model"), std::string::npos);
+}
+
+// One outlier among noise-free points (a contact glitch of +3 mA/cm^2 at
+// 0.5 V): plain least squares is pulled away from the truth, the Cauchy
+// loss (scale 3 sigma) keeps the fit on it. A truth beyond the upper bound
+// ends at the bound, with a warning.
+TEST(Calibration, RobustLossResistsAnOutlierAndBoundsAreReported)
+{
+  const auto dir  = test_support::fresh_folder("calibration-robust");
+  const std::vector<std::string> truth_sets{"Absorber/Transport/Electron mobility=1"};
+  std::vector<double> glitch(biases.size(), 0.0);
+  glitch[5] = 3.0;
+  const auto data = light_data(dir, 4.0, truth_sets, "sigma = 0.05\n", glitch);
+  const std::vector<std::string> fitted{"Absorber/Transport/Electron mobility=0.1:10"};
+  const std::vector<std::string> start{"Absorber/Transport/Electron mobility=2"};
+  const double plain = value_of(fit(dir, {data}, fitted, start, "plain"), "Absorber/Transport/Electron mobility");
+  CalibrationOptions o = options(dir, {data}, fitted, start, "cauchy");
+  parse_loss("cauchy:3", o);
+  EXPECT_EQ(run_calibration(o, MPI_COMM_SELF), 0);
+  const auto   f      = read_json(dir / "cauchy" / "fit.json");
+  const double robust = value_of(f, "Absorber/Transport/Electron mobility");
+  std::printf("mobility with an outlier: plain least squares %.5f, Cauchy loss %.5f (truth 1)\n", plain, robust);
+  EXPECT_GT(std::abs(plain - 1.0), 1e-2);
+  EXPECT_LT(std::abs(robust - 1.0), 0.1 * std::abs(plain - 1.0));
+  EXPECT_EQ(f["loss"]["kind"], "cauchy");
+
+  const auto bounded = fit(dir, {data}, {"Absorber/Transport/Electron mobility=0.1:0.5"},
+                           {"Absorber/Transport/Electron mobility=0.3"}, "bounded");
+  bool at_bound = false;
+  for (const auto &e : bounded["entries"])
+    at_bound = e["at_bound"].get<bool>();
+  EXPECT_TRUE(at_bound);
+  EXPECT_NEAR(value_of(bounded, "Absorber/Transport/Electron mobility"), 0.5, 1e-6);
+  EXPECT_NE(bounded["warnings"].dump().find("at its upper bound"), std::string::npos);
 }
