@@ -714,6 +714,23 @@ namespace backcomb::simulator
   } // namespace
 
   std::string
+  override_as_text(const std::string &override)
+  {
+    const auto [path, value] = split_override(override);
+    std::vector<std::string> parts;
+    std::stringstream        p(path);
+    for (std::string s; std::getline(p, s, '/');)
+      parts.push_back(s);
+    std::string text, indent;
+    for (std::size_t d = 0; d + 1 < parts.size(); ++d, indent += "  ")
+      text += indent + "subsection " + parts[d] + "\n";
+    text += indent + "set " + parts.back() + " = " + value + "\n";
+    for (std::size_t d = parts.size() - 1; d-- > 0;)
+      text += std::string(2 * d, ' ') + "end\n";
+    return text;
+  }
+
+  std::string
   entry_value(const Case &c, const std::string &path)
   {
     dealii::ParameterHandler prm;

@@ -99,4 +99,8 @@ namespace backcomb::simulator
   std::string unknown_entry_reason(const std::string &path);
 
   std::pair<std::string, std::string> split_override(const std::string &text);
+
+  // "Section/Sub/Name=value" as case-file text: the subsection blocks
+  // around one `set` line (appended to a case, it overrides the entry).
+  std::string override_as_text(const std::string &override);
 } // namespace backcomb::simulator

@@ -354,12 +354,7 @@ namespace backcomb::study
       for (const auto &f : o.fit)
         ident.push_back("fit " + f);
       for (const auto &s : sets)
-        {
-          std::ifstream     in(s.file);
-          std::stringstream t;
-          t << in.rdbuf();
-          ident.push_back("data " + t.str());
-        }
+        ident.push_back("data " + s.text);
       fingerprint = result_fingerprint(case_text, ident);
     }
 
@@ -444,15 +439,13 @@ namespace backcomb::study
             {
               r.failures.push_back(e.what());
             }
+          const std::size_t expected = d.request.light_biases.size() + d.request.dark_biases.size() +
+                                       d.request.eqe_wavelengths_nm.size() + d.request.voc_light_factors.size();
           std::vector<double> flat;
           for (const auto *v : {&r.light_current, &r.dark_current, &r.eqe, &r.voc})
             flat.insert(flat.end(), v->begin(), v->end());
-          if (flat.empty() || flat.size() != d.request.light_biases.size() + d.request.dark_biases.size() +
-                                               d.request.eqe_wavelengths_nm.size() +
-                                               d.request.voc_light_factors.size())
-            flat.assign(d.request.light_biases.size() + d.request.dark_biases.size() +
-                          d.request.eqe_wavelengths_nm.size() + d.request.voc_light_factors.size(),
-                        std::nan(""));
+          if (flat.size() != expected) // the solve threw before it answered
+            flat.assign(expected, std::nan(""));
           mine.push_back(std::move(flat));
         }
       // Everyone gets every task's values, in task order.
@@ -1068,19 +1061,7 @@ namespace backcomb::study
             lines.push_back(std::string(entry) + "=" + (folder / v).lexically_normal().string());
         }
       for (const auto &l : lines)
-        {
-          const auto [path, value] = simulator::split_override(l);
-          std::vector<std::string> parts;
-          std::stringstream        ps(path);
-          for (std::string s; std::getline(ps, s, '/');)
-            parts.push_back(s);
-          std::string indent;
-          for (std::size_t d = 0; d + 1 < parts.size(); ++d, indent += "  ")
-            prm += indent + "subsection " + parts[d] + "\n";
-          prm += indent + "set " + parts.back() + " = " + value + "\n";
-          for (std::size_t d = parts.size() - 1; d-- > 0;)
-            prm += std::string(2 * d, ' ') + "end\n";
-        }
+        prm += simulator::override_as_text(l);
       write_file_atomically(o.folder + "/fitted.prm", prm);
       write_file_atomically(o.folder + "/fit-points.csv", csv);
 

@@ -18,16 +18,6 @@ namespace backcomb::study
   namespace
   {
     std::string
-    trim(const std::string &s)
-    {
-      const auto a = s.find_first_not_of(" \t\r");
-      if (a == std::string::npos)
-        return "";
-      const auto b = s.find_last_not_of(" \t\r");
-      return s.substr(a, b - a + 1);
-    }
-
-    std::string
     lower(std::string s)
     {
       std::transform(s.begin(), s.end(), s.begin(), [](unsigned char c) { return char(std::tolower(c)); });
@@ -122,6 +112,7 @@ namespace backcomb::study
     require_utf8(text, file, true);
 
     MeasuredSet s;
+    s.text  = text;
     s.file  = file;
     s.label = std::filesystem::path(file).stem().string();
     std::optional<DataKind>    kind;

@@ -37,6 +37,7 @@ namespace backcomb::study
   struct MeasuredSet
   {
     std::string              file, label;
+    std::string              text; // the file as read (its bytes identify a calibration)
     DataKind                 kind = DataKind::light_jv;
     std::vector<std::string> device; // "Section/Name=value" overrides of the base case
     double                   weight = 1;
