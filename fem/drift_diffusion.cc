@@ -559,7 +559,8 @@ namespace backcomb::fem
   }
 
   NewtonReport
-  DriftDiffusionSolver::newton(Vector<double> &u, const double light, const bool reuse) const
+  DriftDiffusionSolver::newton(Vector<double> &u, const double light, const bool reuse,
+                               const unsigned max_iterations) const
   {
     // A chord step solves with the factorisation of an earlier Jacobian
     // (of this solve or of the last converged state) and costs one residual
@@ -577,7 +578,7 @@ namespace backcomb::fem
     // update limit, where Newton's model is trusted.
     double previous = numerics.max_update;
     bool   fresh    = !reuse || !factors_valid;
-    for (unsigned it = 0; it < numerics.max_iterations; ++it)
+    for (unsigned it = 0; it < max_iterations; ++it)
       {
         const bool chord = !fresh;
         if (chord)
@@ -817,7 +818,7 @@ namespace backcomb::fem
       }
     set_boundary_values(solution, 0.0);
     Vector<double> u = solution;
-    const NewtonReport rep = newton(u, 0.0, false);
+    const NewtonReport rep = newton(u, 0.0, false, numerics.max_iterations);
     if (rep.converged)
       {
         equilibrium  = u;
@@ -829,19 +830,21 @@ namespace backcomb::fem
   }
 
   NewtonReport
-  DriftDiffusionSolver::solve(const double voltage, const double light)
+  DriftDiffusionSolver::solve(const double voltage, const double light, const unsigned iteration_budget)
   {
     Vector<double> u = solution;
     set_boundary_values(u, voltage);
-    NewtonReport rep = newton(u, light, numerics.reuse_factorisations);
-    if (!rep.converged && rep.chord_steps > 0)
+    const unsigned cap =
+      iteration_budget > 0 ? std::min(iteration_budget, numerics.max_iterations) : numerics.max_iterations;
+    NewtonReport rep = newton(u, light, numerics.reuse_factorisations, cap);
+    if (!rep.converged && rep.chord_steps > 0 && iteration_budget == 0)
       {
         // Chord steps can stall where full Newton steps still converge:
         // try again from the same start with a fresh Jacobian every step
         // (unless the attempt took none, and so was plain Newton already).
         u = solution;
         set_boundary_values(u, voltage);
-        NewtonReport full = newton(u, light, false);
+        NewtonReport full = newton(u, light, false, numerics.max_iterations);
         full.chord_attempt_iterations = rep.iterations;
         full.iterations += rep.iterations;
         full.factorisations += rep.factorisations;

@@ -122,8 +122,12 @@ namespace backcomb::fem
 
     // Solves at hole-contact voltage V (volts, electron contact grounded)
     // and light factor s (generation scaled by s), starting from the
-    // current state. Does not change the state if Newton fails.
-    NewtonReport solve(double voltage, double light_factor);
+    // current state. Does not change the state if Newton fails. A
+    // non-zero `iteration_budget` caps the Newton iterations below
+    // Numerics/Newton iterations and drops the retry with plain Newton
+    // after failed chord steps: for a start from a predicted guess, whose
+    // caller falls back to a start from the last converged state.
+    NewtonReport solve(double voltage, double light_factor, unsigned iteration_budget = 0);
 
     TerminalCurrent terminal_current() const;
 
@@ -227,7 +231,7 @@ namespace backcomb::fem
                            dealii::Vector<double> &r) const;
     // Newton's method; with `reuse` a step may take the factorisation of an
     // earlier Jacobian (a chord step) while the updates contract fast.
-    NewtonReport newton(dealii::Vector<double> &u, double light, bool reuse) const;
+    NewtonReport newton(dealii::Vector<double> &u, double light, bool reuse, unsigned max_iterations) const;
     bool lu_solve(Vec b, Vec x, bool transpose) const;
     // All DoFs of component c on boundary b, on every process.
     std::vector<dealii::types::global_dof_index> boundary_dofs(unsigned b, unsigned c) const;
