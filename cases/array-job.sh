@@ -33,7 +33,7 @@ set -euo pipefail
 
 # The swept gaps in um (as in the "Candidate gaps" line of cases/demo.prm)
 # and the number of array tasks they are shared among.
-GAPS="5,10,20,50,100,200"
+GAPS="8,12,20,30,45,70"
 TASKS=3
 
 # Work in the repository root: the submission folder when the scheduler

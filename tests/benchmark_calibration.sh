@@ -13,7 +13,7 @@ export OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1
 quick=(--set "J-V scan/Dark scan=false" --set "Output/Write fields=false" --set "J-V scan/Suns-Voc intensities=")
 data=()
 for gap in 10 20 40; do
-  "$binary" solve "$here/cases/demo.prm" --set "Geometry/Gap=$gap" "${quick[@]}" --out "$work/truth-$gap" --quiet > /dev/null
+  "$binary" solve "$here/cases/short-film.prm" --set "Geometry/Gap=$gap" "${quick[@]}" --out "$work/truth-$gap" --quiet > /dev/null
   file="$work/light-$gap.dat"
   {
     echo "kind = light J-V"
@@ -28,7 +28,7 @@ for gap in 10 20 40; do
   data+=(--data "$file")
 done
 start=$(date +%s.%N)
-mpirun -np 2 --oversubscribe "$binary" calibrate "$here/cases/demo.prm" "${data[@]}" \
+mpirun -np 2 --oversubscribe "$binary" calibrate "$here/cases/short-film.prm" "${data[@]}" \
   --fit "Absorber/Transport/Electron mobility=0.01:100" \
   --fit "Absorber/Transport/Hole mobility=0.01:100" \
   --fit "Absorber/Recombination/SRH/Electron lifetime=1e-9:1e-4" \

@@ -7,7 +7,7 @@
 // The floor is one numerical factorisation of the Jacobian (the mean over
 // the run); a bias that costs one factorisation, one assembly and a few
 // residuals is near it. The demo sweep's time is printed by `.ci/demo`.
-// Run: build/tests/benchmark_demo [path/to/cases/demo.prm]
+// Run: build/tests/benchmark_demo [path/to/cases/short-film.prm]
 #include "simulator/case_file.h"
 #include "simulator/case_run.h"
 
@@ -88,7 +88,7 @@ int
 main(int argc, char **argv)
 {
   dealii::Utilities::MPI::MPI_InitFinalize mpi(argc, argv, 1);
-  const std::string demo = argc > 1 ? argv[1] : std::string(BACKCOMB_SOURCE_DIR) + "/cases/demo.prm";
+  const std::string demo = argc > 1 ? argv[1] : std::string(BACKCOMB_SOURCE_DIR) + "/cases/short-film.prm";
 
   const Run full = run(demo, {"Geometry/Gap=50"});
   print_jv("demo at 50 um gap, full solve as shipped", full);

@@ -11,6 +11,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdlib>
+#include <fstream>
 #include <map>
 #include <optional>
 #include <sstream>
@@ -493,4 +494,38 @@ TEST(LegacyEntries, UpgradeMovesAnEntryToAnotherSection)
                                "  end\n"
                                "end\n";
   EXPECT_EQ(upgrade_case_text(text, table), expected);
+}
+
+// The shipped case files read without error, and the candidate gaps in the
+// header of each ("# Candidate gaps (um): ..."), which .ci/demo sweeps, lie
+// inside its Fabrication limits. (A consistency check of the shipped
+// files: no outside reference applies.)
+TEST(ShippedCases, ReadAndListGapsTheProcessCanMake)
+{
+  for (const char *name : {"demo.prm", "short-film.prm"})
+    {
+      const std::string file = std::string(BACKCOMB_SOURCE_DIR) + "/cases/" + name;
+      SCOPED_TRACE(file);
+      const Case c = read_case(file, {});
+      std::ifstream in(file);
+      std::vector<double> gaps;
+      for (std::string line; std::getline(in, line);)
+        if (line.rfind("# Candidate gaps (um):", 0) == 0)
+          {
+            std::istringstream values(line.substr(line.find(':') + 1));
+            for (double g; values >> g;)
+              gaps.push_back(g);
+          }
+      ASSERT_GE(gaps.size(), 3u);
+      for (const double g : gaps)
+        {
+          EXPECT_GE(g, c.fabrication.smallest_gap_um);
+          EXPECT_LE(g, c.fabrication.largest_gap_um);
+        }
+      EXPECT_TRUE(std::is_sorted(gaps.begin(), gaps.end()));
+    }
+  // The demo states the patterning limit its header describes.
+  const Case demo = read_case(std::string(BACKCOMB_SOURCE_DIR) + "/cases/demo.prm", {});
+  EXPECT_EQ(demo.fabrication.smallest_gap_um, 8.0);
+  EXPECT_EQ(demo.fabrication.gap_tolerance_um, 2.0);
 }

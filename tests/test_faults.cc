@@ -373,7 +373,7 @@ TEST(GuardRails, WarningsInSummary)
 }
 
 // Chord steps (a Newton step with the factorisation of an earlier
-// Jacobian) change the path to each point, not the point: the demo film at
+// Jacobian) change the path to each point, not the point: the short-film case (the first demo) at
 // a 10 um gap with and without them gives the same metrics, collection
 // efficiency and J-V currents to the Newton tolerance (1e-6 relative is far
 // above the 1e-9 kT/q of the potentials), with less than half the
@@ -384,7 +384,7 @@ TEST(GuardRails, WarningsInSummary)
 TEST(Speed, ChordStepsGiveTheNewtonResult)
 {
   const fs::path dir = fresh_folder("chord");
-  const std::string demo = std::string(BACKCOMB_SOURCE_DIR) + "/cases/demo.prm";
+  const std::string demo = std::string(BACKCOMB_SOURCE_DIR) + "/cases/short-film.prm";
   const std::vector<std::string> common{"Geometry/Gap=10", "J-V scan/Dark scan=false", "J-V scan/Voltage step=0.05",
                                         "Output/Write fields=false", "J-V scan/Suns-Voc intensities=1, 0.1"};
   auto with = [&](const char *reuse) {

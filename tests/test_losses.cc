@@ -165,12 +165,13 @@ namespace
 {
   namespace fs = std::filesystem;
 
-  // Demo case at one gap, light J-V only, no fields.
+  // The short-film case (cases/short-film.prm, the first demo) at one gap,
+  // light J-V only, no fields.
   nlohmann::json
   run_demo(const double gap_um, const fs::path &folder, const bool suns_voc,
            const std::vector<std::string> &more = {})
   {
-    const std::string demo = std::string(BACKCOMB_SOURCE_DIR) + "/cases/demo.prm";
+    const std::string demo = std::string(BACKCOMB_SOURCE_DIR) + "/cases/short-film.prm";
     std::vector<std::string> o = {"Geometry/Gap=" + std::to_string(gap_um), "J-V scan/Dark scan=false",
                                   "J-V scan/Start voltage=0", "J-V scan/Voltage step=0.05",
                                   "Output/Write fields=false", "Output/Field biases=0"};
@@ -187,7 +188,7 @@ namespace
   }
 } // namespace
 
-// The demo's balance closes within 1 % of the free-energy input at short
+// The short-film case's balance closes within 1 % of the free-energy input at short
 // circuit, maximum power and open circuit for three gaps (Brendel et al.,
 // Appl. Phys. Lett. 93 (2008) 173503); at open circuit the output is zero
 // and recombination takes all of it. The optical side starts from the
