@@ -1,0 +1,216 @@
+#include "study/confidence.h"
+
+#include "base/format.h"
+#include "study/rows.h"
+
+#include <algorithm>
+#include <cmath>
+#include <sstream>
+
+namespace backcomb::study
+{
+  namespace
+  {
+    bool
+    has_result(const StudyRow &r)
+    {
+      return r.status == Status::converged || r.status == Status::partial;
+    }
+
+    // The grid points whose share reaches the confidence, and the one to
+    // make: the widest gap, or with a cost per gap the cheapest (of equal
+    // cost the wider); for a study of another entry the largest share.
+    std::optional<std::size_t>
+    choose(const StudyPlan &plan, const std::vector<StudyRow> &grid_rows, const SampledRecommendation &r)
+    {
+      std::vector<std::size_t> candidates;
+      for (std::size_t g = 0; g < r.share.size(); ++g)
+        if (r.share[g] >= r.confidence - 1e-12)
+          candidates.push_back(g);
+      if (candidates.empty())
+        return std::nullopt;
+      // Of equal share, the point that is most often the best.
+      if (!r.gap_study)
+        return *std::max_element(candidates.begin(), candidates.end(), [&](std::size_t a, std::size_t b) {
+          return std::make_pair(r.share[a], r.best_count[a]) < std::make_pair(r.share[b], r.best_count[b]);
+        });
+      const auto gap = [&](std::size_t g) { return *to_number(grid_rows[g].values[0]); };
+      std::stable_sort(candidates.begin(), candidates.end(), [&](std::size_t a, std::size_t b) { return gap(a) < gap(b); });
+      std::size_t chosen = candidates.front();
+      for (const auto g : candidates)
+        if (plan.fabrication.cost_at(gap(g)) <= plan.fabrication.cost_at(gap(chosen)))
+          chosen = g;
+      return chosen;
+    }
+
+    std::string
+    percent(const double fraction)
+    {
+      return format_number(100 * fraction, 3) + " %";
+    }
+
+    // "A 0.82, B 0.10: measure A better first."
+    std::string
+    ranking_text(const SensitivityRanking &s, const std::string &what)
+    {
+      if (!s.varies)
+        return " " + what + " is the same in every counted sample: no uncertain entry moves it.";
+      if (s.classes == 0)
+        return " Too few samples (" + std::to_string(s.samples) + ", fewer than 4) to estimate which entry moves " +
+               what + ".";
+      std::string text = " First-order sensitivity of " + what + " (given-data estimate, " +
+                         std::to_string(s.classes) + " classes of " + std::to_string(s.samples) + " samples): ";
+      for (std::size_t k = 0; k < s.entries.size(); ++k)
+        text += (k ? ", " : "") + s.entries[k] + " " +
+                (std::isfinite(s.index[k]) ? format_number(s.index[k], 2) : std::string("not estimated"));
+      return text + "; measure " + s.entries.front() + " better first.";
+    }
+
+    // The sentences of the recommendation.
+    std::string
+    sampled_text(const StudyPlan &plan, const std::vector<StudyRow> &grid_rows, const std::vector<BandPoint> &points,
+                 const SampledRecommendation &r)
+    {
+      const StudyEntry  &first  = plan.entries.front();
+      const auto         value  = [&](std::size_t g) { return with_unit(grid_rows[g].values[0], first.unit); };
+      const std::string  margin = format_number(100 * r.margin, 3) + " %";
+      const std::size_t  failed = r.samples - r.complete;
+      std::ostringstream text;
+      text << "Over " << r.samples << " samples of the uncertain entries";
+      if (failed > 0)
+        text << " (" << failed << (failed > 1 ? " samples have" : " sample has")
+             << " a failed or missing case and " << (failed > 1 ? "are" : "is") << " not counted)";
+      text << ": ";
+      if (r.complete == 0)
+        {
+          text << "no recommendation, no sample has a result at every grid point.";
+          return text.str();
+        }
+      const auto within = [&](std::size_t g) {
+        return std::to_string(std::size_t(std::lround(r.share[g] * double(r.complete)))) + " of " +
+               std::to_string(r.complete) + " samples (" + percent(r.share[g]) + ")";
+      };
+      if (r.chosen)
+        {
+          const std::size_t g = *r.chosen;
+          text << (r.gap_study ? "make " : "choose ") << first.path << " = " << value(g) << ": within " << margin
+               << " of each sample's best PCE in " << within(g) << ", Fabrication/Confidence "
+               << format_number(100 * r.confidence, 3) << " %.";
+          const auto &p = points[g];
+          if (p.median.PCE || p.median.PCE_cell)
+            {
+              const Criterion c = r.per_sample.empty() ? Criterion::pce_per_footprint : r.per_sample.front().criterion;
+              text << " Its PCE: median " << format_number(*deciding_pce(c, p.median), 4) << " %, "
+                   << format_number(plan.samples.band_low, 3) << "-" << format_number(plan.samples.band_high, 3)
+                   << " %: " << format_number(deciding_pce(c, p.low).value_or(NAN), 4) << " to "
+                   << format_number(deciding_pce(c, p.high).value_or(NAN), 4) << " %.";
+            }
+          // The next wider gap of the same line, and its share.
+          if (r.gap_study)
+            for (const auto &line : lines_of(plan, grid_rows))
+              if (const auto at = std::find(line.begin(), line.end(), g); at != line.end() && at + 1 != line.end())
+                text << " The next wider gap, " << value(*(at + 1)) << ", is within the margin in "
+                     << within(*(at + 1)) << ".";
+        }
+      else
+        text << "no " << first.path << " is within " << margin << " of each sample's best PCE in at least "
+             << format_number(100 * r.confidence, 3) << " % (Fabrication/Confidence) of the " << r.complete
+             << " counted samples; the most often within the margin is " << value(*r.most_often) << ", in "
+             << within(*r.most_often)
+             << ". Lower Fabrication/Confidence, widen Fabrication/Near-best margin, or measure the entry that moves "
+                "the choice most (below) better.";
+      // The spread of the samples' own best.
+      std::optional<std::size_t> lo, hi, often;
+      for (std::size_t g = 0; g < r.best_count.size(); ++g)
+        if (r.best_count[g] > 0)
+          {
+            const auto x = to_number(grid_rows[g].values[0]);
+            if (!lo || (x && *x < *to_number(grid_rows[*lo].values[0])))
+              lo = g;
+            if (!hi || (x && *x > *to_number(grid_rows[*hi].values[0])))
+              hi = g;
+            if (!often || r.best_count[g] > r.best_count[*often])
+              often = g;
+          }
+      if (often && all_numeric(first.values))
+        text << " Each sample's best " << first.path << ": from " << value(*lo) << " to " << value(*hi)
+             << " (most often " << value(*often) << ", " << r.best_count[*often] << " samples).";
+      text << ranking_text(r.choice_sensitivity,
+                           r.gap_study ? "the chosen gap (the widest within the margin)" : "the best " + first.path);
+      if (r.chosen)
+        text << ranking_text(r.pce_sensitivity, "the PCE at " + value(*r.chosen));
+      return text.str();
+    }
+  } // namespace
+
+  SampledRecommendation
+  recommend_with_samples(const StudyPlan &plan, const std::vector<StudyRow> &rows, const std::vector<BandPoint> &points)
+  {
+    SampledRecommendation r;
+    const std::size_t     grid = grid_size(plan);
+    r.samples                  = plan.samples.count;
+    r.confidence               = plan.fabrication.confidence_percent / 100;
+    r.margin                   = plan.fabrication.near_best_percent / 100;
+    r.gap_study                = plan.entries[0].path == "Geometry/Gap" && all_numeric(plan.entries[0].values);
+    r.best_count.assign(grid, 0);
+    std::vector<std::size_t> within(grid, 0);
+    const std::vector<StudyRow> grid_rows(rows.begin(), rows.begin() + long(grid));
+    for (std::size_t s = 0; s < r.samples; ++s)
+      {
+        const std::vector<StudyRow> own(rows.begin() + long(s * grid), rows.begin() + long((s + 1) * grid));
+        const bool complete = std::all_of(own.begin(), own.end(), has_result);
+        r.per_sample.push_back(recommend(plan, own));
+        r.sample_complete.push_back(complete);
+        r.sample_choice.emplace_back();
+        r.pce_at_chosen.emplace_back();
+        const Recommendation &rec = r.per_sample.back();
+        if (!complete)
+          continue;
+        ++r.complete;
+        if (!rec.valid)
+          continue;
+        for (const auto g : rec.near_best)
+          ++within[g];
+        ++r.best_count[rec.best];
+        r.sample_choice.back() = to_number(own[r.gap_study ? *rec.widest : rec.best].values[0]);
+      }
+    r.share.assign(grid, 0.0);
+    for (std::size_t g = 0; g < grid && r.complete > 0; ++g)
+      r.share[g] = double(within[g]) / double(r.complete);
+    if (r.complete > 0)
+      {
+        r.most_often = std::size_t(std::max_element(r.share.begin(), r.share.end()) - r.share.begin());
+        r.chosen     = choose(plan, grid_rows, r);
+        r.valid      = r.chosen.has_value();
+      }
+
+    // Sensitivity over the samples that chose: x the sampled values.
+    std::vector<std::string> names;
+    for (const auto &e : plan.samples.entries)
+      names.push_back(e.path);
+    const auto ranking = [&](const std::string &what, const std::vector<std::optional<double>> &y) {
+      std::vector<std::vector<double>> x(names.size());
+      std::vector<double>              ys;
+      for (std::size_t s = 0; s < y.size(); ++s)
+        if (y[s])
+          {
+            ys.push_back(*y[s]);
+            for (std::size_t k = 0; k < names.size(); ++k)
+              x[k].push_back(plan.samples.values[s][k]);
+          }
+      return rank_entries(what, names, x, ys);
+    };
+    if (r.chosen)
+      for (std::size_t s = 0; s < r.samples; ++s)
+        if (r.sample_choice[s])
+          r.pce_at_chosen[s] = deciding_pce(r.per_sample[s].criterion, rows[s * grid + *r.chosen]);
+    const std::string unit = plan.entries[0].unit;
+    r.choice_sensitivity =
+      ranking((r.gap_study ? std::string("chosen gap") : "best " + plan.entries[0].path) +
+                (unit.empty() ? "" : " (" + unit + ")"),
+              r.sample_choice);
+    r.pce_sensitivity = ranking("PCE at the recommended point (%)", r.pce_at_chosen);
+    r.text            = sampled_text(plan, grid_rows, points, r);
+    return r;
+  }
+} // namespace backcomb::study
