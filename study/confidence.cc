@@ -4,6 +4,7 @@
 #include "study/rows.h"
 
 #include <algorithm>
+#include <cctype>
 #include <cmath>
 #include <sstream>
 
@@ -54,7 +55,8 @@ namespace backcomb::study
     ranking_text(const SensitivityRanking &s, const std::string &what)
     {
       if (!s.varies)
-        return " " + what + " is the same in every counted sample: no uncertain entry moves it.";
+        return " " + std::string(1, char(std::toupper(static_cast<unsigned char>(what[0])))) + what.substr(1) +
+               " is the same in every counted sample: no uncertain entry moves it.";
       if (s.classes == 0)
         return " Too few samples (" + std::to_string(s.samples) + ", fewer than 4) to estimate which entry moves " +
                what + ".";

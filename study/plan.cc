@@ -322,15 +322,15 @@ namespace backcomb::study
       for (std::size_t index = 0; index < total; ++index)
         {
           StudyCase c = grid_point(plan, names, index);
+          if (plan.samples.active())
+            add_sample(plan, sample, c);
           if (c.id.size() > 200 || !ids.insert(c.id).second)
             {
               // Values that differ only in characters a folder name cannot
               // hold: the plan index keeps the names apart.
-              c.id = c.id.substr(0, 180) + "__case" + std::to_string(index);
+              c.id = c.id.substr(0, 160) + "__case" + std::to_string(plan.cases.size());
               ids.insert(c.id);
             }
-          if (plan.samples.active())
-            add_sample(plan, sample, c);
           check_grid_point(plan, c);
           c.fingerprint = result_fingerprint(plan.case_text, c.overrides);
           plan.cases.push_back(std::move(c));
