@@ -60,8 +60,8 @@ namespace backcomb::study
       if (s.classes == 0)
         return " Too few samples (" + std::to_string(s.samples) + ", fewer than 4) to estimate which entry moves " +
                what + ".";
-      std::string text = " First-order sensitivity of " + what + " (given-data estimate, " +
-                         std::to_string(s.classes) + " classes of " + std::to_string(s.samples) + " samples): ";
+      std::string text = " First-order sensitivity (given-data estimate, " + std::to_string(s.classes) +
+                         " classes of " + std::to_string(s.samples) + " samples) of " + what + ": ";
       for (std::size_t k = 0; k < s.entries.size(); ++k)
         text += (k ? ", " : "") + s.entries[k] + " " +
                 (std::isfinite(s.index[k]) ? format_number(s.index[k], 2) : std::string("not estimated"));
@@ -138,7 +138,7 @@ namespace backcomb::study
         text << " Each sample's best " << first.path << ": from " << value(*lo) << " to " << value(*hi)
              << " (most often " << value(*often) << ", " << r.best_count[*often] << " samples).";
       text << ranking_text(r.choice_sensitivity,
-                           r.gap_study ? "the chosen gap (the widest within the margin)" : "the best " + first.path);
+                           r.gap_study ? "the chosen gap (each sample's widest within the margin)" : "the best " + first.path);
       if (r.chosen)
         text << ranking_text(r.pce_sensitivity, "the PCE at " + value(*r.chosen));
       return text.str();

@@ -268,6 +268,8 @@ namespace backcomb::study
         {
           postprocess::PlotSeries s;
           s.label = line_label(plan, med[line.front()]);
+          if (s.label.empty())
+            s.label = "median of the samples";
           for (const auto g : line)
             {
               s.x.push_back(x(g));
@@ -288,8 +290,7 @@ namespace backcomb::study
           data.series.push_back(std::move(s));
         }
       const SampleSet &u = plan.samples;
-      data.band_label    = format_number(u.band_low, 3) + "-" + format_number(u.band_high, 3) +
-                        " % of the samples (lines: median)";
+      data.band_label    = format_number(u.band_low, 3) + "-" + format_number(u.band_high, 3) + " % of samples";
       if (r.chosen)
         {
           data.best_x     = x(*r.chosen);

@@ -448,7 +448,7 @@ namespace backcomb::study
             s.band_low  = u.at("band_percent").at(0).get<double>();
             s.band_high = u.at("band_percent").at(1).get<double>();
             s.values    = u.at("values").get<std::vector<std::vector<double>>>();
-            if (s.entries.empty() || s.values.size() != s.count)
+            if (s.entries.empty() || s.count == 0 || s.values.size() != s.count)
               throw InputError(file + ": damaged sweep plan (the samples do not match their count)");
             for (const auto &v : s.values)
               if (v.size() != s.entries.size())
@@ -469,6 +469,15 @@ namespace backcomb::study
             sc.fingerprint = result_fingerprint(plan.case_text, sc.overrides);
             plan.cases.push_back(std::move(sc));
           }
+        // Samples are the outermost axis: case i belongs to sample
+        // i / grid_size, and every case of a sampled plan has its sample.
+        const std::size_t n = plan.samples.active() ? plan.samples.count : 1;
+        if (plan.samples.active() && (plan.cases.empty() || plan.cases.size() % n != 0))
+          throw InputError(file + ": damaged sweep plan (the cases do not fill the samples)");
+        for (std::size_t i = 0; i < plan.cases.size(); ++i)
+          if (plan.cases[i].sample.has_value() != plan.samples.active() ||
+              (plan.samples.active() && *plan.cases[i].sample != i / (plan.cases.size() / n)))
+            throw InputError(file + ": damaged sweep plan (case " + std::to_string(i) + " has another sample)");
         return plan;
       }
     catch (const json::exception &e)

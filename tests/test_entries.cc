@@ -242,6 +242,7 @@ TEST(Entries, TemplateRangeIsTheCheckedRange)
     {"Fabrication/Largest gap"},
     {"Fabrication/Gap tolerance"},
     {"Fabrication/Near-best margin"},
+    {"Fabrication/Confidence"},
   };
   for (const auto &s : samples)
     check_sample(s);
