@@ -68,6 +68,27 @@ namespace backcomb::study
       return text + "; measure " + s.entries.front() + " better first.";
     }
 
+    // The next wider gap on the chosen one's line and the loss whose median
+    // grows most up to it (the median curve's counterpart of the plain
+    // recommendation's limiting loss).
+    void
+    find_limit(const StudyPlan &plan, const std::vector<StudyRow> &grid_rows, const std::vector<BandPoint> &points,
+               SampledRecommendation &r)
+    {
+      for (const auto &line : lines_of(plan, grid_rows))
+        if (const auto at = std::find(line.begin(), line.end(), *r.chosen); at != line.end() && at + 1 != line.end())
+          r.beyond = *(at + 1);
+      if (!r.beyond)
+        return;
+      const auto &from = points[*r.chosen].median.loss_parts, &to = points[*r.beyond].median.loss_parts;
+      for (const auto &part : loss_parts())
+        {
+          const auto a = from.find(part.key), b = to.find(part.key);
+          if (a != from.end() && b != to.end() && b->second - a->second > r.limiting_growth)
+            r.limiting_growth = b->second - a->second, r.limiting_loss = part.key;
+        }
+    }
+
     // The sentences of the recommendation.
     std::string
     sampled_text(const StudyPlan &plan, const std::vector<StudyRow> &grid_rows, const std::vector<BandPoint> &points,
@@ -107,12 +128,17 @@ namespace backcomb::study
                    << " %: " << format_number(deciding_pce(c, p.low).value_or(NAN), 4) << " to "
                    << format_number(deciding_pce(c, p.high).value_or(NAN), 4) << " %.";
             }
-          // The next wider gap of the same line, and its share.
-          if (r.gap_study)
-            for (const auto &line : lines_of(plan, grid_rows))
-              if (const auto at = std::find(line.begin(), line.end(), g); at != line.end() && at + 1 != line.end())
-                text << " The next wider gap, " << value(*(at + 1)) << ", is within the margin in "
-                     << within(*(at + 1)) << ".";
+          if (r.beyond)
+            {
+              text << " The next wider gap, " << value(*r.beyond) << ", is within the margin in " << within(*r.beyond)
+                   << ".";
+              if (!r.limiting_loss.empty())
+                for (const auto &part : loss_parts())
+                  if (part.key == r.limiting_loss)
+                    text << " Wider gaps lose most to " << part.words << " (median +"
+                         << format_number(r.limiting_growth, 3) << " mW/cm^2 from " << value(g) << " to "
+                         << value(*r.beyond) << ").";
+            }
         }
       else
         text << "no " << first.path << " is within " << margin << " of each sample's best PCE in at least "
@@ -184,6 +210,8 @@ namespace backcomb::study
         r.most_often = std::size_t(std::max_element(r.share.begin(), r.share.end()) - r.share.begin());
         r.chosen     = choose(plan, grid_rows, r);
         r.valid      = r.chosen.has_value();
+        if (r.valid && r.gap_study)
+          find_limit(plan, grid_rows, points, r);
       }
 
     // Sensitivity over the samples that chose: x the sampled values.

@@ -45,6 +45,13 @@ namespace backcomb::study
     // the value of its best case) and its deciding PCE at the chosen grid
     // point.
     std::vector<std::optional<double>> sample_choice, pce_at_chosen;
+    // The next wider grid point than the chosen one on its line, and the
+    // loss part (LossPart::key) whose median grows most from the chosen to
+    // it, with the growth (mW/cm^2 of footprint); "" when none grows or
+    // not known.
+    std::optional<std::size_t> beyond;
+    std::string                limiting_loss;
+    double                     limiting_growth = 0;
     // First-order sensitivity of the two results on each uncertain entry.
     SensitivityRanking choice_sensitivity, pce_sensitivity;
     std::string text;

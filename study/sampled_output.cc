@@ -82,6 +82,14 @@ namespace backcomb::study
     j["recommended_share"]     = r.chosen ? json(r.share[*r.chosen]) : json(nullptr);
     j["most_often_within"]     = value(r.most_often);
     j["recommended_grid_point"] = r.chosen ? json(*r.chosen) : json(nullptr);
+    j["what_sets_the_limit"]    = r.beyond ? json{{"next_gap", rows[*r.beyond].values[0]},
+                                                  {"next_gap_share_within_margin", r.share[*r.beyond]},
+                                                  {"loss", r.limiting_loss.empty() ? json(nullptr)
+                                                                                   : json(r.limiting_loss)},
+                                                  {"median_growth_mW_per_cm2", r.limiting_loss.empty()
+                                                                                 ? json(nullptr)
+                                                                                 : json(r.limiting_growth)}}
+                                           : json(nullptr);
     return j;
   }
 

@@ -309,13 +309,22 @@ TEST(Uncertainty, ConfidenceSelectsTheWidestGapOfEnoughSamples)
   std::iota(L.begin(), L.end(), 1.0);
   StudyPlan  plan = synthetic_plan({"5", "10", "20", "50"}, L);
   const auto pce  = [](std::size_t s, double g) { return g <= 10 ? 10.0 : s == 9 && g <= 50 ? 9.9 : 8.0; };
-  const auto rows = synthetic_rows(plan, pce, [](std::size_t, double) { return 0.9; });
+  auto rows = synthetic_rows(plan, pce, [](std::size_t, double) { return 0.9; });
+  // Losses growing with the gap: the gap interface 0.01 mW/cm^2 per um
+  // (+0.1 from 10 to 20 um), the film's resistance 0.001 per um (+0.01).
+  for (auto &row : rows)
+    row.loss_parts = {{"gap_interface_recombination", 0.01 * *row.gap_um}, {"film_joule", 0.001 * *row.gap_um}};
   const auto points = band_points(plan, rows);
   auto       r      = recommend_with_samples(plan, rows, points);
   ASSERT_TRUE(r.valid);
   EXPECT_EQ(plan.entries[0].values[*r.chosen], "10");
   EXPECT_DOUBLE_EQ(r.share[2], 0.1);
   EXPECT_NE(r.text.find("make Geometry/Gap = 10 um"), std::string::npos) << r.text;
+  ASSERT_TRUE(r.beyond.has_value());
+  EXPECT_EQ(plan.entries[0].values[*r.beyond], "20");
+  EXPECT_EQ(r.limiting_loss, "gap_interface_recombination");
+  EXPECT_NEAR(r.limiting_growth, 0.1, 1e-12);
+  EXPECT_NE(r.text.find("Wider gaps lose most to recombination at the gap interface"), std::string::npos) << r.text;
   // Films that disagree: five samples best at 5 um, five at 50 um, each
   // far below its best elsewhere: no gap is near its sample's best in
   // 90 % of the samples.
