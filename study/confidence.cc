@@ -65,6 +65,18 @@ namespace backcomb::study
       for (std::size_t k = 0; k < s.entries.size(); ++k)
         text += (k ? ", " : "") + s.entries[k] + " " +
                 (std::isfinite(s.index[k]) ? format_number(s.index[k], 2) : std::string("not estimated"));
+      // The estimate's upward bias from the noise of the class means is
+      // about classes / samples: entries closer than that to the first are
+      // not told apart.
+      const double resolution = double(s.classes) / double(s.samples);
+      std::string  close;
+      for (std::size_t k = 1; k < s.entries.size(); ++k)
+        if (std::isfinite(s.index[k]) && s.index.front() - s.index[k] < resolution)
+          close += (close.empty() ? "" : ", ") + s.entries[k];
+      if (!close.empty())
+        return text + "; " + s.entries.front() + " and " + close +
+               " cannot be told apart with these samples (resolution about " + format_number(resolution, 2) +
+               "): measure them better first, or add samples.";
       return text + "; measure " + s.entries.front() + " better first.";
     }
 
