@@ -11,6 +11,7 @@
 #include <nlohmann/json.hpp>
 
 #include <cmath>
+#include <cstdio>
 #include <filesystem>
 #include <fstream>
 #include <numeric>
@@ -235,6 +236,9 @@ TEST(Uncertainty, BandOfCollectionMatchesAnalyticQuantiles)
       EXPECT_NEAR(*points[k].low.collection_efficiency / collection(2 + 18 * 0.05, g), 1, 0.01) << g;
       EXPECT_NEAR(*points[k].median.collection_efficiency / collection(2 + 18 * 0.5, g), 1, 0.01) << g;
       EXPECT_NEAR(*points[k].high.collection_efficiency / collection(2 + 18 * 0.95, g), 1, 0.01) << g;
+      std::printf("gap %5.0f um: band %.5f %.5f %.5f, analytic %.5f %.5f %.5f\n", g,
+                  *points[k].low.collection_efficiency, *points[k].median.collection_efficiency,
+                  *points[k].high.collection_efficiency, collection(2.9, g), collection(11, g), collection(19.1, g));
     }
   // The CSV carries them with the percentile names.
   const std::string csv = bands_csv_text(plan, points);
@@ -371,6 +375,8 @@ TEST(Uncertainty, SensitivityRanksTheDominantEntryFirst)
   EXPECT_EQ(r.entries[0], "A/X1");
   EXPECT_NEAR(r.index[0], 100.0 / 101, 0.04);
   EXPECT_NEAR(r.index[1], 1.0 / 101, 0.04);
+  std::printf("S(X1) = %.4f (exact %.4f), S(X2) = %.4f (exact %.4f)\n", r.index[0], 100.0 / 101, r.index[1],
+              1.0 / 101);
   // Y that does not vary has no index.
   EXPECT_FALSE(first_order_index(x[0], std::vector<double>(1024, 2.0)).has_value());
 }
@@ -407,6 +413,8 @@ TEST(Uncertainty, FitCovarianceIsReproducedBySamples)
     cov += (t[i] - mean_of(t)) * (ln_tau[i] - mean_of(ln_tau));
   cov /= double(t.size() - 1);
   EXPECT_NEAR(cov / (sd_of(t) * sd_of(ln_tau)), 0.8, 0.034);
+  std::printf("mean %.5f, %.5f; sd %.5f, %.5f; correlation %.4f\n", mean_of(t), mean_of(ln_tau), sd_of(t),
+              sd_of(ln_tau), cov / (sd_of(t) * sd_of(ln_tau)));
   fs::remove_all(folder);
 }
 
