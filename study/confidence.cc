@@ -101,6 +101,59 @@ namespace backcomb::study
         }
     }
 
+    // The deciding PCE of one sample at gap g on the line `line` (ordered
+    // by gap): a computed gap's own, or interpolated linearly between its
+    // neighbours; nothing outside the computed gaps or next to a case
+    // without a PCE.
+    std::optional<double>
+    pce_at(const Criterion c, const std::vector<StudyRow> &own, const std::vector<std::size_t> &line, const double g)
+    {
+      for (const auto i : line) // a computed gap itself
+        if (*to_number(own[i].values[0]) == g)
+          return deciding_pce(c, own[i]);
+      for (std::size_t k = 0; k + 1 < line.size(); ++k)
+        {
+          const double g0 = *to_number(own[line[k]].values[0]), g1 = *to_number(own[line[k + 1]].values[0]);
+          if (g < g0 || g > g1)
+            continue;
+          const auto p0 = deciding_pce(c, own[line[k]]), p1 = deciding_pce(c, own[line[k + 1]]);
+          if (!p0 || !p1)
+            return std::nullopt;
+          return *p0 + (*p1 - *p0) * (g - g0) / (g1 - g0);
+        }
+      return std::nullopt;
+    }
+
+    // The gap tolerance around the chosen gap, sample by sample.
+    void
+    check_tolerance(const StudyPlan &plan, const std::vector<StudyRow> &rows, SampledRecommendation &r)
+    {
+      const double t = plan.fabrication.gap_tolerance_um;
+      if (!(t > 0) || !r.chosen)
+        return;
+      const std::size_t grid = r.share.size();
+      for (std::size_t s = 0; s < r.samples; ++s)
+        {
+          const Recommendation &rec = r.per_sample[s];
+          if (!r.sample_complete[s] || !rec.valid)
+            continue;
+          const std::vector<StudyRow> own(rows.begin() + long(s * grid), rows.begin() + long((s + 1) * grid));
+          ++r.tolerance_checked;
+          for (const auto &line : lines_of(plan, own))
+            if (std::find(line.begin(), line.end(), *r.chosen) != line.end())
+              {
+                const double g    = *to_number(own[*r.chosen].values[0]);
+                const auto   low  = pce_at(rec.criterion, own, line, g - t);
+                const auto   high = pce_at(rec.criterion, own, line, g + t);
+                const double best = *deciding_pce(rec.criterion, own[rec.best]);
+                if (!low || !high)
+                  ++r.tolerance_unknown;
+                else if (std::min(*low, *high) >= (1 - r.margin) * best)
+                  ++r.tolerance_holds;
+              }
+        }
+    }
+
     // The sentences of the recommendation.
     std::string
     sampled_text(const StudyPlan &plan, const std::vector<StudyRow> &grid_rows, const std::vector<BandPoint> &points,
@@ -139,6 +192,17 @@ namespace backcomb::study
                    << format_number(plan.samples.band_low, 3) << "-" << format_number(plan.samples.band_high, 3)
                    << " %: " << format_number(deciding_pce(c, p.low).value_or(NAN), 4) << " to "
                    << format_number(deciding_pce(c, p.high).value_or(NAN), 4) << " %.";
+            }
+          if (r.tolerance_checked > 0)
+            {
+              const std::string tol =
+                "+/- " + with_unit(format_number(plan.fabrication.gap_tolerance_um, 4), first.unit);
+              text << " A gap tolerance of " << tol << " keeps the PCE within " << margin << " of the sample's best in "
+                   << r.tolerance_holds << " of " << r.tolerance_checked << " samples";
+              if (r.tolerance_unknown > 0)
+                text << " (not known in " << r.tolerance_unknown
+                     << ": an end lies outside the computed gaps or next to a failed case)";
+              text << " (PCE interpolated linearly between the computed gaps).";
             }
           if (r.beyond)
             {
@@ -223,7 +287,10 @@ namespace backcomb::study
         r.chosen     = choose(plan, grid_rows, r);
         r.valid      = r.chosen.has_value();
         if (r.valid && r.gap_study)
-          find_limit(plan, grid_rows, points, r);
+          {
+            find_limit(plan, grid_rows, points, r);
+            check_tolerance(plan, rows, r);
+          }
       }
 
     // Sensitivity over the samples that chose: x the sampled values.

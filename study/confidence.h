@@ -52,6 +52,12 @@ namespace backcomb::study
     std::optional<std::size_t> beyond;
     std::string                limiting_loss;
     double                     limiting_growth = 0;
+    // Fabrication/Gap tolerance t > 0 (gap studies): of the counted samples
+    // with a recommendation, those whose deciding PCE at the chosen gap
+    // -/+ t (interpolated linearly between that sample's computed gaps)
+    // stays within the margin of that sample's best, and those where an
+    // end lies outside the computed gaps or next to a missing PCE.
+    std::size_t tolerance_holds = 0, tolerance_unknown = 0, tolerance_checked = 0;
     // First-order sensitivity of the two results on each uncertain entry.
     SensitivityRanking choice_sensitivity, pce_sensitivity;
     std::string text;

@@ -82,6 +82,12 @@ namespace backcomb::study
     j["recommended_share"]     = r.chosen ? json(r.share[*r.chosen]) : json(nullptr);
     j["most_often_within"]     = value(r.most_often);
     j["recommended_grid_point"] = r.chosen ? json(*r.chosen) : json(nullptr);
+    j["gap_tolerance_check"]    = plan.fabrication.gap_tolerance_um > 0 && r.chosen
+                                    ? json{{"tolerance_um", plan.fabrication.gap_tolerance_um},
+                                           {"samples_checked", r.tolerance_checked},
+                                           {"samples_within_margin", r.tolerance_holds},
+                                           {"samples_not_known", r.tolerance_unknown}}
+                                    : json(nullptr);
     j["what_sets_the_limit"]    = r.beyond ? json{{"next_gap", rows[*r.beyond].values[0]},
                                                   {"next_gap_share_within_margin", r.share[*r.beyond]},
                                                   {"loss", r.limiting_loss.empty() ? json(nullptr)

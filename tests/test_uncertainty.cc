@@ -329,6 +329,17 @@ TEST(Uncertainty, ConfidenceSelectsTheWidestGapOfEnoughSamples)
   EXPECT_EQ(r.limiting_loss, "gap_interface_recombination");
   EXPECT_NEAR(r.limiting_growth, 0.1, 1e-12);
   EXPECT_NE(r.text.find("Wider gaps lose most to recombination at the gap interface"), std::string::npos) << r.text;
+  // A gap tolerance of 5 um around 10 um: at 15 um the PCE is 9.0 % (9 of
+  // 10 samples, halfway between 10 and 8), below 98 % of the best 10 %;
+  // the tenth sample has 9.95 % there (halfway between 10 and 9.9).
+  plan.fabrication.gap_tolerance_um = 5;
+  r                                 = recommend_with_samples(plan, rows, points);
+  EXPECT_EQ(r.tolerance_checked, 10u);
+  EXPECT_EQ(r.tolerance_holds, 1u);
+  EXPECT_EQ(r.tolerance_unknown, 0u);
+  EXPECT_NE(r.text.find("keeps the PCE within 2 % of the sample's best in 1 of 10 samples"), std::string::npos)
+    << r.text;
+  plan.fabrication.gap_tolerance_um = 0;
   // Films that disagree: five samples best at 5 um, five at 50 um, each
   // far below its best elsewhere: no gap is near its sample's best in
   // 90 % of the samples.
