@@ -68,15 +68,19 @@ namespace backcomb::study
       // The estimate's upward bias from the noise of the class means is
       // about classes / samples: entries closer than that to the first are
       // not told apart.
-      const double resolution = double(s.classes) / double(s.samples);
-      std::string  close;
+      const double             resolution = double(s.classes) / double(s.samples);
+      std::vector<std::string> close      = {s.entries.front()};
       for (std::size_t k = 1; k < s.entries.size(); ++k)
         if (std::isfinite(s.index[k]) && s.index.front() - s.index[k] < resolution)
-          close += (close.empty() ? "" : ", ") + s.entries[k];
-      if (!close.empty())
-        return text + "; " + s.entries.front() + " and " + close +
-               " cannot be told apart with these samples (resolution about " + format_number(resolution, 2) +
-               "): measure them better first, or add samples.";
+          close.push_back(s.entries[k]);
+      if (close.size() > 1)
+        {
+          text += "; ";
+          for (std::size_t k = 0; k < close.size(); ++k)
+            text += (k == 0 ? "" : k + 1 == close.size() ? " and " : ", ") + close[k];
+          return text + " cannot be told apart with these samples (resolution about " +
+                 format_number(resolution, 2) + "): measure them better first, or add samples.";
+        }
       return text + "; measure " + s.entries.front() + " better first.";
     }
 
