@@ -243,8 +243,10 @@ namespace backcomb::study
       if (often && all_numeric(first.values))
         text << " Each sample's best " << first.path << ": from " << value(*lo) << " to " << value(*hi)
              << " (most often " << value(*often) << ", " << r.best_count[*often] << " samples).";
-      text << ranking_text(r.choice_sensitivity,
-                           r.gap_study ? "the chosen gap (each sample's widest within the margin)" : "the best " + first.path);
+      // A choice among values that are not numbers has no variance.
+      if (all_numeric(first.values))
+        text << ranking_text(r.choice_sensitivity, r.gap_study ? "the chosen gap (each sample's widest within the margin)"
+                                                               : "the best " + first.path);
       if (r.chosen)
         text << ranking_text(r.pce_sensitivity, "the PCE at " + value(*r.chosen));
       return text.str();
@@ -315,7 +317,7 @@ namespace backcomb::study
     };
     if (r.chosen)
       for (std::size_t s = 0; s < r.samples; ++s)
-        if (r.sample_choice[s])
+        if (r.sample_complete[s] && r.per_sample[s].valid)
           r.pce_at_chosen[s] = deciding_pce(r.per_sample[s].criterion, rows[s * grid + *r.chosen]);
     const std::string unit = plan.entries[0].unit;
     r.choice_sensitivity =
