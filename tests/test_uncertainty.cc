@@ -557,3 +557,32 @@ TEST(Uncertainty, PlanHoldsTheSamples)
       EXPECT_NE(std::string(e.what()).find("also given with"), std::string::npos) << e.what();
     }
 }
+
+// The sensitivity sentence of a sampled sweep: the PCE at the recommended
+// gap follows the first of two entries alone (Y = its value), the second is
+// a permutation of the samples that Y ignores, so the first is named; the
+// chosen gap is the same in every sample, which the sentence says.
+TEST(Uncertainty, SensitivitySentenceNamesTheEntryToMeasure)
+{
+  std::vector<double> a(16);
+  std::iota(a.begin(), a.end(), 1.0);
+  StudyPlan plan = synthetic_plan({"5", "10"}, a);
+  plan.samples.entries.push_back({"Gap interface/Electron recombination velocity", "cm/s", "synthetic"});
+  for (std::size_t s = 0; s < 16; ++s)
+    plan.samples.values[s].push_back(double((s * 7) % 16)); // independent of the first
+  const auto rows = synthetic_rows(plan, [&](std::size_t s, double g) { return g == 5 ? 10 + 0.01 * a[s] : 5.0; },
+                                   [](std::size_t, double) { return 0.9; });
+  const auto r    = recommend_with_samples(plan, rows, band_points(plan, rows));
+  ASSERT_TRUE(r.valid);
+  EXPECT_FALSE(r.choice_sensitivity.varies);
+  ASSERT_EQ(r.pce_sensitivity.entries.size(), 2u);
+  EXPECT_EQ(r.pce_sensitivity.entries[0], "Absorber/Electron diffusion length");
+  // 4 classes of 4 consecutive values of a linear Y: the class means
+  // explain 1 - 1/16 of its variance (within-class variance (4^2 - 1)/12
+  // of the whole (16^2 - 1)/12, the discrete uniform's variance).
+  EXPECT_NEAR(r.pce_sensitivity.index[0], 1 - 15.0 / 255, 1e-12);
+  EXPECT_NE(r.text.find("measure Absorber/Electron diffusion length better first"), std::string::npos) << r.text;
+  EXPECT_NE(r.text.find("The chosen gap (each sample's widest within the margin) is the same in every counted sample"),
+            std::string::npos)
+    << r.text;
+}
