@@ -1,6 +1,6 @@
 # Bash completion for backcomb: the commands, each command's options, case
 # files (*.prm) and folders, and the case-file entry paths after --set,
-# --vary, --in-step and --fit, also inside an opened quote: --set "Absorber/<TAB>.
+# --vary, --in-step, --uncertain and --fit, also inside an opened quote: --set "Absorber/<TAB>.
 #
 # Load it in a shell:  source app/backcomb-completion.bash
 # or install it (cmake --install) to share/bash-completion/completions/.
@@ -13,7 +13,7 @@ _backcomb_options()
     template) echo "--paths --help" ;;
     mesh) echo "--set --out --quiet --help" ;;
     solve) echo "--set --out --quiet --log --help" ;;
-    sweep) echo "--vary --in-step --set --out --quiet --task --of --retry-failed --help" ;;
+    sweep) echo "--vary --in-step --uncertain --uncertain-from --samples --sampling --seed --band --set --out --quiet --task --of --retry-failed --help" ;;
     upgrade) echo "--help" ;;
     merge) echo "--quiet --help" ;;
     calibrate) echo "--data --fit --set --loss --iterations --out --quiet --help" ;;
@@ -58,11 +58,11 @@ _backcomb()
   fi
   local command=${COMP_WORDS[1]}
   case $prev in
-    --set | --vary | --in-step | --fit)
+    --set | --vary | --in-step | --uncertain | --fit)
       _backcomb_entry_paths "${COMP_WORDS[0]}" "$cur"
       return
       ;;
-    --out)
+    --out | --uncertain-from)
       mapfile -t COMPREPLY < <(compgen -d -- "$cur")
       return
       ;;
@@ -70,11 +70,15 @@ _backcomb()
       mapfile -t COMPREPLY < <(compgen -f -- "$cur")
       return
       ;;
-    --task | --of | --iterations)
+    --task | --of | --iterations | --samples | --seed | --band)
       return
       ;;
     --loss)
       mapfile -t COMPREPLY < <(compgen -W "none huber cauchy" -- "$cur")
+      return
+      ;;
+    --sampling)
+      mapfile -t COMPREPLY < <(compgen -W "sobol latin" -- "$cur")
       return
       ;;
   esac

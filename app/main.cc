@@ -57,6 +57,11 @@ namespace
     "                               constant ratio); a second --vary makes a grid\n"
     "  --in-step \"Section/Name=VALUES\" entry that moves with the --vary before it:\n"
     "                               as many values, the i-th with its i-th (no new cases)\n"
+    "  --uncertain \"Section/Name=DIST\" sampled entry: uniform:LOW:HIGH,\n"
+    "                               log-uniform:LOW:HIGH or normal:MEAN:SD (repeatable)\n"
+    "  --uncertain-from FOLDER      sample the fitted entries of a calibration\n"
+    "  --samples N, --sampling sobol|latin, --seed S, --band LOW:HIGH\n"
+    "                               samples (16), method, Latin seed, band percentiles (5:95)\n"
     "  --task I --of N              run only share I (1..N) of the cases, no merge\n"
     "  --retry-failed               recompute cases that failed before\n"
     "\n"
@@ -107,6 +112,8 @@ namespace
     {"sweep",
      "usage: backcomb sweep CASE.prm --vary \"Section/Name=VALUES\" [--in-step ...] [--vary ...]\n"
      "                     [--set \"Section/Name=value\"]... [--out FOLDER] [--quiet]\n"
+     "                     [--uncertain \"Section/Name=DIST\"]... [--uncertain-from FOLDER]\n"
+     "                     [--samples N] [--sampling sobol|latin] [--seed S] [--band LOW:HIGH]\n"
      "                     [--task I --of N] [--retry-failed]\n"
      "\n"
      "Solves every case of the grid (one folder per case under FOLDER/cases), then\n"
@@ -123,6 +130,18 @@ namespace
      "  --set \"Section/Name=value\"  override one case-file entry (repeatable)\n"
      "  --out FOLDER                 results folder (default: Output/Folder)\n"
      "  --quiet                      no progress lines\n"
+     "  --uncertain \"Section/Name=DIST\" an uncertain entry, sampled at every grid point:\n"
+     "                               DIST is uniform:LOW:HIGH, log-uniform:LOW:HIGH\n"
+     "                               (0 < LOW) or normal:MEAN:SD (repeatable)\n"
+     "  --uncertain-from FOLDER      the fitted entries of 'backcomb calibrate --out FOLDER'\n"
+     "                               (fit.json): correlated normal, in ln for log scaling\n"
+     "  --samples N                  samples of the uncertain entries (default 16)\n"
+     "  --sampling sobol|latin       Sobol' sequence (default) or Latin hypercube\n"
+     "  --seed S                     seed of the Latin hypercube (default 1)\n"
+     "  --band LOW:HIGH              percentiles of the bands (default 5:95)\n"
+     "                               With samples: FOLDER/sweep-bands.csv (median and band\n"
+     "                               per grid point), FOLDER/sensitivity.csv, and the gap\n"
+     "                               within the margin in Fabrication/Confidence % of samples.\n"
      "  --task I --of N              run only share I (1..N) of the cases, no merge\n"
      "  --retry-failed               recompute cases that failed before\n"},
     {"upgrade",
@@ -175,6 +194,7 @@ namespace
     std::string              command, case_file, out, log;
     std::vector<std::string> overrides, vary;
     std::vector<study::InStepArgument> in_step; // each after the --vary it moves with
+    study::UncertaintyArguments        uncertainty; // --uncertain, --samples, ...
     bool                     quiet = false, retry_failed = false, paths = false;
     unsigned                 task = 0, tasks = 0;
     std::vector<std::string> data, fit; // calibrate
@@ -214,6 +234,26 @@ namespace
           a.in_step.push_back({a.vary.size(), argv[++i]});
         else if (s == "--retry-failed")
           a.retry_failed = true;
+        else if (s == "--uncertain" && i + 1 < argc)
+          a.uncertainty.uncertain.push_back(argv[++i]);
+        else if ((s == "--uncertain-from" || s == "--samples" || s == "--sampling" || s == "--seed" ||
+                  s == "--band") &&
+                 i + 1 < argc)
+          {
+            auto &u = a.uncertainty;
+            std::string &slot = s == "--uncertain-from" ? u.from
+                                : s == "--samples"      ? u.samples
+                                : s == "--sampling"     ? u.sampling
+                                : s == "--seed"         ? u.seed
+                                                        : u.band;
+            if (!slot.empty() || argv[i + 1][0] == '\0')
+              {
+                std::fprintf(stderr, "backcomb: %s %s\n", s.c_str(),
+                             slot.empty() ? "needs a value" : "is given more than once");
+                return false;
+              }
+            slot = argv[++i];
+          }
         else if ((s == "--data" || s == "--fit" || s == "--loss") && i + 1 < argc && a.command == "calibrate")
           (s == "--data" ? a.data.push_back(argv[++i]) : s == "--fit" ? a.fit.push_back(argv[++i]) : void(a.loss = argv[++i]));
         else if (s == "--iterations" && i + 1 < argc && a.command == "calibrate")
@@ -248,10 +288,14 @@ namespace
         std::fprintf(stderr, "backcomb: --task I and --of N go together, with 1 <= I <= N\n");
         return false;
       }
-    const bool sweep_options = !a.vary.empty() || !a.in_step.empty() || a.tasks > 0 || a.retry_failed;
+    const auto &u = a.uncertainty;
+    const bool  sweep_options = !a.vary.empty() || !a.in_step.empty() || a.tasks > 0 || a.retry_failed ||
+                               u.given() || !u.samples.empty() || !u.sampling.empty() || !u.seed.empty() ||
+                               !u.band.empty();
     if (sweep_options && a.command != "sweep")
       {
-        std::fprintf(stderr, "backcomb: --vary, --in-step, --task, --of and --retry-failed belong to 'sweep'\n");
+        std::fprintf(stderr, "backcomb: --vary, --in-step, --uncertain, --uncertain-from, --samples, --sampling, "
+                             "--seed, --band, --task, --of and --retry-failed belong to 'sweep'\n");
         return false;
       }
     if (!a.log.empty() && a.command != "solve")
@@ -409,7 +453,7 @@ main(int argc, char **argv)
           // Every rank checks the whole grid: the same input gives every
           // rank the same error, so all stop alike before anything is written.
           const study::StudyPlan plan =
-            study::make_plan(args.case_file, args.overrides, args.vary, args.in_step);
+            study::make_plan(args.case_file, args.overrides, args.vary, args.in_step, args.uncertainty);
           study::StudyOptions options;
           options.folder = args.out.empty()
                              ? simulator::read_case(args.case_file, args.overrides).output.folder

@@ -26,6 +26,8 @@ namespace backcomb::postprocess
     constexpr int palette[][3] = {{0, 114, 178},  {213, 94, 0},   {0, 158, 115}, {204, 121, 167},
                                   {86, 180, 233}, {230, 159, 0},  {0, 0, 0},     {120, 120, 120}};
     constexpr int n_palette = sizeof(palette) / sizeof(palette[0]);
+    // After the lines: the translucent band of the line being drawn.
+    constexpr int colour_spread = first_line_colour + n_palette;
 
     // Markers are drawn as text glyphs, which the Cairo drivers render with
     // the system fonts in both SVG and PNG.
@@ -85,6 +87,41 @@ namespace backcomb::postprocess
       return a.log_x ? std::log10(x) : x;
     }
 
+    // The band of each series as a translucent polygon in the series'
+    // colour (low edge forward, high edge back), broken where a value is
+    // missing.
+    void
+    draw_bands(plstream &pls, const SweepPlotData &d, const Axes &axes, const bool pce)
+    {
+      for (std::size_t k = 0; k < d.series.size(); ++k)
+        {
+          const PlotSeries          &s  = d.series[k];
+          const std::vector<double> &lo = pce ? s.pce_low : s.eta_low, &hi = pce ? s.pce_high : s.eta_high;
+          if (lo.size() != s.x.size() || hi.size() != s.x.size())
+            continue;
+          const auto &c = palette[k % n_palette];
+          pls.scol0a(colour_spread, c[0], c[1], c[2], 0.25);
+          pls.col0(colour_spread);
+          std::vector<double> px, lower, upper;
+          auto flush = [&]() {
+            if (px.size() > 1)
+              {
+                std::vector<double> x(px), y(lower);
+                x.insert(x.end(), px.rbegin(), px.rend());
+                y.insert(y.end(), upper.rbegin(), upper.rend());
+                pls.fill(int(x.size()), x.data(), y.data());
+              }
+            px.clear(), lower.clear(), upper.clear();
+          };
+          for (std::size_t i = 0; i < s.x.size(); ++i)
+            if (std::isfinite(lo[i]) && std::isfinite(hi[i]) && std::isfinite(s.x[i]) && (!axes.log_x || s.x[i] > 0))
+              px.push_back(to_axis(axes, s.x[i])), lower.push_back(lo[i]), upper.push_back(hi[i]);
+            else
+              flush();
+          flush();
+        }
+    }
+
     // One panel: frame, grid, optional shaded range and best marker, then
     // one line with markers per series (broken where a case has no value).
     void
@@ -94,7 +131,12 @@ namespace backcomb::postprocess
     {
       std::vector<double> all;
       for (const auto &s : d.series)
-        all.insert(all.end(), (s.*values).begin(), (s.*values).end());
+        {
+          all.insert(all.end(), (s.*values).begin(), (s.*values).end());
+          const bool pce = values == &PlotSeries::pce;
+          for (const auto *band : {pce ? &s.pce_low : &s.eta_low, pce ? &s.pce_high : &s.eta_high})
+            all.insert(all.end(), band->begin(), band->end());
+        }
       const auto [y_lo, y_hi] = padded_range(all, 0.12);
 
       pls.vpor(0.13, 0.66, y_bottom, y_top);
@@ -116,6 +158,7 @@ namespace backcomb::postprocess
       pls.box(("bcst" + x_options + (x_labels ? "n" : "")).c_str(), 0, 0, "bcnstv", 0, 0);
       pls.mtex("l", 5.0, 0.5, 0.5, y_label.c_str());
 
+      draw_bands(pls, d, axes, values == &PlotSeries::pce);
       for (std::size_t k = 0; k < d.series.size(); ++k)
         {
           const PlotSeries         &s = d.series[k];
@@ -176,8 +219,12 @@ namespace backcomb::postprocess
         add(d.series[k].label.empty() ? "computed cases" : d.series[k].label,
             PL_LEGEND_LINE | PL_LEGEND_SYMBOL, first_line_colour + int(k % n_palette), point_glyph, 1,
             1.0);
+      if (!d.band_label.empty())
+        pls.scol0a(colour_spread, palette[0][0], palette[0][1], palette[0][2], 0.25);
+      if (!d.band_label.empty())
+        add(d.band_label, PL_LEGEND_COLOR_BOX, colour_spread, point_glyph, 1, 1.0);
       if (d.best_x)
-        add("highest PCE", PL_LEGEND_SYMBOL, colour_best, best_glyph, 1, 1.8);
+        add(d.best_label, PL_LEGEND_SYMBOL, colour_best, best_glyph, 1, 1.8);
       if (d.range_from && d.range_to && *d.range_to > *d.range_from)
         add(d.range_label, PL_LEGEND_COLOR_BOX, colour_band, point_glyph, 1, 1.0);
 
@@ -236,7 +283,7 @@ namespace backcomb::postprocess
         pls->sdev(device.c_str());
         pls->sfnam(tmp.c_str());
         pls->spage(0, 0, page_width, page_height, 0, 0);
-        pls->scmap0n(first_line_colour + n_palette);
+        pls->scmap0n(colour_spread + 1);
         pls->scol0(0, 255, 255, 255);
         pls->scol0(1, 0, 0, 0);
         pls->scol0(colour_grid, 215, 215, 215);

@@ -16,6 +16,10 @@ namespace backcomb::postprocess
   {
     std::string         label;     // legend text; "" for a one-line plot
     std::vector<double> x, pce, eta; // NaN where a case has no metrics
+    // A band around each line (a sweep with uncertain entries: the lines
+    // are medians over the samples); empty when there is none, else one
+    // value per x, NaN where not known.
+    std::vector<double> pce_low, pce_high, eta_low, eta_high;
   };
 
   struct SweepPlotData
@@ -26,6 +30,8 @@ namespace backcomb::postprocess
     // Best point and the range within the tolerance of the best PCE.
     std::optional<double> best_x, best_pce, range_from, range_to;
     std::string           range_label; // legend text of the shaded range
+    std::string           best_label = "highest PCE"; // legend text of the best point
+    std::string           band_label;  // legend text of the bands ("5-95 % of the samples")
   };
 
   // Writes `stem`.svg and `stem`.png (each to a temporary name first, then

@@ -478,6 +478,10 @@ namespace backcomb::simulator
     const NumberEntry near_best_margin{
       "Near-best margin", fabrication_defaults.near_best_percent, "%", Range::above(0, 50),
       "A sweep's preference: the widest gap whose PCE lies within this relative margin of the best PCE"};
+    const NumberEntry confidence{
+      "Confidence", fabrication_defaults.confidence_percent, "%", Range::above(0, 100),
+      "A sweep with uncertain entries recommends the widest gap that lies within the near-best margin of "
+      "each sample's best PCE in at least this share of the samples"};
 
     // "5:3, 20:1.5, 50:1": gap (um) and relative cost pairs, gaps
     // increasing.
@@ -589,6 +593,7 @@ namespace backcomb::simulator
     declare(prm, fabrication, largest_gap);
     declare(prm, fabrication, gap_tolerance);
     declare(prm, fabrication, near_best_margin);
+    declare(prm, fabrication, confidence);
     declare_text(prm, fabrication, "Cost per gap", "", Anything(), "",
                  "Relative cost of making a gap, as gap:cost pairs with the gap in um, increasing "
                  "(\"5:3, 20:1.5, 50:1\"); linear between the pairs, constant beyond the first and "
@@ -875,6 +880,7 @@ namespace backcomb::simulator
         c.fabrication.largest_gap_um    = get(prm, fabrication, largest_gap);
         c.fabrication.gap_tolerance_um  = get(prm, fabrication, gap_tolerance);
         c.fabrication.near_best_percent = get(prm, fabrication, near_best_margin);
+        c.fabrication.confidence_percent = get(prm, fabrication, confidence);
         c.fabrication.gap_cost          = parse_gap_cost(prm.get("Cost per gap"));
         if (c.fabrication.largest_gap_um < c.fabrication.smallest_gap_um)
           throw InputError(fabrication + "/Largest gap", prm.get("Largest gap"),

@@ -16,6 +16,10 @@ namespace backcomb::simulator
     // "Widest gap within this much of the best PCE", relative, in % (the
     // recommendation's margin).
     double near_best_percent = 2;
+    // With uncertain entries (a sweep's samples): the recommended gap is
+    // within the near-best margin of each sample's best in at least this
+    // share of the samples, in %.
+    double confidence_percent = 90;
     // Relative cost of making a gap: (gap um, cost) pairs in increasing gap,
     // linear in between and constant beyond the ends; empty: no cost.
     std::vector<std::pair<double, double>> gap_cost;

@@ -28,6 +28,8 @@ namespace backcomb::study
   {
     std::string              id;
     std::vector<std::string> values; // one per varied entry
+    // The sample of the uncertain entries (StudyCase::sample), if any.
+    std::optional<std::size_t> sample;
     Status                   status = Status::missing;
     std::string              reason; // first failure diagnostic ("" if none)
     // The case folder holds a summary.json of another case, case text or

@@ -268,6 +268,9 @@ namespace backcomb::study
                       e.values.size());
         else
           std::printf(" with %s in step", e.path.c_str());
+      if (plan.samples.active())
+        std::printf(" x %zu samples of %zu uncertain entr%s", plan.samples.count, plan.samples.entries.size(),
+                    plan.samples.entries.size() > 1 ? "ies" : "y");
       if (o.tasks > 0)
         std::printf("; task %u of %u: %zu cases", o.task, o.tasks, share_size);
       std::printf("; %zu to run on %d process%s; results in %s\n", to_run, size, size > 1 ? "es" : "",

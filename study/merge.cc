@@ -7,8 +7,11 @@
 #include "postprocess/plots.h"
 #include "postprocess/pvd.h"
 #include "postprocess/views.h"
+#include "study/bands.h"
+#include "study/confidence.h"
 #include "study/layout.h"
 #include "study/rows.h"
+#include "study/sampled_output.h"
 
 #include <algorithm>
 #include <cmath>
@@ -91,7 +94,9 @@ namespace backcomb::study
       std::map<std::string, std::vector<std::pair<double, std::string>>> by_bias;
       for (std::size_t i = 0; i < rows.size(); ++i)
         {
-          if (rows[i].status != Status::converged && rows[i].status != Status::partial)
+          // Of a sweep with samples, the cases of sample 0 (one per grid point).
+          if (rows[i].sample.value_or(0) != 0 ||
+              (rows[i].status != Status::converged && rows[i].status != Status::partial))
             continue;
           json s;
           try
@@ -135,7 +140,8 @@ namespace backcomb::study
       json                                 cases = json::array(), times = json::array();
       for (std::size_t i = 0; i < rows.size(); ++i)
         {
-          if (rows[i].status != Status::converged && rows[i].status != Status::partial)
+          if (rows[i].sample.value_or(0) != 0 ||
+              (rows[i].status != Status::converged && rows[i].status != Status::partial))
             continue;
           const std::string dir = "cases/" + rows[i].id;
           json              s;
@@ -190,12 +196,12 @@ namespace backcomb::study
 
     // The plot: the first entry along x, one line per combination of the
     // others, the PCE that decided the recommendation on the upper panel.
-    std::vector<std::string>
-    write_plots(const std::string &folder, const StudyPlan &plan, const std::vector<StudyRow> &rows,
-                const Recommendation &rec, std::vector<std::string> &warnings)
+    // The axis labels of the plot.
+    postprocess::SweepPlotData
+    plot_frame(const StudyPlan &plan, const Criterion criterion)
     {
       postprocess::SweepPlotData data;
-      if (rec.criterion == Criterion::pce_of_comb_cell)
+      if (criterion == Criterion::pce_of_comb_cell)
         data.pce_label = "PCE of the comb cell (%)";
       const std::string unit = plan.entries[0].unit == "um" ? "µm" : plan.entries[0].unit;
       data.x_label           = plan.entries[0].path + (unit.empty() ? "" : " (" + unit + ")");
@@ -203,15 +209,31 @@ namespace backcomb::study
       for (std::size_t k = 1; k < plan.entries.size(); ++k)
         if (plan.entries[k].in_step_with == plan.entries[0].path)
           data.x_label += ", with " + last_component(plan.entries[k].path) + " in step";
+      return data;
+    }
+
+    // Legend text of a line: "Name = value unit" of the other entries, but
+    // not of those that move with the first one (along the line).
+    std::string
+    line_label(const StudyPlan &plan, const StudyRow &row)
+    {
+      std::string label;
+      for (std::size_t k = 1; k < plan.entries.size(); ++k)
+        if (plan.entries[k].in_step_with != plan.entries[0].path)
+          label += (label.empty() ? "" : ", ") + last_component(plan.entries[k].path) + " = " +
+                   with_unit(row.values[k], plan.entries[k].unit);
+      return label;
+    }
+
+    std::vector<std::string>
+    write_plots(const std::string &folder, const StudyPlan &plan, const std::vector<StudyRow> &rows,
+                const Recommendation &rec, std::vector<std::string> &warnings)
+    {
+      postprocess::SweepPlotData data = plot_frame(plan, rec.criterion);
       for (const auto &line : lines_of(plan, rows))
         {
           postprocess::PlotSeries s;
-          // Legend text: "Name = value unit" of the other entries, but not
-          // of those that move with the first one (along the line).
-          for (std::size_t k = 1; k < plan.entries.size(); ++k)
-            if (plan.entries[k].in_step_with != plan.entries[0].path)
-              s.label += (s.label.empty() ? "" : ", ") + last_component(plan.entries[k].path) + " = " +
-                         with_unit(rows[line.front()].values[k], plan.entries[k].unit);
+          s.label = line_label(plan, rows[line.front()]);
           for (const auto i : line)
             {
               s.x.push_back(*to_number(rows[i].values[0]));
@@ -228,6 +250,55 @@ namespace backcomb::study
           data.range_to    = to_number(rows[rec.near_best.back()].values[0]);
           data.range_label = "within " + format_number(100 * rec.margin, 3) + " % of the highest PCE";
         }
+      return postprocess::write_sweep_plots(data, folder + "/sweep", warnings);
+    }
+
+    // The plot of a sweep with samples: per line the median of every grid
+    // point, the band around it, the recommended point and the points
+    // within the margin in at least the confidence share of the samples.
+    std::vector<std::string>
+    write_band_plots(const std::string &folder, const StudyPlan &plan, const std::vector<BandPoint> &points,
+                     const SampledRecommendation &r, std::vector<std::string> &warnings)
+    {
+      const Criterion criterion = r.per_sample.empty() ? Criterion::pce_per_footprint : r.per_sample.front().criterion;
+      postprocess::SweepPlotData  data = plot_frame(plan, criterion);
+      const std::vector<StudyRow> med  = median_rows(points);
+      const auto                  x    = [&](std::size_t g) { return *to_number(med[g].values[0]); };
+      for (const auto &line : lines_of(plan, med))
+        {
+          postprocess::PlotSeries s;
+          s.label = line_label(plan, med[line.front()]);
+          if (s.label.empty())
+            s.label = "median of the samples";
+          for (const auto g : line)
+            {
+              s.x.push_back(x(g));
+              s.pce.push_back(deciding_pce(criterion, points[g].median).value_or(nan));
+              s.pce_low.push_back(deciding_pce(criterion, points[g].low).value_or(nan));
+              s.pce_high.push_back(deciding_pce(criterion, points[g].high).value_or(nan));
+              s.eta.push_back(points[g].median.collection_efficiency.value_or(nan));
+              s.eta_low.push_back(points[g].low.collection_efficiency.value_or(nan));
+              s.eta_high.push_back(points[g].high.collection_efficiency.value_or(nan));
+            }
+          if (r.chosen && std::find(line.begin(), line.end(), *r.chosen) != line.end())
+            for (const auto g : line)
+              if (r.share[g] >= r.confidence - 1e-12)
+                {
+                  data.range_from = std::min(data.range_from.value_or(x(g)), x(g));
+                  data.range_to   = std::max(data.range_to.value_or(x(g)), x(g));
+                }
+          data.series.push_back(std::move(s));
+        }
+      const SampleSet &u = plan.samples;
+      data.band_label    = format_number(u.band_low, 3) + "-" + format_number(u.band_high, 3) + " % of samples";
+      if (r.chosen)
+        {
+          data.best_x     = x(*r.chosen);
+          data.best_pce   = deciding_pce(criterion, points[*r.chosen].median);
+          data.best_label = "recommended";
+        }
+      data.range_label = "within " + format_number(100 * r.margin, 3) + " % of the best in >= " +
+                         format_number(100 * r.confidence, 3) + " % of samples";
       return postprocess::write_sweep_plots(data, folder + "/sweep", warnings);
     }
 
@@ -348,6 +419,21 @@ namespace backcomb::study
         std::printf("  %s: the dead zone of every case in ParaView: paraview --script=%s/%s\n",
                     postprocess::view_script_name, folder.c_str(), postprocess::view_script_name);
     }
+
+    // The exit code of a merge: a failed or missing case first, then a
+    // result outside a physical bound.
+    int
+    merge_exit_code(const std::vector<StudyRow> &rows)
+    {
+      const auto counts     = status_counts(rows);
+      const bool unfinished = counts.at(to_string(Status::failed)) + counts.at(to_string(Status::missing)) > 0;
+      const bool violated   = std::any_of(rows.begin(), rows.end(),
+                                          [](const StudyRow &r) { return r.bound_violations.value_or(0) > 0; });
+      return unfinished ? exit_no_convergence : violated ? exit_bounds : exit_ok;
+    }
+
+    int merge_sampled_study(const std::string &folder, const StudyPlan &plan, const std::vector<StudyRow> &rows,
+                            bool quiet);
   } // namespace
 
   std::string
@@ -356,9 +442,18 @@ namespace backcomb::study
     std::ostringstream csv;
     csv << "# backcomb sweep of " << plan.case_file << "; one row per case, in the order of sweep-plan.json\n"
         << csv_preamble;
+    if (plan.samples.active())
+      csv << "# sample: index into sweep-plan.json uncertainty.values; the sampled values follow it "
+             "(sweep-bands.csv has the median and the band per grid point)\n";
     csv << "case";
     for (const auto &e : plan.entries)
       csv << ',' << csv_field(entry_csv_header(e));
+    if (plan.samples.active())
+      {
+        csv << ",sample";
+        for (const auto &e : plan.samples.entries)
+          csv << ',' << csv_field(entry_csv_header({e.path, {}, e.unit}));
+      }
     for (const auto &c : columns())
       if (!c.csv_header.empty())
         csv << ',' << c.csv_header;
@@ -368,6 +463,12 @@ namespace backcomb::study
         csv << csv_field(r.id);
         for (const auto &v : r.values)
           csv << ',' << csv_field(v);
+        if (r.sample)
+          {
+            csv << ',' << *r.sample;
+            for (const double v : plan.samples.values[*r.sample])
+              csv << ',' << sample_text(v);
+          }
         for (const auto &c : columns())
           if (!c.csv_header.empty())
             csv << ',' << c.csv_text(r);
@@ -383,6 +484,14 @@ namespace backcomb::study
     for (std::size_t k = 0; k < plan.entries.size(); ++k)
       values[plan.entries[k].path] = r.values[k];
     json j      = {{"id", r.id}, {"folder", "cases/" + r.id}, {"values", values}};
+    if (r.sample)
+      {
+        json sampled = json::object();
+        for (std::size_t k = 0; k < plan.samples.entries.size(); ++k)
+          sampled[plan.samples.entries[k].path] = plan.samples.values[*r.sample][k];
+        j["sample"]         = *r.sample;
+        j["sampled_values"] = sampled;
+      }
     for (const auto &c : columns())
       set_at(j, c.json_path, c.json_value(r));
     j["status"] = to_string(r.status);
@@ -465,6 +574,8 @@ namespace backcomb::study
       throw InputError(folder + ": no sweep-plan.json here (is this the --out folder of a sweep?)");
     StudyPlan                   plan;
     const std::vector<StudyRow> rows = collect_rows(folder, plan);
+    if (plan.samples.active())
+      return merge_sampled_study(folder, plan, rows, quiet);
     const Recommendation        rec  = recommend(plan, rows);
 
     write_file_atomically(folder + "/sweep.csv", csv_text(plan, rows));
@@ -493,10 +604,81 @@ namespace backcomb::study
       }
     for (const auto &w : warnings)
       std::fprintf(stderr, "backcomb: %s\n", w.c_str());
-    const auto counts = status_counts(rows);
-    const bool unfinished = counts.at(to_string(Status::failed)) + counts.at(to_string(Status::missing)) > 0;
-    const bool violated = std::any_of(rows.begin(), rows.end(),
-                                      [](const StudyRow &r) { return r.bound_violations.value_or(0) > 0; });
-    return unfinished ? exit_no_convergence : violated ? exit_bounds : exit_ok;
+    return merge_exit_code(rows);
   }
+} // namespace backcomb::study
+
+namespace backcomb::study
+{
+  namespace
+  {
+    // merge_study of a sweep with uncertain entries: sweep.csv with one row
+    // per case, sweep-bands.csv, sensitivity.csv, the plot with bands, and
+    // the table of medians on screen.
+    int
+    merge_sampled_study(const std::string &folder, const StudyPlan &plan, const std::vector<StudyRow> &rows,
+                        const bool quiet)
+    {
+      const std::vector<BandPoint>  points = band_points(plan, rows);
+      const SampledRecommendation   r      = recommend_with_samples(plan, rows, points);
+      write_file_atomically(folder + "/sweep.csv", csv_text(plan, rows));
+      write_file_atomically(folder + "/sweep-bands.csv", bands_csv_text(plan, points));
+      write_file_atomically(folder + "/sensitivity.csv", sensitivity_csv_text(r));
+      std::vector<std::string> warnings, plots;
+      if (all_numeric(plan.entries[0].values))
+        plots = write_band_plots(folder, plan, points, r, warnings);
+      else
+        warnings.push_back("no plot: the values of " + plan.entries[0].path + " are not all numbers");
+      const std::vector<std::string> collections = write_field_collections(folder, plan, rows);
+      const json                     views       = write_view_collections(folder, plan, rows);
+
+      json j;
+      j["case_file"] = plan.case_file;
+      j["sets"]      = plan.sets;
+      j["entries"]   = json::array();
+      for (const auto &e : plan.entries)
+        j["entries"].push_back({{"path", e.path},
+                                {"unit", e.unit},
+                                {"values", e.values},
+                                {"in_step_with", e.is_axis() ? json(nullptr) : json(e.in_step_with)}});
+      j["uncertainty"]      = plan_to_json(plan)["uncertainty"];
+      j["pitch_definition"] = "w_e + w_h + 2 gap: centre to centre of neighbouring fingers of the same polarity";
+      j["counts"]           = status_counts(rows);
+      j["cases"]            = json::array();
+      for (const auto &row : rows)
+        j["cases"].push_back(row_json(plan, row));
+      j["bands"]          = bands_json(plan, points);
+      j["recommendation"] = sampled_recommendation_json(plan, rows, r);
+      j["sensitivity"]    = sensitivity_json(r);
+      j["files"]          = {{"table", "sweep.csv"},
+                             {"bands", "sweep-bands.csv"},
+                             {"sensitivity", "sensitivity.csv"},
+                             {"plots", json::array()},
+                             {"field_collections", collections}};
+      for (const auto &p : plots)
+        j["files"]["plots"].push_back(fs::path(p).filename().string());
+      j["warnings"] = warnings;
+      j["views"]    = views;
+      write_json_atomically(folder + "/sweep.json", j);
+
+      std::printf("\nMedian over %zu samples per grid point (sweep-bands.csv has the %s-%s %% band of every column):\n%s",
+                  plan.samples.count, format_number(plan.samples.band_low, 3).c_str(),
+                  format_number(plan.samples.band_high, 3).c_str(), screen_table(plan, median_rows(points)).c_str());
+      for (const auto &row : rows)
+        if (row.status == Status::failed || row.status == Status::missing)
+          std::printf("  %s %s: %s\n", row.id.c_str(), to_string(row.status).c_str(), row.reason.c_str());
+      std::printf("\n%s\n", r.text.c_str());
+      if (!quiet)
+        {
+          std::printf("%s", screen_notes);
+          print_files(folder, plan, plots, collections);
+          std::printf("  sweep-bands.csv: median and band of every column per grid point; sensitivity.csv: "
+                      "which uncertain entry moves the choice most\n"
+                      "  (the ParaView collections hold the cases of sample 0)\n");
+        }
+      for (const auto &w : warnings)
+        std::fprintf(stderr, "backcomb: %s\n", w.c_str());
+      return merge_exit_code(rows);
+    }
+  } // namespace
 } // namespace backcomb::study

@@ -2,6 +2,7 @@
 
 #include "base/entries.h"
 #include "base/errors.h"
+#include "base/format.h"
 #include "base/text.h"
 #include "simulator/case_file.h"
 #include "study/layout.h"
@@ -189,8 +190,62 @@ namespace backcomb::study
             for (std::size_t at = message.find("--set " + entry.path); at != std::string::npos;
                  at = message.find("--set " + entry.path, at + 1))
               message.replace(at, 5, entry.is_axis() ? "--vary" : "--in-step");
+          if (c.sample)
+            for (std::size_t k = 0; k < plan.samples.entries.size(); ++k)
+              {
+                const auto &e    = plan.samples.entries[k];
+                const auto  from = "--set " + e.path;
+                for (std::size_t at = message.find(from); at != std::string::npos; at = message.find(from, at + 1))
+                  message.replace(at, from.size(),
+                                  "--uncertain " + e.path + " (" + e.distribution + ", sample " +
+                                    std::to_string(*c.sample) + " value " +
+                                    format_number(plan.samples.values[*c.sample][k]) + ")");
+              }
           throw InputError("grid point " + c.id + ": " + message);
         }
+    }
+
+    // The sampled entries checked against the case file and the other
+    // options, with their units.
+    void
+    check_sampled_entries(StudyPlan &plan)
+    {
+      std::set<std::string> seen;
+      for (const auto &s : plan.sets)
+        seen.insert(split_override(s).first);
+      for (const auto &e : plan.entries)
+        seen.insert(e.path);
+      for (auto &e : plan.samples.entries)
+        {
+          const std::string option = plan.samples.from.empty() || e.distribution.rfind("fit ", 0) != 0
+                                       ? "--uncertain " + e.path
+                                       : "--uncertain-from " + plan.samples.from + ": " + e.path;
+          if (!is_case_entry(e.path))
+            {
+              const std::string why = unknown_entry_reason(e.path);
+              throw InputError(option, e.distribution,
+                               why.empty() ? "unknown entry (print every entry with 'backcomb template')" : why);
+            }
+          if (e.path.rfind("Fabrication/", 0) == 0)
+            throw InputError(option, e.distribution, "the Fabrication section applies to the whole sweep");
+          if (!seen.insert(e.path).second)
+            throw InputError(option, e.distribution,
+                             "is also given with --set, --vary, --in-step or another --uncertain(-from)");
+          e.unit = entry_unit(e.path);
+        }
+    }
+
+    // Case `c` of sample `sample`: its overrides and folder name extended
+    // by the sampled values.
+    void
+    add_sample(const StudyPlan &plan, const std::size_t sample, StudyCase &c)
+    {
+      c.sample = sample;
+      for (std::size_t k = 0; k < plan.samples.entries.size(); ++k)
+        c.overrides.push_back(plan.samples.entries[k].path + "=" + sample_text(plan.samples.values[sample][k]));
+      const std::size_t digits = std::to_string(plan.samples.count - 1).size();
+      std::string       index  = std::to_string(sample);
+      c.id += "__sample=" + std::string(digits - index.size(), '0') + index;
     }
 
     // Grid point `index` of the cartesian product, the first entry varying
@@ -230,7 +285,8 @@ namespace backcomb::study
   make_plan(const std::string                 &case_file,
             const std::vector<std::string>    &sets,
             const std::vector<std::string>    &vary,
-            const std::vector<InStepArgument> &in_step)
+            const std::vector<InStepArgument> &in_step,
+            const UncertaintyArguments        &uncertainty)
   {
     if (vary.empty())
       throw InputError("--vary", "", "a sweep needs at least one --vary \"Section/Name=values\"");
@@ -253,23 +309,45 @@ namespace backcomb::study
             throw InputError("--vary", e.path, "the grid has more than 100000 cases");
         }
 
+    plan.samples = make_samples(uncertainty);
+    check_sampled_entries(plan);
+    if (plan.samples.active() && total * plan.samples.count > max_cases)
+      throw InputError("--samples", std::to_string(plan.samples.count),
+                       "the grid times the samples has more than 100000 cases");
+
     const std::vector<std::string> names = folder_names(plan.entries);
     std::set<std::string>          ids;
-    for (std::size_t index = 0; index < total; ++index)
-      {
-        StudyCase c = grid_point(plan, names, index);
-        if (c.id.size() > 200 || !ids.insert(c.id).second)
-          {
-            // Values that differ only in characters a folder name cannot
-            // hold: the plan index keeps the names apart.
-            c.id = c.id.substr(0, 180) + "__case" + std::to_string(index);
-            ids.insert(c.id);
-          }
-        check_grid_point(plan, c);
-        c.fingerprint = result_fingerprint(plan.case_text, c.overrides);
-        plan.cases.push_back(std::move(c));
-      }
+    const std::size_t              rounds = plan.samples.active() ? plan.samples.count : 1;
+    for (std::size_t sample = 0; sample < rounds; ++sample)
+      for (std::size_t index = 0; index < total; ++index)
+        {
+          StudyCase c = grid_point(plan, names, index);
+          if (plan.samples.active())
+            add_sample(plan, sample, c);
+          if (c.id.size() > 200 || !ids.insert(c.id).second)
+            {
+              // Values that differ only in characters a folder name cannot
+              // hold: the plan index keeps the names apart.
+              c.id = c.id.substr(0, 160) + "__case" + std::to_string(plan.cases.size());
+              ids.insert(c.id);
+            }
+          check_grid_point(plan, c);
+          c.fingerprint = result_fingerprint(plan.case_text, c.overrides);
+          plan.cases.push_back(std::move(c));
+        }
     return plan;
+  }
+
+  std::size_t
+  grid_size(const StudyPlan &plan)
+  {
+    return plan.samples.active() ? plan.cases.size() / plan.samples.count : plan.cases.size();
+  }
+
+  std::string
+  sample_text(const double value)
+  {
+    return format_number(value, 17);
   }
 
   json
@@ -298,11 +376,29 @@ namespace backcomb::study
                             {"overrides", c.overrides},
                             {"pitch_um", number(c.pitch_um)},
                             {"gap_um", number(c.gap_um)}});
+    for (std::size_t i = 0; i < plan.cases.size(); ++i)
+      if (plan.cases[i].sample)
+        j["cases"][i]["sample"] = *plan.cases[i].sample;
+    if (plan.samples.active())
+      {
+        const SampleSet &u = plan.samples;
+        json entries       = json::array();
+        for (const auto &e : u.entries)
+          entries.push_back({{"path", e.path}, {"unit", e.unit}, {"distribution", e.distribution}});
+        j["uncertainty"] = {{"entries", entries},
+                            {"from", u.from.empty() ? json(nullptr) : json(u.from)},
+                            {"samples", u.count},
+                            {"sampling", u.method == SamplingMethod::sobol ? "sobol" : "latin"},
+                            {"seed", u.seed},
+                            {"band_percent", {u.band_low, u.band_high}},
+                            {"values", u.values}};
+      }
     const auto &f     = plan.fabrication;
     j["fabrication"] = {{"smallest_gap_um", f.smallest_gap_um},
                         {"largest_gap_um", f.largest_gap_um},
                         {"gap_tolerance_um", f.gap_tolerance_um},
                         {"near_best_percent", f.near_best_percent},
+                        {"confidence_percent", f.confidence_percent},
                         {"gap_cost", f.gap_cost}};
     return j;
   }
@@ -334,7 +430,29 @@ namespace backcomb::study
             plan.fabrication.largest_gap_um       = f.at("largest_gap_um").get<double>();
             plan.fabrication.gap_tolerance_um     = f.at("gap_tolerance_um").get<double>();
             plan.fabrication.near_best_percent    = f.at("near_best_percent").get<double>();
+            plan.fabrication.confidence_percent   = f.value("confidence_percent", 90.0);
             plan.fabrication.gap_cost = f.at("gap_cost").get<std::vector<std::pair<double, double>>>();
+          }
+        if (j.contains("uncertainty"))
+          {
+            const json &u = j.at("uncertainty");
+            SampleSet  &s = plan.samples;
+            for (const auto &e : u.at("entries"))
+              s.entries.push_back({e.at("path").get<std::string>(), e.at("unit").get<std::string>(),
+                                   e.at("distribution").get<std::string>()});
+            if (u.at("from").is_string())
+              s.from = u.at("from").get<std::string>();
+            s.count     = u.at("samples").get<std::size_t>();
+            s.method    = u.at("sampling").get<std::string>() == "latin" ? SamplingMethod::latin : SamplingMethod::sobol;
+            s.seed      = u.at("seed").get<unsigned long>();
+            s.band_low  = u.at("band_percent").at(0).get<double>();
+            s.band_high = u.at("band_percent").at(1).get<double>();
+            s.values    = u.at("values").get<std::vector<std::vector<double>>>();
+            if (s.entries.empty() || s.count == 0 || s.values.size() != s.count)
+              throw InputError(file + ": damaged sweep plan (the samples do not match their count)");
+            for (const auto &v : s.values)
+              if (v.size() != s.entries.size())
+                throw InputError(file + ": damaged sweep plan (a sample without a value of every entry)");
           }
         for (const auto &c : j.at("cases"))
           {
@@ -346,9 +464,20 @@ namespace backcomb::study
               sc.pitch_um = c.at("pitch_um").get<double>();
             if (c.contains("gap_um") && c.at("gap_um").is_number())
               sc.gap_um = c.at("gap_um").get<double>();
+            if (c.contains("sample"))
+              sc.sample = c.at("sample").get<std::size_t>();
             sc.fingerprint = result_fingerprint(plan.case_text, sc.overrides);
             plan.cases.push_back(std::move(sc));
           }
+        // Samples are the outermost axis: case i belongs to sample
+        // i / grid_size, and every case of a sampled plan has its sample.
+        const std::size_t n = plan.samples.active() ? plan.samples.count : 1;
+        if (plan.samples.active() && (plan.cases.empty() || plan.cases.size() % n != 0))
+          throw InputError(file + ": damaged sweep plan (the cases do not fill the samples)");
+        for (std::size_t i = 0; i < plan.cases.size(); ++i)
+          if (plan.cases[i].sample.has_value() != plan.samples.active() ||
+              (plan.samples.active() && *plan.cases[i].sample != i / (plan.cases.size() / n)))
+            throw InputError(file + ": damaged sweep plan (case " + std::to_string(i) + " has another sample)");
         return plan;
       }
     catch (const json::exception &e)
@@ -380,6 +509,25 @@ namespace backcomb::study
           return "the " + option + " entry " + w.path + " or its values differ";
         if (e.in_step_with != w.in_step_with)
           return "the " + option + " entry " + w.path + " moves with another entry";
+      }
+    // The band percentiles are read at the merge only: a new --band is no
+    // new plan.
+    const SampleSet &a = existing.samples, &b = wanted.samples;
+    if (a.active() != b.active())
+      return b.active() ? "the old sweep has no uncertain entries" : "the old sweep has uncertain entries";
+    if (b.active())
+      {
+        if (a.entries.size() != b.entries.size())
+          return "the number of uncertain entries differs";
+        for (std::size_t k = 0; k < b.entries.size(); ++k)
+          if (a.entries[k].path != b.entries[k].path || a.entries[k].distribution != b.entries[k].distribution)
+            return "the uncertain entry " + b.entries[k].path + " or its distribution differs";
+        if (a.count != b.count)
+          return "the number of samples differs";
+        if (a.method != b.method || a.seed != b.seed)
+          return "the sampling method or its seed differs";
+        if (a.values != b.values)
+          return "the sampled values differ (a changed fit.json?)";
       }
     return "";
   }

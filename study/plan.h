@@ -4,11 +4,13 @@
 #pragma once
 
 #include "simulator/fabrication.h"
+#include "study/uncertainty.h"
 #include "study/values.h"
 
 #include <nlohmann/json.hpp>
 
 #include <limits>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -27,6 +29,9 @@ namespace backcomb::study
     double pitch_um = std::numeric_limits<double>::quiet_NaN();
     // The gap g between the fingers (Geometry/Gap), NaN for the test strip.
     double gap_um = std::numeric_limits<double>::quiet_NaN();
+    // The sample of the uncertain entries this case solves (an index into
+    // StudyPlan::samples.values); nothing when no entry is sampled.
+    std::optional<std::size_t> sample;
     // result_fingerprint() of the plan's case text and these overrides:
     // the fingerprint a summary.json of this case must carry.
     std::string fingerprint;
@@ -43,8 +48,12 @@ namespace backcomb::study
     // The cartesian product of the --vary entries' values (an --in-step
     // entry takes the value of the same position as its --vary entry); the
     // first entry varies fastest, so the cases of one line of the plot are
-    // consecutive.
+    // consecutive. With sampled entries the samples are the outermost
+    // axis: the whole grid for sample 0, then for sample 1, ...
     std::vector<StudyCase> cases;
+    // The uncertain entries and their sampled values (--uncertain,
+    // --uncertain-from); inactive when none is given.
+    SampleSet samples;
     // The case's Fabrication section (with the --set list), which the
     // recommendation applies; the same for every case.
     simulator::FabricationSettings fabrication;
@@ -71,10 +80,23 @@ namespace backcomb::study
   // than its --vary entry's, an entry linked to itself, linked twice, also
   // given with --vary or --set. Entries of the Fabrication section cannot
   // be varied (they apply to the whole sweep).
+  // Uncertain entries (make_samples): each sample is solved at every grid
+  // point; each sample's value of each entry is checked with read_case (an
+  // InputError names the entry, its distribution and the value). An
+  // uncertain entry cannot also be given with --set, --vary or --in-step,
+  // nor twice, nor be in the Fabrication section.
   StudyPlan make_plan(const std::string                 &case_file,
                       const std::vector<std::string>    &sets,
                       const std::vector<std::string>    &vary,
-                      const std::vector<InStepArgument> &in_step = {});
+                      const std::vector<InStepArgument> &in_step     = {},
+                      const UncertaintyArguments        &uncertainty = {});
+
+  // The number of grid points (cases per sample; all cases without samples).
+  std::size_t grid_size(const StudyPlan &plan);
+
+  // A sampled value as it is written into a case's override: all 17
+  // significant digits, so the case reads back the very double sampled.
+  std::string sample_text(double value);
 
   // The plan as stored in sweep-plan.json, and back (InputError naming
   // `file` when it is not a plan or is damaged).

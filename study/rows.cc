@@ -38,6 +38,7 @@ namespace backcomb::study
     StudyRow r;
     r.id     = c.id;
     r.values = c.values;
+    r.sample = c.sample;
     if (std::isfinite(c.pitch_um))
       r.pitch_um = c.pitch_um;
     if (std::isfinite(c.gap_um))

@@ -109,6 +109,12 @@ complete_words "$binary" so >c.txt
 [[ $(cat c.txt) == solve ]] || fail "completing 'so': $(cat c.txt)"
 complete_words "$binary" sweep "$case_file" --re >c.txt
 [[ $(cat c.txt) == --retry-failed ]] || fail "completing 'sweep CASE --re': $(cat c.txt)"
+complete_words "$binary" sweep "$case_file" --uncertain-f >c.txt
+[[ $(cat c.txt) == --uncertain-from ]] || fail "completing 'sweep CASE --uncertain-f': $(cat c.txt)"
+complete_words "$binary" sweep "$case_file" --sampling l >c.txt
+[[ $(cat c.txt) == latin ]] || fail "completing 'sweep CASE --sampling l': $(cat c.txt)"
+complete_words "$binary" sweep "$case_file" --uncertain 'Geometry/Ga' >c.txt
+[[ $(cat c.txt) == "Geometry/Gap=" ]] || fail "completing an entry path after --uncertain: $(cat c.txt)"
 complete_words "$binary" solve "$case_file" --l >c.txt
 [[ $(cat c.txt) == --log ]] || fail "completing 'solve CASE --l': $(cat c.txt)"
 complete_words "$binary" solve "$case_file" --set '"Absorber/Transport/Electron mo' >c.txt

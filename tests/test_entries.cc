@@ -243,6 +243,7 @@ TEST(Entries, TemplateRangeIsTheCheckedRange)
     {"Fabrication/Largest gap"},
     {"Fabrication/Gap tolerance"},
     {"Fabrication/Near-best margin"},
+    {"Fabrication/Confidence"},
   };
   for (const auto &s : samples)
     check_sample(s);
@@ -287,8 +288,8 @@ TEST(Entries, TemplateStatesUnitAndRange)
                   (entry_unit(path).empty() && doc.find(" Dimensionless.") != std::string::npos))
         << path << ": " << doc;
     }
-  // 8 + 4 + 7 + 5 + 6 + 1 + 5 + 3 + 4 number entries in these sections.
-  EXPECT_EQ(checked, 43u);
+  // 8 + 4 + 7 + 5 + 6 + 1 + 5 + 3 + 5 number entries in these sections.
+  EXPECT_EQ(checked, 44u);
 }
 
 TEST(Entries, DeclaredUnits)
