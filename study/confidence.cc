@@ -158,6 +158,50 @@ namespace backcomb::study
         }
     }
 
+    // The named grid point against its neighbours on its line, sample by
+    // sample (SampledRecommendation::neighbours).
+    void
+    compare_neighbours(const StudyPlan &plan, const std::vector<StudyRow> &rows, SampledRecommendation &r)
+    {
+      const std::size_t named = r.chosen ? *r.chosen : *r.most_often;
+      const std::size_t grid  = r.share.size();
+      const std::vector<StudyRow> grid_rows(rows.begin(), rows.begin() + long(grid));
+      for (const auto &line : lines_of(plan, grid_rows))
+        {
+          const auto at = std::find(line.begin(), line.end(), named);
+          if (at == line.end())
+            continue;
+          std::vector<std::size_t> others;
+          if (at != line.begin())
+            others.push_back(*(at - 1));
+          if (at + 1 != line.end())
+            others.push_back(*(at + 1));
+          for (const auto other : others)
+            {
+              SampledRecommendation::Comparison c;
+              c.other = other;
+              for (std::size_t s = 0; s < r.samples; ++s)
+                {
+                  if (!r.sample_complete[s] || !r.per_sample[s].valid)
+                    continue;
+                  const Criterion crit = r.per_sample[s].criterion;
+                  const auto      a    = deciding_pce(crit, rows[s * grid + named]);
+                  const auto      b    = deciding_pce(crit, rows[s * grid + other]);
+                  if (!a || !b)
+                    continue;
+                  ++c.counted;
+                  if (*a > *b * (1 + solve_resolution))
+                    ++c.named_higher;
+                  else if (*b > *a * (1 + solve_resolution))
+                    ++c.other_higher;
+                }
+              const double needed = r.confidence * double(c.counted) - 1e-9;
+              c.separated = c.counted > 0 && (double(c.named_higher) >= needed || double(c.other_higher) >= needed);
+              r.neighbours.push_back(c);
+            }
+        }
+    }
+
     // The sentences of the recommendation.
     std::string
     sampled_text(const StudyPlan &plan, const std::vector<StudyRow> &grid_rows, const std::vector<BandPoint> &points,
@@ -227,6 +271,14 @@ namespace backcomb::study
              << within(*r.most_often)
              << ". Lower Fabrication/Confidence, widen Fabrication/Near-best margin, or measure the entry that moves "
                 "the choice most (below) better.";
+      // Neighbours the samples do not separate from the named point.
+      const std::size_t named = r.chosen ? *r.chosen : *r.most_often;
+      for (const auto &c : r.neighbours)
+        if (!c.separated)
+          text << " The samples cannot separate " << value(named) << " from " << value(c.other) << ": "
+               << value(named) << " has the higher PCE in " << c.named_higher << " of " << c.counted << " samples, "
+               << value(c.other) << " in " << c.other_higher << " (neither in "
+               << format_number(100 * r.confidence, 3) << " %).";
       // The spread of the samples' own best.
       std::optional<std::size_t> lo, hi, often;
       for (std::size_t g = 0; g < r.best_count.size(); ++g)
@@ -292,6 +344,7 @@ namespace backcomb::study
         r.most_often = std::size_t(std::max_element(r.share.begin(), r.share.end()) - r.share.begin());
         r.chosen     = choose(plan, grid_rows, r);
         r.valid      = r.chosen.has_value();
+        compare_neighbours(plan, rows, r);
         if (r.valid && r.gap_study)
           {
             find_limit(plan, grid_rows, points, r);

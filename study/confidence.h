@@ -58,6 +58,18 @@ namespace backcomb::study
     // stays within the margin of that sample's best, and those where an
     // end lies outside the computed gaps or next to a missing PCE.
     std::size_t tolerance_holds = 0, tolerance_unknown = 0, tolerance_checked = 0;
+    // The neighbours of the named grid point (the chosen one, else the most
+    // often within the margin) on its line, compared sample by sample: in
+    // how many counted samples each has the higher deciding PCE by more
+    // than solve_resolution (the rest are ties). The samples separate the
+    // two when one of them is higher in at least the confidence share.
+    struct Comparison
+    {
+      std::size_t other        = 0; // grid point
+      std::size_t named_higher = 0, other_higher = 0, counted = 0;
+      bool        separated    = false;
+    };
+    std::vector<Comparison> neighbours;
     // First-order sensitivity of the two results on each uncertain entry.
     SensitivityRanking choice_sensitivity, pce_sensitivity;
     std::string text;

@@ -88,6 +88,16 @@ namespace backcomb::study
                                            {"samples_within_margin", r.tolerance_holds},
                                            {"samples_not_known", r.tolerance_unknown}}
                                     : json(nullptr);
+    json neighbours = json::array();
+    for (const auto &c : r.neighbours)
+      neighbours.push_back({{"grid_point", rows[c.other].values[0]},
+                            {"samples_counted", c.counted},
+                            {"named_higher", c.named_higher},
+                            {"neighbour_higher", c.other_higher},
+                            {"separated", c.separated}});
+    // The named point (recommended, else most often within the margin)
+    // against its neighbours, sample by sample.
+    j["neighbours_compared"] = neighbours;
     j["what_sets_the_limit"]    = r.beyond ? json{{"next_gap", rows[*r.beyond].values[0]},
                                                   {"next_gap_share_within_margin", r.share[*r.beyond]},
                                                   {"loss", r.limiting_loss.empty() ? json(nullptr)

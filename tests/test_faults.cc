@@ -404,7 +404,9 @@ TEST(Speed, ChordStepsGiveTheNewtonResult)
     for (const auto &q : a["points"])
       if (q["sweep"] == p["sweep"] && std::abs(double(q["voltage_V"]) - double(p["voltage_V"])) < 1e-12 &&
           p["current_mA_per_cm2"].is_number())
-        EXPECT_NEAR(double(q["current_mA_per_cm2"]), double(p["current_mA_per_cm2"]), 1e-6 * jsc) << p.dump();
+        {
+          EXPECT_NEAR(double(q["current_mA_per_cm2"]), double(p["current_mA_per_cm2"]), 1e-6 * jsc) << p.dump();
+        }
   EXPECT_LT(2 * double(a["newton"]["factorisations"]), double(b["newton"]["factorisations"]));
   fs::remove_all(dir);
 }

@@ -361,6 +361,47 @@ TEST(Uncertainty, ConfidenceSelectsTheWidestGapOfEnoughSamples)
   EXPECT_NEAR(r.choice_sensitivity.index[0], 3712.5 / 5062.5, 1e-12);
 }
 
+// The recommended gap against its neighbours, sample by sample: worked by
+// hand from the constructed PCEs (no outside reference applies).
+TEST(Uncertainty, NeighboursTheSamplesCannotSeparateAreNamed)
+{
+  // Ten samples: PCE 10 % up to 10 um in every sample; at 20 um 8 % (nine
+  // samples) or 9.9 % (the tenth). 10 um is chosen; 5 um ties with it in
+  // every sample (not separated), 20 um is lower in all ten (separated:
+  // 10 > 9.9 (1 + 1e-3)).
+  std::vector<double> L(10);
+  std::iota(L.begin(), L.end(), 1.0);
+  StudyPlan  plan = synthetic_plan({"5", "10", "20", "50"}, L);
+  const auto pce  = [](std::size_t s, double g) { return g <= 10 ? 10.0 : s == 9 && g <= 50 ? 9.9 : 8.0; };
+  const auto rows = synthetic_rows(plan, pce, [](std::size_t, double) { return 0.9; });
+  const auto r    = recommend_with_samples(plan, rows, band_points(plan, rows));
+  ASSERT_TRUE(r.valid);
+  ASSERT_EQ(r.neighbours.size(), 2u);
+  EXPECT_EQ(plan.entries[0].values[r.neighbours[0].other], "5");
+  EXPECT_EQ(r.neighbours[0].counted, 10u);
+  EXPECT_EQ(r.neighbours[0].named_higher + r.neighbours[0].other_higher, 0u);
+  EXPECT_FALSE(r.neighbours[0].separated);
+  EXPECT_EQ(plan.entries[0].values[r.neighbours[1].other], "20");
+  EXPECT_EQ(r.neighbours[1].named_higher, 10u);
+  EXPECT_TRUE(r.neighbours[1].separated);
+  EXPECT_NE(r.text.find("The samples cannot separate 10 um from 5 um: 10 um has the higher PCE in 0 of 10 samples, "
+                        "5 um in 0 (neither in 90 %)."),
+            std::string::npos)
+    << r.text;
+  EXPECT_EQ(r.text.find("cannot separate 10 um from 20 um"), std::string::npos) << r.text;
+  // Films that disagree (five best at 5 um, five at 50 um): nothing is
+  // chosen; the most often within the margin, 5 um, is higher than 10 um
+  // in the first five samples and ties in the others: not separated.
+  const auto split = [](std::size_t s, double g) { return (s < 5 ? g == 5 : g == 50) ? 10.0 : 8.0; };
+  const auto rows2 = synthetic_rows(plan, split, [](std::size_t, double) { return 0.9; });
+  const auto r2    = recommend_with_samples(plan, rows2, band_points(plan, rows2));
+  ASSERT_FALSE(r2.valid);
+  ASSERT_EQ(r2.neighbours.size(), 1u);
+  EXPECT_EQ(r2.neighbours[0].named_higher, 5u);
+  EXPECT_EQ(r2.neighbours[0].other_higher, 0u);
+  EXPECT_FALSE(r2.neighbours[0].separated);
+}
+
 // The given-data estimator on Y = 10 X1 + X2 with X1, X2 independent
 // uniform on [0, 1]: exact first-order indices 100/101 and 1/101
 // (Var(10 X1) = 100/12, Var(X2) = 1/12). With M = 32 classes of 1024
