@@ -91,9 +91,9 @@ namespace backcomb::study
     find_limit(const StudyPlan &plan, const std::vector<StudyRow> &grid_rows, const std::vector<BandPoint> &points,
                SampledRecommendation &r)
     {
-      for (const auto &line : lines_of(plan, grid_rows))
-        if (const auto at = std::find(line.begin(), line.end(), *r.chosen); at != line.end() && at + 1 != line.end())
-          r.beyond = *(at + 1);
+      const auto line = line_through(plan, grid_rows, *r.chosen);
+      if (const auto at = std::find(line.begin(), line.end(), *r.chosen); at + 1 != line.end())
+        r.beyond = *(at + 1);
       if (!r.beyond)
         return;
       const auto &from = points[*r.chosen].median.loss_parts, &to = points[*r.beyond].median.loss_parts;
@@ -136,6 +136,8 @@ namespace backcomb::study
       if (!(t > 0) || !r.chosen)
         return;
       const std::size_t grid = r.share.size();
+      // Every sample has the same grid: the chosen point's line once.
+      const auto line = line_through(plan, std::vector<StudyRow>(rows.begin(), rows.begin() + long(grid)), *r.chosen);
       for (std::size_t s = 0; s < r.samples; ++s)
         {
           const Recommendation &rec = r.per_sample[s];
@@ -143,18 +145,14 @@ namespace backcomb::study
             continue;
           const std::vector<StudyRow> own(rows.begin() + long(s * grid), rows.begin() + long((s + 1) * grid));
           ++r.tolerance_checked;
-          for (const auto &line : lines_of(plan, own))
-            if (std::find(line.begin(), line.end(), *r.chosen) != line.end())
-              {
-                const double g    = *to_number(own[*r.chosen].values[0]);
-                const auto   low  = pce_at(rec.criterion, own, line, g - t);
-                const auto   high = pce_at(rec.criterion, own, line, g + t);
-                const double best = *deciding_pce(rec.criterion, own[rec.best]);
-                if (!low || !high)
-                  ++r.tolerance_unknown;
-                else if (std::min(*low, *high) >= (1 - r.margin) * best)
-                  ++r.tolerance_holds;
-              }
+          const double g    = *to_number(own[*r.chosen].values[0]);
+          const auto   low  = pce_at(rec.criterion, own, line, g - t);
+          const auto   high = pce_at(rec.criterion, own, line, g + t);
+          const double best = *deciding_pce(rec.criterion, own[rec.best]);
+          if (!low || !high)
+            ++r.tolerance_unknown;
+          else if (std::min(*low, *high) >= (1 - r.margin) * best)
+            ++r.tolerance_holds;
         }
     }
 
@@ -165,40 +163,35 @@ namespace backcomb::study
     {
       const std::size_t named = r.chosen ? *r.chosen : *r.most_often;
       const std::size_t grid  = r.share.size();
-      const std::vector<StudyRow> grid_rows(rows.begin(), rows.begin() + long(grid));
-      for (const auto &line : lines_of(plan, grid_rows))
+      const auto line = line_through(plan, std::vector<StudyRow>(rows.begin(), rows.begin() + long(grid)), named);
+      const auto at   = std::find(line.begin(), line.end(), named);
+      std::vector<std::size_t> others;
+      if (at != line.begin())
+        others.push_back(*(at - 1));
+      if (at + 1 != line.end())
+        others.push_back(*(at + 1));
+      for (const auto other : others)
         {
-          const auto at = std::find(line.begin(), line.end(), named);
-          if (at == line.end())
-            continue;
-          std::vector<std::size_t> others;
-          if (at != line.begin())
-            others.push_back(*(at - 1));
-          if (at + 1 != line.end())
-            others.push_back(*(at + 1));
-          for (const auto other : others)
+          SampledRecommendation::Comparison c;
+          c.other = other;
+          for (std::size_t s = 0; s < r.samples; ++s)
             {
-              SampledRecommendation::Comparison c;
-              c.other = other;
-              for (std::size_t s = 0; s < r.samples; ++s)
-                {
-                  if (!r.sample_complete[s] || !r.per_sample[s].valid)
-                    continue;
-                  const Criterion crit = r.per_sample[s].criterion;
-                  const auto      a    = deciding_pce(crit, rows[s * grid + named]);
-                  const auto      b    = deciding_pce(crit, rows[s * grid + other]);
-                  if (!a || !b)
-                    continue;
-                  ++c.counted;
-                  if (*a > *b * (1 + solve_resolution))
-                    ++c.named_higher;
-                  else if (*b > *a * (1 + solve_resolution))
-                    ++c.other_higher;
-                }
-              const double needed = r.confidence * double(c.counted) - 1e-9;
-              c.separated = c.counted > 0 && (double(c.named_higher) >= needed || double(c.other_higher) >= needed);
-              r.neighbours.push_back(c);
+              if (!r.sample_complete[s] || !r.per_sample[s].valid)
+                continue;
+              const Criterion crit = r.per_sample[s].criterion;
+              const auto      a    = deciding_pce(crit, rows[s * grid + named]);
+              const auto      b    = deciding_pce(crit, rows[s * grid + other]);
+              if (!a || !b)
+                continue;
+              ++c.counted;
+              if (*a > *b * (1 + solve_resolution))
+                ++c.named_higher;
+              else if (*b > *a * (1 + solve_resolution))
+                ++c.other_higher;
             }
+          const double needed = r.confidence * double(c.counted) - 1e-9;
+          c.separated = c.counted > 0 && (double(c.named_higher) >= needed || double(c.other_higher) >= needed);
+          r.neighbours.push_back(c);
         }
     }
 

@@ -499,23 +499,35 @@ namespace backcomb::study
     return j;
   }
 
+  namespace
+  {
+    // What sweep.json holds for every sweep, with or without samples: the
+    // plan's entries and one object per case.
+    json
+    plan_and_cases_json(const StudyPlan &plan, const std::vector<StudyRow> &rows)
+    {
+      json j;
+      j["case_file"] = plan.case_file;
+      j["sets"]      = plan.sets;
+      j["entries"]   = json::array();
+      for (const auto &e : plan.entries)
+        j["entries"].push_back({{"path", e.path},
+                                {"unit", e.unit},
+                                {"values", e.values},
+                                {"in_step_with", e.is_axis() ? json(nullptr) : json(e.in_step_with)}});
+      j["pitch_definition"] = "w_e + w_h + 2 gap: centre to centre of neighbouring fingers of the same polarity";
+      j["counts"]           = status_counts(rows);
+      j["cases"]            = json::array();
+      for (const auto &r : rows)
+        j["cases"].push_back(row_json(plan, r));
+      return j;
+    }
+  } // namespace
+
   json
   study_json(const StudyPlan &plan, const std::vector<StudyRow> &rows, const Recommendation &rec)
   {
-    json j;
-    j["case_file"] = plan.case_file;
-    j["sets"]      = plan.sets;
-    j["entries"]   = json::array();
-    for (const auto &e : plan.entries)
-      j["entries"].push_back({{"path", e.path},
-                              {"unit", e.unit},
-                              {"values", e.values},
-                              {"in_step_with", e.is_axis() ? json(nullptr) : json(e.in_step_with)}});
-    j["pitch_definition"] = "w_e + w_h + 2 gap: centre to centre of neighbouring fingers of the same polarity";
-    j["counts"]           = status_counts(rows);
-    j["cases"]            = json::array();
-    for (const auto &r : rows)
-      j["cases"].push_back(row_json(plan, r));
+    json j              = plan_and_cases_json(plan, rows);
     j["recommendation"] = recommendation_json(plan, rows, rec);
     return j;
   }
@@ -632,21 +644,8 @@ namespace backcomb::study
       const std::vector<std::string> collections = write_field_collections(folder, plan, rows);
       const json                     views       = write_view_collections(folder, plan, rows);
 
-      json j;
-      j["case_file"] = plan.case_file;
-      j["sets"]      = plan.sets;
-      j["entries"]   = json::array();
-      for (const auto &e : plan.entries)
-        j["entries"].push_back({{"path", e.path},
-                                {"unit", e.unit},
-                                {"values", e.values},
-                                {"in_step_with", e.is_axis() ? json(nullptr) : json(e.in_step_with)}});
-      j["uncertainty"]      = plan_to_json(plan)["uncertainty"];
-      j["pitch_definition"] = "w_e + w_h + 2 gap: centre to centre of neighbouring fingers of the same polarity";
-      j["counts"]           = status_counts(rows);
-      j["cases"]            = json::array();
-      for (const auto &row : rows)
-        j["cases"].push_back(row_json(plan, row));
+      json j              = plan_and_cases_json(plan, rows);
+      j["uncertainty"]    = plan_to_json(plan)["uncertainty"];
       j["bands"]          = bands_json(plan, points);
       j["recommendation"] = sampled_recommendation_json(plan, rows, r);
       j["sensitivity"]    = sensitivity_json(r);

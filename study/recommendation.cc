@@ -31,16 +31,6 @@ namespace backcomb::study
       return !g || (*g >= plan.fabrication.smallest_gap_um && *g <= plan.fabrication.largest_gap_um);
     }
 
-    // The line of the plot through the best case.
-    std::vector<std::size_t>
-    line_of_best(const StudyPlan &plan, const std::vector<StudyRow> &rows, const std::size_t best)
-    {
-      for (const auto &l : lines_of(plan, rows))
-        if (std::find(l.begin(), l.end(), best) != l.end())
-          return l;
-      return {best};
-    }
-
     // The contiguous run around the best within the margin; a failed or
     // missing neighbour, or one outside the fabrication limits, ends the
     // run, since nothing is known (or can be made) there.
@@ -328,7 +318,7 @@ namespace backcomb::study
                                            : "No recommendation: no case delivered power (see the status column).";
         return rec;
       }
-    const std::vector<std::size_t> line = line_of_best(plan, rows, rec.best);
+    const std::vector<std::size_t> line = line_through(plan, rows, rec.best);
     find_near_best(plan, rows, line, rec);
     rec.gap_study = plan.entries[0].path == gap_path && all_numeric(plan.entries[0].values);
     if (rec.gap_study)

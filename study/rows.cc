@@ -125,4 +125,13 @@ namespace backcomb::study
         });
     return lines;
   }
+
+  std::vector<std::size_t>
+  line_through(const StudyPlan &plan, const std::vector<StudyRow> &rows, const std::size_t point)
+  {
+    for (auto &l : lines_of(plan, rows))
+      if (std::find(l.begin(), l.end(), point) != l.end())
+        return std::move(l);
+    return {point};
+  }
 } // namespace backcomb::study

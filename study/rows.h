@@ -22,4 +22,7 @@ namespace backcomb::study
   // plot), each line ordered by the first entry's value when all its values
   // are numbers, in plan order otherwise.
   std::vector<std::vector<std::size_t>> lines_of(const StudyPlan &plan, const std::vector<StudyRow> &rows);
+
+  // The line of lines_of() that holds row `point` ({point} if none does).
+  std::vector<std::size_t> line_through(const StudyPlan &plan, const std::vector<StudyRow> &rows, std::size_t point);
 } // namespace backcomb::study

@@ -6,6 +6,7 @@
 // (quick), except the sweep of tests/sweep_tiny.prm (slow).
 #include "base/errors.h"
 #include "study/study.h"
+#include "temp_folder.h"
 
 #include <gtest/gtest.h>
 #include <nlohmann/json.hpp>
@@ -15,7 +16,6 @@
 #include <filesystem>
 #include <fstream>
 #include <numeric>
-#include <unistd.h>
 
 using namespace backcomb;
 using namespace backcomb::study;
@@ -23,15 +23,6 @@ namespace fs = std::filesystem;
 
 namespace
 {
-  fs::path
-  fresh_folder(const std::string &name)
-  {
-    const fs::path p = fs::temp_directory_path() / ("backcomb-bands-" + name + "-" + std::to_string(::getpid()));
-    fs::remove_all(p);
-    fs::create_directories(p);
-    return p;
-  }
-
   // The samples of one --uncertain entry.
   std::vector<double>
   draw(const std::string &distribution, const std::size_t n, const std::string &sampling = "sobol")
@@ -444,7 +435,7 @@ TEST(Uncertainty, SensitivityRanksTheDominantEntryFirst)
 // tolerances.
 TEST(Uncertainty, FitCovarianceIsReproducedBySamples)
 {
-  const fs::path folder = fresh_folder("fit");
+  const fs::path folder = test_support::fresh_folder("bands-fit");
   write_fit(folder, "converged", true, 0.8);
   UncertaintyArguments a;
   a.from    = folder.string();
@@ -474,7 +465,7 @@ TEST(Uncertainty, FitCovarianceIsReproducedBySamples)
 // folder without fit.json are refused, naming the file and the entry.
 TEST(Uncertainty, UnusableFitsAreRefused)
 {
-  const fs::path folder = fresh_folder("badfit");
+  const fs::path folder = test_support::fresh_folder("bands-badfit");
   const auto     error  = [&]() -> std::string {
     try
       {
