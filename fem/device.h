@@ -6,6 +6,7 @@
 #include "fem/material.h"
 #include "fem/physics/contact_model.h"
 #include "fem/physics/recombination_channel.h"
+#include "fem/recycling_operator.h"
 
 #include <deal.II/base/parameter_handler.h>
 #include <deal.II/base/point.h>
@@ -148,6 +149,11 @@ namespace backcomb::fem
     // Optional fixed space charge density in cm^-3 (positive like ionised
     // donors), added to the doping; used for manufactured solutions.
     std::function<double(double, double)> fixed_charge;
+    // Photon recycling as lateral transport (fem/recycling_operator.h):
+    // empty for the local model, in which each region's radiative channel
+    // is already net of its recycling probability. When set, the absorber's
+    // radiative channel must count every emitted photon (probability 0).
+    RecyclingFactory recycling;
     std::map<unsigned, Material>       materials;      // physical units
 
     const ScaledRegion &region(unsigned material_id) const;

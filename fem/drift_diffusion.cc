@@ -83,6 +83,7 @@ namespace backcomb::fem
     setup_system();
     cache_cell_geometry();
     precompute_generation();
+    setup_recycling();
   }
 
   DriftDiffusionSolver::~DriftDiffusionSolver()
@@ -349,7 +350,7 @@ namespace backcomb::fem
         const double n     = std::exp(v[c_psi] - v[c_phin] + r.a_n);
         const double p     = std::exp(v[c_phip] - v[c_psi] + r.a_p);
         const Rate   k     = bulk_rate(r, n, p);
-        const double G     = light * generation_qp[ci * nq + q];
+        const double G     = light * generation_qp[ci * nq + q] + (recycled_qp.empty() ? 0.0 : recycled_qp[ci * nq + q]);
         const double fixed = fixed_charge_qp.empty() ? 0.0 : fixed_charge_qp[ci * nq + q];
         const double dx    = cell_cache.jxw[ci * nq + q];
         // Derivatives of R with respect to (psi, phi_n, phi_p).
@@ -832,6 +833,14 @@ namespace backcomb::fem
   NewtonReport
   DriftDiffusionSolver::solve(const double voltage, const double light, const unsigned iteration_budget)
   {
+    return recycling ? solve_with_recycling(voltage, light, iteration_budget)
+                     : solve_fixed_generation(voltage, light, iteration_budget);
+  }
+
+  NewtonReport
+  DriftDiffusionSolver::solve_fixed_generation(const double voltage, const double light,
+                                               const unsigned iteration_budget)
+  {
     Vector<double> u = solution;
     set_boundary_values(u, voltage);
     const unsigned cap =
@@ -866,6 +875,9 @@ namespace backcomb::fem
     solution     = u;
     bias         = voltage;
     light_factor = light;
+    // A stored state was converged with the generation it re-emits.
+    if (recycling)
+      set_recycled(recycling->reabsorbed(column_emission(u)));
   }
 
   TerminalCurrent

@@ -85,6 +85,11 @@ namespace backcomb::fem
     double band_edge_input = 0;        // q int G E_g: what dmu could be at most
     double output  = 0;                // V J
     std::map<std::string, double> bulk_recombination; // per channel, all regions
+    // With photon recycling as transport: q int G_recycled dmu, the free
+    // energy the re-absorbed photons bring back. The "radiative" channel
+    // above is then net of it (as in the local model), so that the balance
+    // closes the same way in both.
+    double recycled_input = 0;
     double top_surface   = 0;          // q oint U_s dmu
     double gap_interface = 0;
     double joule_electrons = 0;        // in the absorber
@@ -128,6 +133,25 @@ namespace backcomb::fem
     // after failed chord steps: for a start from a predicted guess, whose
     // caller falls back to a start from the last converged state.
     NewtonReport solve(double voltage, double light_factor, unsigned iteration_budget = 0);
+
+    // Photon recycling as transport (DeviceModel::recycling set): each
+    // solve is then an outer fixed-point iteration, accelerated by PETSc's
+    // Anderson mixing (SNESANDERSON; D. G. Anderson, J. ACM 12 (1965) 547),
+    // over the re-absorbed generation per absorber column, each step a
+    // drift-diffusion solve with that generation fixed, until the
+    // generation the state re-emits equals the one it was solved with to
+    // `recycling_tolerance` of the largest column generation.
+    bool transports_photons() const { return recycling != nullptr; }
+    static constexpr double recycling_tolerance = 1e-8;
+    // The absorber's lateral columns (um, increasing) and, for the current
+    // state, the net radiative emission and the re-absorbed generation per
+    // column (cm^-2 s^-1 of footprint) and where the emitted photons go.
+    const std::vector<double> &column_edges_um() const { return columns.edges; }
+    std::vector<double> column_emission(const dealii::Vector<double> &u) const;
+    const std::vector<double> &recycled_generation() const { return columns.recycled; }
+    PhotonBalance photon_balance() const;
+    // Outer iterations of the recycling so far (all solves).
+    unsigned recycling_iterations() const { return n_recycling; }
 
     TerminalCurrent terminal_current() const;
 
@@ -222,6 +246,12 @@ namespace backcomb::fem
     // rows of the Newton update, row-equilibrated; the row scale is kept
     // with the factorisation that follows.
     void assemble_system(const dealii::Vector<double> &u, double light) const;
+    // The drift-diffusion solve with the recycled generation held fixed.
+    NewtonReport solve_fixed_generation(double voltage, double light, unsigned iteration_budget);
+    NewtonReport solve_with_recycling(double voltage, double light, unsigned iteration_budget);
+    void setup_recycling();
+    // Sets the re-absorbed generation per column (cm^-2 s^-1).
+    void set_recycled(const std::vector<double> &per_column);
     // The residual alone, scaled by the rows of the last factorised
     // Jacobian (for a chord step with that factorisation).
     void assemble_scaled_residual(const dealii::Vector<double> &u, double light) const;
@@ -270,6 +300,17 @@ namespace backcomb::fem
     } cell_cache;
     std::vector<double>              generation_qp; // scaled, per cell and quadrature point
     std::vector<double>              fixed_charge_qp; // scaled, empty if none
+    // Photon recycling as transport; `recycled_qp` (scaled, per cell and
+    // quadrature point) is empty without it.
+    std::unique_ptr<const RecyclingOperator> recycling;
+    struct Columns
+    {
+      std::vector<double> edges, thickness_um; // per column
+      std::vector<int>    of_cell;             // per active cell, -1 outside the absorber
+      std::vector<double> recycled;            // cm^-2 s^-1, per column
+    } columns;
+    std::vector<double>              recycled_qp;
+    unsigned                         n_recycling = 0;
     std::vector<dealii::types::global_dof_index> hole_contact_dofs[3], electron_contact_dofs[3];
     std::vector<dealii::Point<2>>    support_points;
     double                           bias = 0, light_factor = 0, width = 0;

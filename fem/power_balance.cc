@@ -45,6 +45,7 @@ namespace backcomb::fem
     // Scaled sums; index: input, band edge, Joule n, Joule p, Joule
     // interlayers, top surface, gap interface.
     double sums[7] = {0, 0, 0, 0, 0, 0, 0};
+    double recycled = 0; // q int G_recycled dmu, scaled
     for (const auto &cell : dofs.active_cell_iterators())
       {
         if (!cell->is_locally_owned())
@@ -68,6 +69,8 @@ namespace backcomb::fem
             const double G   = light_factor * generation_qp[cell->active_cell_index() * nq + q];
             const double dx  = fv.JxW(q);
             sums[0] += G * dmu * dx;
+            if (!recycled_qp.empty())
+              recycled += recycled_qp[cell->active_cell_index() * nq + q] * dmu * dx;
             sums[1] += G * 2 * r.half_gap * dx;
             const double jn = r.mu_n * n * g[c_phin].norm_square() * dx;
             const double jp = r.mu_p * p * g[c_phip].norm_square() * dx;
@@ -139,6 +142,11 @@ namespace backcomb::fem
         b.contact[k][c] = Utilities::MPI::sum(contact_sums[k][c], comm) * scale;
     for (const auto &[name, value] : channel)
       b.bulk_recombination[name] = Utilities::MPI::sum(value, comm) * scale;
+    if (recycling)
+      {
+        b.recycled_input = Utilities::MPI::sum(recycled, comm) * scale;
+        b.bulk_recombination["radiative"] -= b.recycled_input;
+      }
     return b;
   }
 } // namespace backcomb::fem
