@@ -154,8 +154,31 @@ namespace backcomb::fem
              (t3 - t2) * h * s1;
     }
 
+    // The smallest and largest absorption coefficient (cm^-1) of the
+    // emission once the photon fraction 1e-10 is left out at either end.
+    std::pair<double, double>
+    absorption_range(const EmissionSpectrum &emission)
+    {
+      std::vector<std::pair<double, double>> lines; // alpha, fraction
+      for (std::size_t e = 0; e < emission.energy_eV.size(); ++e)
+        if (emission.photon_fraction[e] > 0)
+          lines.emplace_back(emission.alpha_per_cm[e], emission.photon_fraction[e]);
+      std::sort(lines.begin(), lines.end());
+      const auto first_beyond = [](auto begin, auto end) {
+        double left_out = 0;
+        for (auto it = begin; it != end; ++it)
+          {
+            left_out += it->second;
+            if (left_out > 1e-10)
+              return it->first;
+          }
+        return (end - 1)->first;
+      };
+      return {first_beyond(lines.begin(), lines.end()), first_beyond(lines.rbegin(), lines.rend())};
+    }
+
     constexpr int image_grid_intervals = 2048;
-    constexpr int max_image_pairs      = 20000;
+    constexpr int summed_image_pairs   = 64;
   } // namespace
 
   PhotonTransport::PhotonTransport(const FilmOptics       &film,
@@ -169,7 +192,7 @@ namespace backcomb::fem
     for (std::size_t i = 0; i + 1 < edges_.size(); ++i)
       widths_.push_back(edges_[i + 1] - edges_[i]);
     const auto rays = make_rays(film, emission);
-    tabulate_lateral_tail(rays, film.thickness_um);
+    tabulate_lateral_tail(rays, film.thickness_um, absorption_range(emission));
     tabulate_images();
     assemble_operator();
   }
@@ -264,19 +287,15 @@ namespace backcomb::fem
   // P(rho > r / cos psi) dpsi. V(r) = int_r^inf T by the trapezoid rule in
   // ln r (the integrand T r is smooth there).
   void
-  PhotonTransport::tabulate_lateral_tail(const std::vector<Ray> &rays, const double thickness_um)
+  PhotonTransport::tabulate_lateral_tail(const std::vector<Ray>          &rays,
+                                         const double                     thickness_um,
+                                         const std::pair<double, double> &alpha_range)
   {
-    // Absorption lengths of the rays that carry a noticeable share.
-    double alpha_t_min = HUGE_VAL, alpha_t_max = 0; // alpha t
-    // alpha t = a mu; mu = 1 / sqrt(1 + tan^2).
-    for (const Ray &ray : rays)
-      if (ray.weight > 1e-12)
-        {
-          const double alpha_t = ray.a / std::sqrt(1 + ray.tan_theta * ray.tan_theta);
-          alpha_t_min          = std::min(alpha_t_min, alpha_t);
-          alpha_t_max          = std::max(alpha_t_max, alpha_t);
-        }
-    const double shortest = thickness_um / alpha_t_max, longest = thickness_um / alpha_t_min;
+    // The absorption lengths that matter: leave out the photons of the
+    // weakest (sub-gap tail) and strongest absorption that carry less than
+    // 1e-10 of the emission each; their fates are still counted exactly,
+    // only their lateral spread is cut at r_max.
+    const double shortest = 1e4 / alpha_range.second, longest = 1e4 / alpha_range.first;
     r_min_ = 1e-3 * std::min(shortest, thickness_um);
     r_max_ = std::max(40 * longest, 100 * r_min_);
     const int nodes = 2 + int(std::ceil(per_decade_ * std::log10(r_max_ / r_min_)));
@@ -325,6 +344,33 @@ namespace backcomb::fem
       tail_integral_[k] = tail_integral_[k + 1] + 0.5 * (half_tail_[k] * r_[k] + half_tail_[k + 1] * r_[k + 1]) *
                                                     std::log(r_[k + 1] / r_[k]);
     tail_integral_[0] = tail_integral_[1] + 0.5 * (half_tail_[0] + half_tail_[1]) * r_[1];
+
+    // And once more, for the far images: V2(r) = int_r^inf V.
+    second_tail_integral_.assign(nodes, 0);
+    for (int k = nodes - 2; k >= 1; --k)
+      second_tail_integral_[k] =
+        second_tail_integral_[k + 1] +
+        0.5 * (tail_integral_[k] * r_[k] + tail_integral_[k + 1] * r_[k + 1]) * std::log(r_[k + 1] / r_[k]);
+    second_tail_integral_[0] = second_tail_integral_[1] + 0.5 * (tail_integral_[0] + tail_integral_[1]) * r_[1];
+  }
+
+  int
+  PhotonTransport::segment(const double r) const
+  {
+    if (r <= r_[1])
+      return 0;
+    return std::min(int(r_.size()) - 2, 1 + int(per_decade_ * std::log10(r / r_min_)));
+  }
+
+  double
+  PhotonTransport::second_tail_integral(double r) const
+  {
+    r = std::abs(r);
+    if (r >= r_max_)
+      return 0;
+    const int k = segment(r);
+    return hermite(r_[k], r_[k + 1], second_tail_integral_[k], second_tail_integral_[k + 1],
+                   -tail_integral_[k], -tail_integral_[k + 1], r);
   }
 
   double
@@ -333,9 +379,7 @@ namespace backcomb::fem
     r = std::abs(r);
     if (r >= r_max_)
       return 0;
-    int k = 0;
-    if (r > r_[1])
-      k = std::min(int(r_.size()) - 2, 1 + int(per_decade_ * std::log10(r / r_min_)));
+    const int k = segment(r);
     return hermite(r_[k], r_[k + 1], tail_integral_[k], tail_integral_[k + 1], -half_tail_[k],
                    -half_tail_[k + 1], r);
   }
@@ -346,9 +390,7 @@ namespace backcomb::fem
     const double r = std::abs(r_um);
     if (r >= r_max_)
       return 0;
-    int k = 0;
-    if (r > r_[1])
-      k = std::min(int(r_.size()) - 2, 1 + int(per_decade_ * std::log10(r / r_min_)));
+    const int    k = segment(r);
     const double f = (r - r_[k]) / (r_[k + 1] - r_[k]);
     return 2 * (half_tail_[k] + (half_tail_[k + 1] - half_tail_[k]) * f);
   }
@@ -356,23 +398,30 @@ namespace backcomb::fem
   // The images other than the source itself, sum_{m >= 1} V(2mP - y) +
   // V(2mP + y) for y in [0, P]: smooth on the scale of the period, so a
   // uniform grid with cubic Hermite interpolation (slopes from T) is enough.
+  // The first pairs are summed; the rest, once they lie more than 128
+  // periods away, by the midpoint rule over cells [2mP - P, 2mP + P]:
+  // sum_{m > M} f(2mP) = (1/2P) int_{(2M+1)P}^inf f, exact to (2P/l)^2/24
+  // for a decay length l, and of size exp(-128 P / l) where that is poor.
   void
   PhotonTransport::tabulate_images()
   {
     const int    n = image_grid_intervals;
-    const double h = period_ / n;
+    const double h = period_ / n, P = period_;
     images_.assign(n + 1, 0);
     images_slope_.assign(n + 1, 0);
     const auto half_tail_at = [&](const double r) { return 0.5 * absorbed_beyond(r); };
     for (int i = 0; i <= n; ++i)
       {
         const double y = i * h;
-        for (int m = 1; m <= max_image_pairs && 2 * m * period_ - y < r_max_; ++m)
+        for (int m = 1; m <= summed_image_pairs && 2 * m * P - y < r_max_; ++m)
           {
-            const double left = 2 * m * period_ - y, right = 2 * m * period_ + y;
+            const double left = 2 * m * P - y, right = 2 * m * P + y;
             images_[i] += tail_integral(left) + tail_integral(right);
             images_slope_[i] += half_tail_at(left) - half_tail_at(right);
           }
+        const double rest = (2 * summed_image_pairs + 1) * P;
+        images_[i] += (second_tail_integral(rest - y) + second_tail_integral(rest + y)) / (2 * P);
+        images_slope_[i] += (tail_integral(rest - y) - tail_integral(rest + y)) / (2 * P);
       }
   }
 
@@ -471,7 +520,8 @@ namespace backcomb::fem
   PhotonTransport::memory_bytes() const
   {
     return sizeof(double) * (matrix_.size() + edges_.size() + widths_.size() + r_.size() +
-                             half_tail_.size() + tail_integral_.size() + images_.size() +
+                             half_tail_.size() + tail_integral_.size() + second_tail_integral_.size() +
+                             images_.size() +
                              images_slope_.size());
   }
 } // namespace backcomb::fem

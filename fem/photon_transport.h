@@ -55,6 +55,7 @@
 #include "fem/radiative_emission.h"
 
 #include <cstddef>
+#include <utility>
 #include <vector>
 
 namespace backcomb::fem
@@ -152,7 +153,9 @@ namespace backcomb::fem
     std::vector<Ray>
     make_rays(const FilmOptics &film, const EmissionSpectrum &emission);
     void
-    tabulate_lateral_tail(const std::vector<Ray> &rays, double thickness_um);
+    tabulate_lateral_tail(const std::vector<Ray>          &rays,
+                          double                           thickness_um,
+                          const std::pair<double, double> &alpha_range);
     void
     tabulate_images();
     void
@@ -162,6 +165,12 @@ namespace backcomb::fem
     // beyond lateral distance r (cubic Hermite on a logarithmic grid).
     double
     tail_integral(double r_um) const;
+    // V2(r) = int_r^inf V, for the far images.
+    double
+    second_tail_integral(double r_um) const;
+    // The interval [r_k, r_k+1] of the grid that holds r.
+    int
+    segment(double r_um) const;
     // sum over all images m of V(|y - 2 m P|): even and 2P-periodic.
     double
     image_sum(double y_um) const;
@@ -173,7 +182,7 @@ namespace backcomb::fem
     // Logarithmic grid r_k = r_min 10^((k-1)/per_decade), k >= 1, r_0 = 0.
     double              r_min_ = 0, r_max_ = 0;
     static constexpr int per_decade_ = 60;
-    std::vector<double> r_, half_tail_, tail_integral_; // r, T(r), V(r)
+    std::vector<double> r_, half_tail_, tail_integral_, second_tail_integral_; // r, T, V, V2
 
     // sum_{m != 0} V(|y - 2 m P|) on a uniform grid of [0, P], with its
     // derivative, for cubic Hermite interpolation.

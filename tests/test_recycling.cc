@@ -245,6 +245,26 @@ TEST(Recycling, IndexMatchedSlabEscapesAsTheExponentialIntegralPredicts)
     }
 }
 
+TEST(Recycling, WeakAbsorberKeepsTheLightOutsideTheEscapeCones)
+{
+  // alpha t -> 0 between air and glass: a photon outside both escape cones
+  // is totally reflected at both faces and in the end re-absorbed; one
+  // inside a cone leaves before it is absorbed. Isotropic emission puts the
+  // fraction cos(theta_c) of the directions outside a cone of half-angle
+  // theta_c (solid angle 2 pi (1 - cos theta_c) per hemisphere; geometry),
+  // so A -> sqrt(1 - (n_sub/n)^2) = 0.8 for n = 2.5, n_sub = 1.5. Rays just
+  // inside the critical angle reflect almost totally, which leaves a
+  // correction of order sqrt(alpha t).
+  FilmOptics film;
+  film.thickness_um = 0.5;
+  const double          alpha_t = 1e-8;
+  const PhotonTransport transport(film, single_line(alpha_t / 0.5e-4, 2.5), {0, 10});
+  const double          trapped = std::sqrt(1 - std::pow(1.5 / 2.5, 2));
+  std::printf("weak absorber (alpha t = 1e-8) on glass under air: A = %.6f, outside the cones %.6f\n",
+              transport.slab_fates().absorbed, trapped);
+  EXPECT_NEAR(transport.slab_fates().absorbed, trapped, 1e-3);
+}
+
 TEST(Recycling, PhotonBalanceClosesForNonUniformEmission)
 {
   // MAPbI3 emission, 0.5 um film between air and glass, a 50 um period on
@@ -324,6 +344,22 @@ TEST(Recycling, UniformEmissionIsReabsorbedWithTheSlabProbabilityInEveryBin)
     std::printf("uniform emission, MAPbI3 on glass under air: A = %.6f, worst bin off by %.2e\n",
                 transport.slab_fates().absorbed, worst);
     EXPECT_LT(worst, 1e-9);
+  }
+  {
+    // Trapped light of a weak absorber travels ~ t/(alpha t) = 500 um,
+    // a hundred periods of 5 um: the far images are summed as an integral.
+    FilmOptics film;
+    film.thickness_um = t;
+    const PhotonTransport transport(film, single_line(1e-3 / (t * 1e-4), 2.5), graded_edges(5, 100));
+    PhotonBalance         b;
+    const auto            g = transport.apply(std::vector<double>(100, 1e20), b);
+    double                worst = 0;
+    for (const double gi : g)
+      worst = std::max(worst, std::abs(gi / 1e20 - transport.slab_fates().absorbed));
+    std::printf("uniform emission, alpha t = 1e-3 on glass under air, 5 um period: A = %.6f, worst bin "
+                "off by %.2e\n",
+                transport.slab_fates().absorbed, worst);
+    EXPECT_LT(worst, 1e-6);
   }
 }
 
@@ -407,6 +443,11 @@ TEST(Recycling, OperatorMemoryAndApplyTimeAt2000Bins)
               1e3 * std::chrono::duration<double>(applied - built).count() / repeats,
               b.recycled_fraction(), b.escaped_top / b.emitted, b.lost_substrate / b.emitted);
   EXPECT_LT(relative_unbooked(b), 1e-6);
+  std::printf("  how far the re-absorbed photons land, P(|x - x'| > r) per emitted photon:\n"
+              "  r (um)   cut-off 1.60 eV   Urbach tail 15 meV below 1.60 eV\n");
+  const PhotonTransport tail(film, mapi_emission(1.6, 0.015), graded_edges(100, 200));
+  for (const double r : {0.1, 1.0, 3.0, 10.0, 30.0})
+    std::printf("  %5.1f    %.3e         %.3e\n", r, transport.absorbed_beyond(r), tail.absorbed_beyond(r));
 }
 
 TEST(Recycling, BadInputsNameTheOptionAndTheValue)
