@@ -224,6 +224,51 @@ TEST(Recycling, RayFatesAddUpAndTheTailStartsAtTheAbsorbedFraction)
   EXPECT_LT(fresnel_reflectance(2.5, 1.5, std::sqrt(1 - 0.59 * 0.59)), 1.0);
 }
 
+TEST(Recycling, AbsorptionDistanceSumsTheBouncesOfItsDefinition)
+{
+  // Between perfect mirrors nothing leaves: the unfolded path is a plain
+  // exponential, P(absorbed beyond D) = exp(-a D/t) (Beer-Lambert).
+  using namespace photon_transport_detail;
+  for (const double D : {0.0, 0.3, 1.0, 2.7, 11.5})
+    EXPECT_NEAR(ray_absorbed_beyond(D, 0.4, 1, 1), std::exp(-0.4 * D), 1e-14);
+  // With leaky faces, the closed form (partial pass + geometric series over
+  // pairs of passes) against its definition integrated numerically: the
+  // weight after an unfolded distance d = (k + phi) t is the mean over the
+  // uniform first hit and both starting directions of the product of the
+  // reflectances met, (1 - phi) P_k + phi P_{k+1}; the absorption density is
+  // a e^{-a d/t} times that weight (Simpson's rule, 4000 steps per pass).
+  const double Rt = 0.3, Rb = 0.8, a = 0.25;
+  const auto   mean_product = [&](const int hits) {
+    const double up   = std::pow(Rt, (hits + 1) / 2) * std::pow(Rb, hits / 2);
+    const double down = std::pow(Rb, (hits + 1) / 2) * std::pow(Rt, hits / 2);
+    return 0.5 * (up + down);
+  };
+  const auto density = [&](const double d) {
+    const int    k   = int(std::floor(d));
+    const double phi = d - k;
+    return a * std::exp(-a * d) * ((1 - phi) * mean_product(k) + phi * mean_product(k + 1));
+  };
+  for (const double D : {0.0, 0.45, 1.0, 3.2})
+    {
+      double       integral = 0;
+      const int    steps    = 4000;
+      // From D to the next whole pass, then pass by pass (the density is
+      // smooth inside a pass), up to 80 passes (weight below 1e-30).
+      std::vector<double> starts{D};
+      for (double k = std::floor(D) + 1; k < 80; ++k)
+        starts.push_back(k);
+      for (std::size_t p = 0; p + 1 < starts.size(); ++p)
+        {
+          const double lo = starts[p], hi = starts[p + 1], w = (hi - lo) / steps;
+          double       sum = density(lo + 1e-15) + density(hi - 1e-15);
+          for (int i = 1; i < steps; ++i)
+            sum += (i % 2 ? 4 : 2) * density(lo + i * w);
+          integral += sum * w / 3;
+        }
+      EXPECT_NEAR(ray_absorbed_beyond(D, a, Rt, Rb), integral, 1e-10) << "D = " << D;
+    }
+}
+
 TEST(Recycling, IndexMatchedSlabEscapesAsTheExponentialIntegralPredicts)
 {
   // No reflection at either face: the escape through both faces equals
