@@ -92,24 +92,37 @@ namespace backcomb::fem
     // d is (1 - phi) P_k + phi P_{k+1} and the absorption density
     // (alpha/mu) e^{-alpha d/mu} times that weight; its integral beyond D
     // is a partial pass plus a geometric series over pairs of passes.
-    double
-    ray_absorbed_beyond(const double D_over_t, const double a, const double Rt, const double Rb)
+    Bounces::Bounces(const double a_, const double Rt_, const double Rb_)
+      : a(a_), Rt(Rt_), Rb(Rb_)
     {
-      const double L = Rt * Rb, h = 0.5 * (Rt + Rb), e = std::exp(-a);
-      const double q      = L * e * e;
-      const double k      = std::floor(D_over_t);
-      const double phi0   = D_over_t - k;
-      const double m      = std::floor(k / 2);
-      const bool   even   = (k - 2 * m) == 0;
-      const double qm     = std::pow(q, m);
-      const auto   full   = pass_integrals(a, 0);
-      const auto   part   = pass_integrals(a, phi0);
-      const double odd_full  = e * (h * full.c0 + L * full.c1);
-      const double even_full = full.c0 + h * full.c1;
-      const double inv       = 1 / one_minus_round_trip(a, Rt, Rb);
+      L               = Rt * Rb;
+      h               = 0.5 * (Rt + Rb);
+      e               = std::exp(-a);
+      q               = L * e * e;
+      inv             = 1 / one_minus_round_trip(a, Rt, Rb);
+      const auto full = pass_integrals(a, 0);
+      odd_full        = e * (h * full.c0 + L * full.c1);
+      even_full       = full.c0 + h * full.c1;
+    }
+
+    double
+    Bounces::absorbed_beyond(const double D_over_t) const
+    {
+      const double k    = std::floor(D_over_t);
+      const double phi0 = D_over_t - k;
+      const double m    = std::floor(k / 2);
+      const bool   even = (k - 2 * m) == 0;
+      const double qm   = m == 0 ? 1 : std::pow(q, m);
+      const auto   part = pass_integrals(a, phi0);
       if (even)
         return qm * (part.c0 + h * part.c1) + qm * inv * (odd_full + q * even_full);
       return qm * e * (h * part.c0 + L * part.c1) + qm * q * inv * (even_full + odd_full);
+    }
+
+    double
+    ray_absorbed_beyond(const double D_over_t, const double a, const double Rt, const double Rb)
+    {
+      return Bounces(a, Rt, Rb).absorbed_beyond(D_over_t);
     }
   } // namespace photon_transport_detail
 
@@ -117,10 +130,11 @@ namespace backcomb::fem
 
   struct PhotonTransport::Ray
   {
-    double weight;    // photon fraction times angular weight
-    double a;         // alpha t / mu
-    double Rt, Rb;    // reflectances at top and bottom
-    double tan_theta; // lateral travel per vertical travel
+    double  weight;    // photon fraction times angular weight
+    double  a;         // alpha t / mu
+    double  Rt, Rb;    // reflectances at top and bottom
+    double  tan_theta; // lateral travel per vertical travel
+    Bounces bounces;   // a, Rt and Rb with the pass integrals, for G(D)
   };
 
   namespace
@@ -262,12 +276,13 @@ namespace backcomb::fem
             gauss_legendre(film.angle_nodes, breaks[b], breaks[b + 1], mu, w);
         for (std::size_t i = 0; i < mu.size(); ++i)
           {
-            Ray ray;
+            Ray ray{};
             ray.weight    = fraction * w[i];
             ray.a         = emission.alpha_per_cm[e] * t_cm / mu[i];
             ray.Rt        = fresnel_reflectance(n, film.top_index, mu[i]);
             ray.Rb        = fresnel_reflectance(n, film.substrate_index, mu[i]);
             ray.tan_theta = std::sqrt(1 - mu[i] * mu[i]) / mu[i];
+            ray.bounces       = Bounces(ray.a, ray.Rt, ray.Rb);
             const SlabFates f = ray_fates(ray.a, ray.Rt, ray.Rb);
             fates_.escaped_top += ray.weight * f.escaped_top;
             fates_.lost_substrate += ray.weight * f.lost_substrate;
@@ -310,8 +325,8 @@ namespace backcomb::fem
     for (const Ray &ray : rays)
       for (int k = 0; k < nodes; ++k)
         {
-          const double p = ray.weight * ray_absorbed_beyond(r_[k] / (thickness_um * ray.tan_theta),
-                                                            ray.a, ray.Rt, ray.Rb);
+          const double p =
+            ray.weight * ray.bounces.absorbed_beyond(r_[k] / (thickness_um * ray.tan_theta));
           radial[k] += p;
           if (p < 1e-20)
             break;

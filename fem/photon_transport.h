@@ -35,6 +35,18 @@
 //    reflects ~4 % and traps more by total internal reflection).
 //  - Re-absorption along the path with alpha(E), all of it counted as pair
 //    generation (no parasitic free-carrier absorption).
+//  - One emission spectrum everywhere: the equilibrium (van Roosbroeck-
+//    Shockley) shape. Under bias the emission is r0(E) exp(dmu/kT) as long
+//    as E - dmu >> kT (non-degenerate carriers), so the shape holds; it
+//    fails near degeneracy (dmu within a few kT of the gap) and where the
+//    band gap varies across the period.
+//
+// Coupling (for the solver): apply the operator to the excess emission
+// B (n p - n_i^2) per bin. At equilibrium that is zero and so is the net
+// radiative rate, to rounding; the equilibrium part B n_i^2 is balanced by
+// re-absorption (A) plus the thermal radiation of the surroundings that
+// replaces what escapes (1 - A). Uniform emission gives A times itself in
+// every bin (translation invariance through the images), to ~1e-11.
 //
 // Numerics: per photon energy and direction cosine the fates of a photon
 // (absorbed, out of the top, into the substrate) are closed-form geometric
@@ -210,5 +222,18 @@ namespace backcomb::fem
     // at D = 0.
     double
     ray_absorbed_beyond(double D_over_t, double a, double Rt, double Rb);
+
+    // The same with what does not depend on D computed once (the lateral
+    // tail evaluates it for every ray at hundreds of distances).
+    struct Bounces
+    {
+      Bounces() = default;
+      Bounces(double a, double Rt, double Rb);
+      double absorbed_beyond(double D_over_t) const;
+
+      double a = 0, Rt = 0, Rb = 0;
+      double L = 0, h = 0, e = 0, q = 0, inv = 0; // Rt Rb, mean R, e^{-a}, L e^{-2a}, 1/(1-q)
+      double odd_full = 0, even_full = 0;        // absorption in whole passes
+    };
   } // namespace photon_transport_detail
 } // namespace backcomb::fem

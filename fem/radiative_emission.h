@@ -30,6 +30,9 @@ namespace backcomb::fem
   struct EmissionOptions
   {
     double temperature_K     = 300;
+    // Set it to the absorber's band gap, or to where the table's measured
+    // absorption edge ends; B depends on it (a factor ~1.7 per 20 meV for
+    // the shipped MAPbI3 table, see DEVELOPERS.md "Photon recycling").
     double cutoff_eV         = 1.6;
     double urbach_energy_eV  = 0;  // 0: hard cut-off; else < kT
     // Refractive index used when the optical constants are an alpha table
