@@ -79,7 +79,7 @@ namespace backcomb::fem
     double top_index        = 1.0; // medium above the free surface
     double substrate_index  = 1.5; // medium below the film
     // Gauss-Legendre nodes per interval of the direction cosine (the
-    // intervals are split at the critical angles).
+    // intervals are split at the critical angles and at mu = alpha t).
     int    angle_nodes      = 48;
   };
 
@@ -90,7 +90,7 @@ namespace backcomb::fem
     double emitted        = 0;
     double reabsorbed     = 0; // in the film: new pairs
     double escaped_top    = 0; // through the free surface
-    double lost_substrate = 0; // into the substrate (and the fingers)
+    double lost_substrate = 0; // into the substrate (fingers count as substrate)
     // emitted minus every fate: zero up to rounding.
     double unbooked() const
     {
