@@ -349,7 +349,16 @@ namespace backcomb::fem
             }
         const double n     = std::exp(v[c_psi] - v[c_phin] + r.a_n);
         const double p     = std::exp(v[c_phip] - v[c_psi] + r.a_p);
-        const Rate   k     = bulk_rate(r, n, p);
+        Rate         k     = bulk_rate(r, n, p);
+        if (columns.local_share > 0)
+          if (const RecombinationChannel *rad = columns.radiative[cell->material_id()])
+            {
+              // Photon recycling as transport: the share re-absorbed on the spot.
+              const Rate kr = rad->rate(n, p);
+              k.R -= columns.local_share * kr.R;
+              k.dR_dn -= columns.local_share * kr.dR_dn;
+              k.dR_dp -= columns.local_share * kr.dR_dp;
+            }
         const double G     = light * generation_qp[ci * nq + q] + (recycled_qp.empty() ? 0.0 : recycled_qp[ci * nq + q]);
         const double fixed = fixed_charge_qp.empty() ? 0.0 : fixed_charge_qp[ci * nq + q];
         const double dx    = cell_cache.jxw[ci * nq + q];
@@ -877,7 +886,7 @@ namespace backcomb::fem
     light_factor = light;
     // A stored state was converged with the generation it re-emits.
     if (recycling)
-      set_recycled(recycling->reabsorbed(column_emission(u)));
+      set_recycled(outer_part(u));
   }
 
   TerminalCurrent

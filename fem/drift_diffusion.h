@@ -148,7 +148,7 @@ namespace backcomb::fem
     // column (cm^-2 s^-1 of footprint) and where the emitted photons go.
     const std::vector<double> &column_edges_um() const { return columns.edges; }
     std::vector<double> column_emission(const dealii::Vector<double> &u) const;
-    const std::vector<double> &recycled_generation() const { return columns.recycled; }
+    std::vector<double> recycled_generation() const;
     PhotonBalance photon_balance() const;
     // Outer iterations of the recycling so far (all solves).
     unsigned recycling_iterations() const { return n_recycling; }
@@ -250,8 +250,11 @@ namespace backcomb::fem
     NewtonReport solve_fixed_generation(double voltage, double light, unsigned iteration_budget);
     NewtonReport solve_with_recycling(double voltage, double light, unsigned iteration_budget);
     void setup_recycling();
-    // Sets the re-absorbed generation per column (cm^-2 s^-1).
+    // Sets the outer iteration's part of the re-absorbed generation per
+    // column (cm^-2 s^-1).
     void set_recycled(const std::vector<double> &per_column);
+    // K e(u) - A e(u) per column: what the outer iteration must match.
+    std::vector<double> outer_part(const dealii::Vector<double> &u) const;
     // The residual alone, scaled by the rows of the last factorised
     // Jacobian (for a chord step with that factorisation).
     void assemble_scaled_residual(const dealii::Vector<double> &u, double light) const;
@@ -307,7 +310,12 @@ namespace backcomb::fem
     {
       std::vector<double> edges, thickness_um; // per column
       std::vector<int>    of_cell;             // per active cell, -1 outside the absorber
-      std::vector<double> recycled;            // cm^-2 s^-1, per column
+      // The outer iteration's part of the re-absorbed generation,
+      // K e - A e (cm^-2 s^-1, per column); A e is in Newton's equations.
+      std::vector<double> recycled;
+      double              local_share = 0; // A
+      // The radiative channel of each material id (nullptr: none).
+      std::vector<const RecombinationChannel *> radiative;
     } columns;
     std::vector<double>              recycled_qp;
     unsigned                         n_recycling = 0;

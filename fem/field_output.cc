@@ -195,6 +195,18 @@ namespace backcomb::fem
       }
     out.add_data_vector(region, "region_id");
     out.add_data_vector(absorber, "in_absorber");
+    // Photon recycling as transport: the re-absorbed generation, uniform
+    // over each column's thickness (cell data).
+    Vector<float> recycled;
+    if (recycling)
+      {
+        recycled.reinit(tria.n_active_cells());
+        const std::vector<double> per_column = recycled_generation();
+        for (const auto &cell : tria.active_cell_iterators())
+          if (const int c = columns.of_cell[cell->active_cell_index()]; c >= 0)
+            recycled[cell->active_cell_index()] = per_column[c] / (columns.thickness_um[c] * 1e-4);
+        out.add_data_vector(recycled, "recycled_generation_rate_per_cm3_s");
+      }
     CollectionFields collection(device, threshold);
     if (fc)
       out.add_data_vector(*fc, collection);

@@ -31,7 +31,17 @@ namespace backcomb::fem
     double tau_p             = 1e-6;  // s, SRH hole lifetime
     double trap_level        = 0.0;   // eV above midgap
     double B_rad             = 0.0;   // cm^3/s, radiative coefficient
-    double photon_recycling  = 0.0;   // probability 0..1
+    double photon_recycling  = 0.0;   // probability 0..1 (local model)
+    // Photon recycling as transport (fem/photon_transport.h) instead of the
+    // local probability, with the film's surroundings and the treatment of
+    // the absorption below the edge (fem/radiative_emission.h); and B from
+    // the absorption spectrum (van Roosbroeck-Shockley) instead of the entry.
+    bool   recycling_transport = false;
+    double substrate_index     = 1.5;
+    double top_index           = 1.0;
+    double emission_cutoff_eV  = 0.0;  // 0: the band gap
+    double urbach_energy_eV    = 0.0;  // 0: no absorption below the cut-off
+    bool   B_from_absorption   = false;
     double C_n               = 0.0;   // cm^6/s, Auger (eeh)
     double C_p               = 0.0;   // cm^6/s, Auger (ehh)
     std::map<std::string, double> model_numbers; // further channels' entries

@@ -70,7 +70,11 @@ namespace backcomb::fem
             const double dx  = fv.JxW(q);
             sums[0] += G * dmu * dx;
             if (!recycled_qp.empty())
-              recycled += recycled_qp[cell->active_cell_index() * nq + q] * dmu * dx;
+              {
+                recycled += recycled_qp[cell->active_cell_index() * nq + q] * dmu * dx;
+                if (const RecombinationChannel *rad = columns.radiative[cell->material_id()])
+                  recycled += columns.local_share * rad->rate(n, p).R * dmu * dx; // re-absorbed on the spot
+              }
             sums[1] += G * 2 * r.half_gap * dx;
             const double jn = r.mu_n * n * g[c_phin].norm_square() * dx;
             const double jp = r.mu_p * p * g[c_phip].norm_square() * dx;

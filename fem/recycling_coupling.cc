@@ -159,6 +159,34 @@ namespace backcomb::fem
     columns.recycled.assign(nc, 0.0);
     recycled_qp.assign(tria.n_active_cells() * cell_quadrature.size(), 0.0);
     recycling = device.recycling(columns.edges);
+    columns.local_share = recycling->local_share();
+    columns.radiative.assign(256, nullptr);
+    for (const auto &[id, region] : device.regions)
+      if (region.absorber && id < 256)
+        columns.radiative[id] = radiative_channel(region);
+  }
+
+  std::vector<double>
+  DriftDiffusionSolver::outer_part(const Vector<double> &u) const
+  {
+    const std::vector<double> e = column_emission(u);
+    std::vector<double>       g = recycling->reabsorbed(e);
+    for (std::size_t i = 0; i < g.size(); ++i)
+      g[i] -= columns.local_share * e[i];
+    return g;
+  }
+
+  std::vector<double>
+  DriftDiffusionSolver::recycled_generation() const
+  {
+    std::vector<double> g = columns.recycled;
+    if (recycling)
+      {
+        const std::vector<double> e = column_emission(solution);
+        for (std::size_t i = 0; i < g.size(); ++i)
+          g[i] += columns.local_share * e[i];
+      }
+    return g;
   }
 
   std::vector<double>
@@ -241,7 +269,7 @@ namespace backcomb::fem
       set_recycled(g);
       return solve_fixed_generation(voltage, light, iteration_budget);
     };
-    it.re_emitted = [&]() { return recycling->reabsorbed(column_emission(solution)); };
+    it.re_emitted = [&]() { return outer_part(solution); };
     // The scale of the generation: the optical generation per column at
     // this light or the recycled one now, whichever is larger.
     double optical = 0;

@@ -11,34 +11,33 @@
 // unit footprint area in cm^-2 s^-1.
 #pragma once
 
+#include "fem/photon_transport.h"
+
 #include <functional>
 #include <memory>
 #include <vector>
 
 namespace backcomb::fem
 {
-  // Where the net radiative emission of the absorber goes, per unit
-  // footprint area of the period (cm^-2 s^-1): averaged over the columns
-  // with their widths as weights.
-  struct PhotonBalance
-  {
-    double emitted        = 0;
-    double reabsorbed     = 0; // in the film: new electron-hole pairs
-    double escaped_top    = 0; // through the free surface
-    double lost_substrate = 0; // into the substrate over the gap
-    double lost_fingers   = 0; // absorbed in (or through) the fingers
-    // emitted minus every term: zero up to the operator's accuracy.
-    double unbooked() const { return emitted - reabsorbed - escaped_top - lost_substrate - lost_fingers; }
-  };
-
   class RecyclingOperator
   {
   public:
     virtual ~RecyclingOperator() = default;
     // Net emission per column -> re-absorbed generation per column (same
-    // length); linear. With `balance`, where the emitted photons go.
+    // length); linear. With `balance`, where the emitted photons go
+    // (fem/photon_transport.h), per unit footprint.
     virtual std::vector<double> reabsorbed(const std::vector<double> &emission,
                                            PhotonBalance            *balance = nullptr) const = 0;
+    // A share A of the emission that may be treated as re-absorbed where it
+    // is emitted: the solver puts A B (np - n_i^2) into Newton's equations
+    // point by point and leaves only the rest, K e - A e, to the outer
+    // iteration, which then contracts with the lateral redistribution
+    // instead of with the whole recycled share. The split moves only where
+    // in a column's thickness the share A comes back (at the emitting
+    // point instead of spread evenly), which the thin-film operator does
+    // not resolve anyway. The slab re-absorption probability is the natural
+    // choice (the columns of K sum to it).
+    virtual double local_share() const { return 0; }
   };
 
   // Builds the operator for the columns [edges[i], edges[i+1]] (um,

@@ -2,6 +2,8 @@
 
 #include "postprocess/plots.h"
 
+#include "fem/constants.h"
+
 #include <algorithm>
 #include <cmath>
 #include <iomanip>
@@ -148,9 +150,72 @@ namespace backcomb::postprocess
                                         {"film_joule", s.film_joule},
                                         {"contacts", s.contacts}}},
                              {"residual_relative_to_input", b.input != 0 ? json(b.residual() / b.input) : json(nullptr)}};
+        if (p.photons)
+          {
+            pts[p.name]["photons"]                      = photons_json(p);
+            pts[p.name]["recycled_free_energy_input"] = b.recycled_input;
+          }
       }
     j["points"] = pts;
     return j;
+  }
+
+  double
+  as_current_mA_per_cm2(const double rate_per_cm2_s)
+  {
+    return 1e3 * constants::q * rate_per_cm2_s;
+  }
+
+  namespace
+  {
+    // Photons out of the top per pair the light makes.
+    json
+    external_radiative_efficiency(const LossPoint &p)
+    {
+      return p.optical_generation_mA_per_cm2 > 0
+               ? json(as_current_mA_per_cm2(p.photons->escaped_top) / p.optical_generation_mA_per_cm2)
+               : json(nullptr);
+    }
+  } // namespace
+
+  json
+  photons_json(const LossPoint &p)
+  {
+    const fem::PhotonBalance &b = *p.photons;
+    return {{"unit", "mA/cm^2 of footprint (q times the photon flux)"},
+            {"emitted", as_current_mA_per_cm2(b.emitted)},
+            {"reabsorbed", as_current_mA_per_cm2(b.reabsorbed)},
+            {"escaped_top", as_current_mA_per_cm2(b.escaped_top)},
+            {"into_substrate", as_current_mA_per_cm2(b.lost_substrate)},
+            {"unbooked", as_current_mA_per_cm2(b.unbooked())},
+            {"recycled_fraction", b.recycled_fraction()},
+            {"external_radiative_efficiency", external_radiative_efficiency(p)}};
+  }
+
+  std::string
+  photons_csv(const std::vector<LossPoint> &points)
+  {
+    std::ostringstream csv;
+    csv << "# backcomb photon balance of the absorber's net radiative emission (photon recycling as transport),\n"
+        << "# q times the photon flux in mA/cm^2 of footprint; recycled_fraction = reabsorbed / emitted;\n"
+        << "# external_radiative_efficiency = escaped_top / (q * optical generation), at open circuit the "
+           "external luminescence yield.\n"
+        << "point,bias_V,current_mA_per_cm2,emitted,reabsorbed,escaped_top,into_substrate,unbooked,"
+           "recycled_fraction,external_radiative_efficiency\n";
+    bool any = false;
+    for (const auto &p : points)
+      if (p.photons)
+        {
+          any             = true;
+          const json j    = photons_json(p);
+          auto       cell = [](const json &v) { return v.is_null() ? std::string() : number(v.get<double>()); };
+          csv << p.name << ',' << number(p.balance.bias_V) << ',' << number(p.balance.current);
+          for (const char *k : {"emitted", "reabsorbed", "escaped_top", "into_substrate", "unbooked",
+                                "recycled_fraction", "external_radiative_efficiency"})
+            csv << ',' << cell(j[k]);
+          csv << '\n';
+        }
+    return any ? csv.str() : std::string();
   }
 
   std::vector<std::string>

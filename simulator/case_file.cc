@@ -1,4 +1,5 @@
 #include "simulator/case_file.h"
+#include "simulator/recycling_setup.h"
 
 #include "base/entries.h"
 #include "base/format.h"
@@ -386,6 +387,13 @@ namespace backcomb::simulator
                                " eV: E_g/kT = " + std::to_string(m->band_gap / kT) +
                                " makes the intrinsic density underflow");
         }
+      // Photons travel in the absorber only.
+      for (const auto &[name, m] : {std::pair<std::string, const fem::Material *>{"Electron interlayer", &c.electron_interlayer},
+                                    {"Hole interlayer", &c.hole_interlayer}})
+        if (m->recycling_transport || m->B_from_absorption)
+          throw InputError(name + "/Recombination/Radiative/" +
+                             (m->recycling_transport ? "Photon recycling" : "Coefficient from absorption"),
+                           m->recycling_transport ? "transport" : "true", "applies to the Absorber only");
       // Refuse meshes too large for memory before anything is allocated.
       // Estimate: the uniform parts plus the graded parts at each refined
       // line (about 4 kB of memory per cell with the direct solver: a
@@ -889,6 +897,7 @@ namespace backcomb::simulator
 
         // Contradictions between sections.
         check_consistency(c, prm);
+        apply_coefficient_from_absorption(c);
       }
     catch (const InputError &e)
       {

@@ -22,6 +22,7 @@
 #include "simulator/bounds.h"
 #include "simulator/checkpoint.h"
 #include "simulator/guard_rails.h"
+#include "simulator/recycling_setup.h"
 
 #include <deal.II/base/config.h>
 #include <deal.II/base/mpi.h>
@@ -250,6 +251,7 @@ namespace backcomb::simulator
     void evaluate_comb_cell();
     void settle_status();
     json summary_of_results() const;
+    json photon_recycling_json() const;
     void write_results();
     void print_report() const;
 
@@ -811,7 +813,13 @@ namespace backcomb::simulator
                                  " V): no converged state");
         return;
       }
-    loss_points.push_back({name, solver->power_balance()});
+    LossPoint p{name, solver->power_balance()};
+    if (solver->transports_photons())
+      {
+        p.photons                       = solver->photon_balance();
+        p.optical_generation_mA_per_cm2 = solver->generation_current();
+      }
+    loss_points.push_back(p);
   }
 
   // Suns-V_oc: open circuit at decreasing light, each level started from
@@ -962,6 +970,51 @@ namespace backcomb::simulator
                      f.message.c_str());
   }
 
+  // The absorber's photon recycling: the model and B (with the van
+  // Roosbroeck-Shockley value when it was computed); with transport the
+  // recycled fraction at the maximum power point, the external radiative
+  // efficiency at open circuit and the detailed-balance limit of a step
+  // absorber at the band gap (W. Shockley, H. J. Queisser, J. Appl. Phys.
+  // 32 (1961) 510) for comparison.
+  json
+  CaseRun::photon_recycling_json() const
+  {
+    const fem::Material &a = c.absorber;
+    json j = {{"model", a.recycling_transport ? "transport" : "local"}, {"B_cm3_per_s", a.B_rad},
+              {"B_source", a.B_from_absorption ? "absorption spectrum (van Roosbroeck-Shockley)" : "entry"}};
+    if (!a.recycling_transport)
+      {
+        j["probability"] = a.photon_recycling;
+        return j;
+      }
+    if (!a.B_from_absorption)
+      j["B_van_roosbroeck_shockley_cm3_per_s"] = fem::radiative_coefficient(absorber_emission(c), a);
+    for (const auto &p : loss_points)
+      if (p.photons && (p.name == "max_power" || p.name == "open_circuit"))
+        {
+          const json ph = photons_json(p);
+          if (p.name == "max_power")
+            j["recycled_fraction_at_max_power"] = ph["recycled_fraction"];
+          else
+            {
+              j["recycled_fraction_at_open_circuit"]             = ph["recycled_fraction"];
+              j["external_radiative_efficiency_at_open_circuit"] = ph["external_radiative_efficiency"];
+            }
+        }
+    if (lit)
+      {
+        const fem::DetailedBalanceLimit sq =
+          fem::detailed_balance_limit(fem::read_spectrum(c.illumination.spectrum_file), a.band_gap, c.device.temperature);
+        const double S = c.illumination.intensity_suns;
+        j["detailed_balance_step_absorber"] = {
+          {"band_gap_eV", a.band_gap},
+          {"Jsc_mA_per_cm2", S * sq.Jsc_mA_per_cm2},
+          {"Voc_V", fem::thermal_voltage(c.device.temperature) * std::log1p(S * sq.Jsc_mA_per_cm2 / sq.J0_mA_per_cm2)}};
+      }
+    j["outer_iterations"] = solver ? json(solver->recycling_iterations()) : json(nullptr);
+    return j;
+  }
+
   json
   CaseRun::summary_of_results() const
   {
@@ -1002,6 +1055,7 @@ namespace backcomb::simulator
     s["suns_voc"] = json::array();
     for (const auto &[level, v] : suns_voc)
       s["suns_voc"].push_back({{"light_factor", level}, {"Voc_V", v}});
+    s["photon_recycling"]  = photon_recycling_json();
     s["cell"]              = cell_json;
     s["series_resistance"] = rs_json;
     if (cell_mpp && s["losses"].is_object())
@@ -1056,6 +1110,8 @@ namespace backcomb::simulator
                                          cell_mpp->electron_contact_loss};
         const auto optics = generation->optical_budget();
         write_file_atomically(o.folder + "/losses.csv", losses_csv(loss_points, optics, width, electrode_loss));
+        if (const std::string photons = photons_csv(loss_points); !photons.empty())
+          write_file_atomically(o.folder + "/photons.csv", photons);
         const auto mpp = std::find_if(loss_points.begin(), loss_points.end(),
                                       [](const LossPoint &p) { return p.name == "max_power"; });
         if (mpp != loss_points.end())

@@ -1,4 +1,5 @@
 #include "simulator/case_setup.h"
+#include "simulator/recycling_setup.h"
 
 #include "base/errors.h"
 #include "geometry/ids.h"
@@ -83,9 +84,11 @@ namespace backcomb::simulator
   std::unique_ptr<fem::DeviceModel>
   make_device(const Case &c, const fem::Generation &g)
   {
-    return std::make_unique<fem::DeviceModel>(
+    auto device = std::make_unique<fem::DeviceModel>(
       c.device.temperature, materials_of(c), std::vector<unsigned>{ids::absorber, ids::absorber_right},
       c.electron_contact, c.hole_contact, c.top_surface, c.gap_interface,
       [&g](double x, double y) { return g.rate(x, y); });
+    device->recycling = recycling_factory(c);
+    return device;
   }
 } // namespace backcomb::simulator

@@ -147,8 +147,8 @@ TEST(RecyclingCoupling, ConvergedStateIsSelfConsistentAndBalanced)
   DriftDiffusionSolver b(tria, transport, tight());
   ASSERT_TRUE(illuminate(b, 1.0, 8).converged);
   ASSERT_TRUE(move_to(b, 0.05, 1.0, 8).converged);
-  const auto  e = b.column_emission(b.state());
-  const auto &g = b.recycled_generation();
+  const auto e = b.column_emission(b.state());
+  const auto g = b.recycled_generation();
   double      worst = 0, largest = 0;
   for (std::size_t i = 0; i < e.size(); ++i)
     worst = std::max(worst, std::abs(0.9 * e[i] - g[i])), largest = std::max(largest, std::abs(g[i]));
