@@ -299,7 +299,7 @@ namespace backcomb::fem
   // beyond r. First the tail of the in-plane distance rho,
   // P(rho > s) = sum_rays w G(s / (t tan theta)), then its projection on x:
   // for an isotropic azimuth, P(|x| > r) = (2/pi) int_0^{pi/2}
-  // P(rho > r / cos psi) dpsi. V(r) = int_r^inf T by the trapezoid rule in
+  // P(rho > r / cos psi) dpsi. U(r) = -int_0^r T by the trapezoid rule in
   // ln r (the integrand T r is smooth there).
   void
   PhotonTransport::tabulate_lateral_tail(const std::vector<Ray>          &rays,
@@ -354,19 +354,17 @@ namespace backcomb::fem
       }
     half_tail_.back() = 0;
 
+    // Tabulated as U(r) = V(r) - V(0) = -int_0^r T, outward from 0: the
+    // constant V(0), the mean lateral distance, drops out of every
+    // bin-to-bin fraction, and it can exceed the bins by many orders of
+    // magnitude (with an Urbach tail narrower than kT the photons of the
+    // weakest absorption carry a share that falls more slowly than their
+    // reach grows), which would cost every digit of the differences.
     tail_integral_.assign(nodes, 0);
-    for (int k = nodes - 2; k >= 1; --k)
-      tail_integral_[k] = tail_integral_[k + 1] + 0.5 * (half_tail_[k] * r_[k] + half_tail_[k + 1] * r_[k + 1]) *
-                                                    std::log(r_[k + 1] / r_[k]);
-    tail_integral_[0] = tail_integral_[1] + 0.5 * (half_tail_[0] + half_tail_[1]) * r_[1];
-
-    // And once more, for the far images: V2(r) = int_r^inf V.
-    second_tail_integral_.assign(nodes, 0);
-    for (int k = nodes - 2; k >= 1; --k)
-      second_tail_integral_[k] =
-        second_tail_integral_[k + 1] +
-        0.5 * (tail_integral_[k] * r_[k] + tail_integral_[k + 1] * r_[k + 1]) * std::log(r_[k + 1] / r_[k]);
-    second_tail_integral_[0] = second_tail_integral_[1] + 0.5 * (tail_integral_[0] + tail_integral_[1]) * r_[1];
+    tail_integral_[1] = -0.5 * (half_tail_[0] + half_tail_[1]) * r_[1];
+    for (int k = 2; k < nodes; ++k)
+      tail_integral_[k] = tail_integral_[k - 1] - 0.5 * (half_tail_[k - 1] * r_[k - 1] + half_tail_[k] * r_[k]) *
+                                                    std::log(r_[k] / r_[k - 1]);
   }
 
   int
@@ -378,22 +376,11 @@ namespace backcomb::fem
   }
 
   double
-  PhotonTransport::second_tail_integral(double r) const
-  {
-    r = std::abs(r);
-    if (r >= r_max_)
-      return 0;
-    const int k = segment(r);
-    return hermite(r_[k], r_[k + 1], second_tail_integral_[k], second_tail_integral_[k + 1],
-                   -tail_integral_[k], -tail_integral_[k + 1], r);
-  }
-
-  double
   PhotonTransport::tail_integral(double r) const
   {
     r = std::abs(r);
     if (r >= r_max_)
-      return 0;
+      return tail_integral_.back();
     const int k = segment(r);
     return hermite(r_[k], r_[k + 1], tail_integral_[k], tail_integral_[k + 1], -half_tail_[k],
                    -half_tail_[k + 1], r);
@@ -410,8 +397,8 @@ namespace backcomb::fem
     return 2 * (half_tail_[k] + (half_tail_[k + 1] - half_tail_[k]) * f);
   }
 
-  // The images other than the source itself, sum_{m >= 1} V(2mP - y) +
-  // V(2mP + y) for y in [0, P]: smooth on the scale of the period, so a
+  // The images other than the source itself, sum_{m >= 1} U(2mP - y) +
+  // U(2mP + y) for y in [0, P]: smooth on the scale of the period, so a
   // uniform grid with cubic Hermite interpolation (slopes from T) is enough.
   // The first pairs are summed; the rest, once they lie more than 128
   // periods away, by the midpoint rule over cells [2mP - P, 2mP + P]:
@@ -428,15 +415,23 @@ namespace backcomb::fem
     for (int i = 0; i <= n; ++i)
       {
         const double y = i * h;
-        for (int m = 1; m <= summed_image_pairs && 2 * m * P - y < r_max_; ++m)
+        // (Every y sums the same pairs: U tends to a constant, not to 0.)
+        for (int m = 1; m <= summed_image_pairs; ++m)
           {
             const double left = 2 * m * P - y, right = 2 * m * P + y;
             images_[i] += tail_integral(left) + tail_integral(right);
             images_slope_[i] += half_tail_at(left) - half_tail_at(right);
           }
+        // The rest, (V2(R - y) + V2(R + y)) / 2P with R = (2M + 1) P and
+        // V2(r) = int_r^inf V, less
+        // its value at y = 0: a constant drops out of every bin-to-bin
+        // fraction (they are differences of W), and keeping it costs all
+        // digits when photons of a sub-gap tail travel much further than
+        // the period (V2(R) ~ reach^2 against bins of nanometres). What
+        // remains is y^2 T(R) / 2P to O((y/R)^2) (V2'' = -V' = T).
         const double rest = (2 * summed_image_pairs + 1) * P;
-        images_[i] += (second_tail_integral(rest - y) + second_tail_integral(rest + y)) / (2 * P);
-        images_slope_[i] += (tail_integral(rest - y) - tail_integral(rest + y)) / (2 * P);
+        images_[i] += y * y * half_tail_at(rest) / (2 * P);
+        images_slope_[i] += y * half_tail_at(rest) / P;
       }
   }
 
@@ -455,7 +450,7 @@ namespace backcomb::fem
   // For a lateral kernel k(x - x') whose tail beyond r is T(r) on each side,
   // the fraction of a source spread uniformly over [a, b] that lands in
   // [c, d] is (1/(b-a)) [Q(d-a) - Q(d-b) - Q(c-a) + Q(c-b)] with
-  // Q(s) = A|s|/2 + V(|s|) (Q'' = k). The linear part survives only on the
+  // Q(s) = A|s|/2 + V(|s|) (Q'' = k; V or U, constants drop out). The linear part survives only on the
   // diagonal (A), and summing V over the images (the source mirrored at 0
   // and shifted by 2mP) gives the even, 2P-periodic image_sum W. The
   // target bins of a column then telescope: every column sums to A.
@@ -535,7 +530,7 @@ namespace backcomb::fem
   PhotonTransport::memory_bytes() const
   {
     return sizeof(double) * (matrix_.size() + edges_.size() + widths_.size() + r_.size() +
-                             half_tail_.size() + tail_integral_.size() + second_tail_integral_.size() +
+                             half_tail_.size() + tail_integral_.size() +
                              images_.size() +
                              images_slope_.size());
   }

@@ -173,13 +173,11 @@ namespace backcomb::fem
     void
     assemble_operator();
 
-    // V(r) = int_r^inf T, with T(r) half the probability of absorption
-    // beyond lateral distance r (cubic Hermite on a logarithmic grid).
+    // U(r) = V(r) - V(0) = -int_0^r T, with V(r) = int_r^inf T and T(r)
+    // half the probability of absorption beyond lateral distance r (cubic
+    // Hermite on a logarithmic grid); constant beyond the grid.
     double
     tail_integral(double r_um) const;
-    // V2(r) = int_r^inf V, for the far images.
-    double
-    second_tail_integral(double r_um) const;
     // The interval [r_k, r_k+1] of the grid that holds r.
     int
     segment(double r_um) const;
@@ -194,7 +192,7 @@ namespace backcomb::fem
     // Logarithmic grid r_k = r_min 10^((k-1)/per_decade), k >= 1, r_0 = 0.
     double              r_min_ = 0, r_max_ = 0;
     static constexpr int per_decade_ = 60;
-    std::vector<double> r_, half_tail_, tail_integral_, second_tail_integral_; // r, T, V, V2
+    std::vector<double> r_, half_tail_, tail_integral_; // r, T, U
 
     // sum_{m != 0} V(|y - 2 m P|) on a uniform grid of [0, P], with its
     // derivative, for cubic Hermite interpolation.

@@ -116,6 +116,47 @@ namespace backcomb::fem
     }
   } // namespace
 
+  namespace
+  {
+    std::vector<double>
+    from_zero(std::vector<double> edges)
+    {
+      const double x0 = edges.front();
+      for (double &x : edges)
+        x -= x0;
+      return edges;
+    }
+  } // namespace
+
+  FilmRecycling::FilmRecycling(const FilmOptics &film, const EmissionSpectrum &emission,
+                               std::vector<double> column_edges_um)
+    : thickness_cm(film.thickness_um * 1e-4)
+    , transport(film, emission, from_zero(std::move(column_edges_um)))
+  {}
+
+  std::vector<double>
+  FilmRecycling::reabsorbed(const std::vector<double> &emission, PhotonBalance *balance) const
+  {
+    std::vector<double> e(emission);
+    for (double &v : e)
+      v /= thickness_cm;
+    PhotonBalance       b;
+    std::vector<double> g = transport.apply(e, b);
+    for (double &v : g)
+      v *= thickness_cm;
+    if (balance)
+      *balance = b;
+    return g;
+  }
+
+  RecyclingFactory
+  film_recycling(const FilmOptics &film, const EmissionSpectrum &emission)
+  {
+    return [film, emission](const std::vector<double> &edges) {
+      return std::make_unique<FilmRecycling>(film, emission, edges);
+    };
+  }
+
   void
   DriftDiffusionSolver::setup_recycling()
   {

@@ -40,8 +40,28 @@ namespace backcomb::fem
     virtual double local_share() const { return 0; }
   };
 
+  // The thin-film operator of fem/photon_transport.h on the solver's
+  // columns: it takes thickness averages on bins that start at 0, the
+  // solver gives thickness integrals on its mesh's columns.
+  class FilmRecycling : public RecyclingOperator
+  {
+  public:
+    FilmRecycling(const FilmOptics &film, const EmissionSpectrum &emission, std::vector<double> column_edges_um);
+    std::vector<double> reabsorbed(const std::vector<double> &emission, PhotonBalance *balance) const override;
+    // The slab re-absorption probability.
+    double local_share() const override { return transport.slab_fates().absorbed; }
+    const PhotonTransport &film_transport() const { return transport; }
+
+  private:
+    double          thickness_cm;
+    PhotonTransport transport;
+  };
+
   // Builds the operator for the columns [edges[i], edges[i+1]] (um,
   // increasing, from one mirror side of the period to the other).
   using RecyclingFactory =
     std::function<std::unique_ptr<const RecyclingOperator>(const std::vector<double> &column_edges_um)>;
+
+  // The factory of FilmRecycling operators for one film and emission.
+  RecyclingFactory film_recycling(const FilmOptics &film, const EmissionSpectrum &emission);
 } // namespace backcomb::fem

@@ -3,59 +3,10 @@
 #include "base/errors.h"
 #include "base/format.h"
 
-#include <memory>
-
 namespace backcomb::simulator
 {
   namespace
   {
-    // The solver's columns carry emission and generation per unit
-    // footprint (cm^-2 s^-1); the transport operator takes thickness
-    // averages (cm^-3 s^-1) on bins that start at 0.
-    class FilmTransport : public fem::RecyclingOperator
-    {
-    public:
-      FilmTransport(const fem::FilmOptics &film, const fem::EmissionSpectrum &emission,
-                    std::vector<double> edges)
-        : thickness_cm(film.thickness_um * 1e-4)
-        , transport(film, emission, shifted(std::move(edges)))
-      {}
-
-      std::vector<double>
-      reabsorbed(const std::vector<double> &emission, fem::PhotonBalance *balance) const override
-      {
-        std::vector<double> e(emission);
-        for (double &v : e)
-          v /= thickness_cm;
-        fem::PhotonBalance  b;
-        std::vector<double> g = transport.apply(e, b);
-        for (double &v : g)
-          v *= thickness_cm;
-        if (balance)
-          *balance = b;
-        return g;
-      }
-
-      double
-      local_share() const override
-      {
-        return transport.slab_fates().absorbed;
-      }
-
-    private:
-      static std::vector<double>
-      shifted(std::vector<double> edges)
-      {
-        const double x0 = edges.front();
-        for (double &x : edges)
-          x -= x0;
-        return edges;
-      }
-
-      double               thickness_cm;
-      fem::PhotonTransport transport;
-    };
-
     const std::string radiative = "Absorber/Recombination/Radiative/";
   } // namespace
 
@@ -97,10 +48,6 @@ namespace backcomb::simulator
   {
     if (!c.absorber.recycling_transport)
       return {};
-    const fem::FilmOptics       film     = absorber_film(c);
-    const fem::EmissionSpectrum emission = absorber_emission(c);
-    return [film, emission](const std::vector<double> &edges) {
-      return std::make_unique<FilmTransport>(film, emission, edges);
-    };
+    return fem::film_recycling(absorber_film(c), absorber_emission(c));
   }
 } // namespace backcomb::simulator

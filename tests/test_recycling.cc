@@ -406,6 +406,33 @@ TEST(Recycling, UniformEmissionIsReabsorbedWithTheSlabProbabilityInEveryBin)
                 transport.slab_fates().absorbed, worst);
     EXPECT_LT(worst, 1e-6);
   }
+  {
+    // An Urbach tail narrower than kT: the weakest-absorbed photons carry
+    // a share that falls more slowly than their reach grows, so the mean
+    // lateral distance is enormous, yet bins of 2 nm next to 0.5 um ones
+    // (as the mesh has them at the fingers) must still get A each.
+    FilmOptics film;
+    film.thickness_um = t;
+    std::vector<double> half{0.002};
+    while (std::accumulate(half.begin(), half.end(), 0.0) < 20)
+      half.push_back(std::min(0.5, 1.2 * half.back()));
+    std::vector<double> edges{0};
+    for (const double w : half)
+      edges.push_back(edges.back() + w);
+    const double mid = edges.back();
+    for (auto w = half.rbegin(); w != half.rend(); ++w)
+      edges.push_back(edges.back() + *w);
+    const PhotonTransport transport(film, mapi_emission(1.6, 0.015), edges);
+    PhotonBalance         b;
+    const auto            g = transport.apply(std::vector<double>(edges.size() - 1, 1e20), b);
+    double                worst = 0;
+    for (const double gi : g)
+      worst = std::max(worst, std::abs(gi / 1e20 - transport.slab_fates().absorbed));
+    std::printf("uniform emission, MAPbI3 with a 15 meV Urbach tail, %zu bins of 2 nm to 0.5 um over %.1f um: "
+                "A = %.6f, worst bin off by %.2e\n",
+                edges.size() - 1, 2 * mid, transport.slab_fates().absorbed, worst);
+    EXPECT_LT(worst, 1e-9);
+  }
 }
 
 TEST(Recycling, StrongAbsorptionKeepsTheReabsorptionLocal)
