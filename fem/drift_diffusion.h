@@ -152,6 +152,7 @@ namespace backcomb::fem
     PhotonBalance photon_balance() const;
     // Outer iterations of the recycling so far (all solves).
     unsigned recycling_iterations() const { return n_recycling; }
+    std::size_t recycling_operator_bytes() const { return recycling ? recycling->memory_bytes() : 0; }
 
     TerminalCurrent terminal_current() const;
 

@@ -13,6 +13,7 @@
 
 #include "fem/photon_transport.h"
 
+#include <cstddef>
 #include <functional>
 #include <memory>
 #include <vector>
@@ -38,6 +39,8 @@ namespace backcomb::fem
     // not resolve anyway. The slab re-absorption probability is the natural
     // choice (the columns of K sum to it).
     virtual double local_share() const { return 0; }
+    // Bytes the operator holds (for the benchmark).
+    virtual std::size_t memory_bytes() const { return 0; }
   };
 
   // The thin-film operator of fem/photon_transport.h on the solver's
@@ -50,6 +53,7 @@ namespace backcomb::fem
     std::vector<double> reabsorbed(const std::vector<double> &emission, PhotonBalance *balance) const override;
     // The slab re-absorption probability.
     double local_share() const override { return transport.slab_fates().absorbed; }
+    std::size_t memory_bytes() const override { return transport.memory_bytes(); }
     const PhotonTransport &film_transport() const { return transport; }
 
   private:

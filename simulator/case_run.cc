@@ -999,6 +999,15 @@ namespace backcomb::simulator
             {
               j["recycled_fraction_at_open_circuit"]             = ph["recycled_fraction"];
               j["external_radiative_efficiency_at_open_circuit"] = ph["external_radiative_efficiency"];
+              // The film's radiative limit by the reciprocity between
+              // emission and collection, V_oc = V_oc,rad + kT/q ln(Q_e),
+              // Q_e the photons leaving (top and substrate) per pair the
+              // light makes (U. Rau, Phys. Rev. B 76 (2007) 085303; the
+              // relation from memory).
+              const double out = as_current_mA_per_cm2(p.photons->escaped_top + p.photons->lost_substrate);
+              if (out > 0 && p.optical_generation_mA_per_cm2 > 0)
+                j["radiative_limit_Voc_V"] = p.balance.bias_V - fem::thermal_voltage(c.device.temperature) *
+                                                                  std::log(out / p.optical_generation_mA_per_cm2);
             }
         }
     if (lit)
@@ -1012,6 +1021,7 @@ namespace backcomb::simulator
           {"Voc_V", fem::thermal_voltage(c.device.temperature) * std::log1p(S * sq.Jsc_mA_per_cm2 / sq.J0_mA_per_cm2)}};
       }
     j["outer_iterations"] = solver ? json(solver->recycling_iterations()) : json(nullptr);
+    j["operator_bytes"]   = solver ? json(solver->recycling_operator_bytes()) : json(nullptr);
     return j;
   }
 

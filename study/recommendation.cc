@@ -231,7 +231,7 @@ namespace backcomb::study
       else
         text << "No neighbouring " << first.path << " comes within " << format_number(100 * rec.margin, 3)
              << " % of the best PCE; a finer sweep around it shows how sharp the optimum is.";
-      if (rec.at_edge)
+      if (rec.at_edge && all_numeric(first.values)) // a list of names has no beyond
         text << " The best value lies at the edge of the swept range: extend the sweep beyond it.";
       if (rec.outside_limits > 0)
         text << " " << rec.outside_limits
