@@ -27,6 +27,7 @@
 #include <mpi.h>
 #include <petscksp.h>
 
+#include <functional>
 #include <map>
 #include <memory>
 #include <string>
@@ -254,6 +255,12 @@ namespace backcomb::fem
     // Sets the outer iteration's part of the re-absorbed generation per
     // column (cm^-2 s^-1).
     void set_recycled(const std::vector<double> &per_column);
+    // Per column, the integral of a scaled rate over the column's cells
+    // (owned here, summed over the processes) in cm^-2 s^-1 of footprint;
+    // `rates(cell index, region, rate)` fills the rate at the cell's
+    // quadrature points (left 0 where it does not apply).
+    std::vector<double>
+    columns_integral(const std::function<void(std::size_t, const ScaledRegion &, double *)> &rates) const;
     // K e(u) - A e(u) per column: what the outer iteration must match.
     std::vector<double> outer_part(const dealii::Vector<double> &u) const;
     // The residual alone, scaled by the rows of the last factorised

@@ -39,9 +39,7 @@ namespace backcomb::fem
 
     struct OuterIteration
     {
-      DriftDiffusionSolver *solver;
-      double                voltage, light, scale;
-      unsigned              budget;
+      double                scale = 1;
       NewtonReport          total;
       bool                  failed = false;
       unsigned              evaluations = 0;
@@ -231,41 +229,53 @@ namespace backcomb::fem
   }
 
   std::vector<double>
-  DriftDiffusionSolver::column_emission(const Vector<double> &u) const
+  DriftDiffusionSolver::columns_integral(
+    const std::function<void(std::size_t, const ScaledRegion &, double *)> &rates) const
   {
     const std::size_t   nc = columns.thickness_um.size();
     const unsigned      nq = cell_quadrature.size();
-    std::vector<double> e(nc, 0.0);
+    std::vector<double> sum(nc, 0.0), at_q(nq);
     for (const auto &cell : dofs.active_cell_iterators())
       {
         const int c = columns.of_cell[cell->active_cell_index()];
         if (c < 0 || !cell->is_locally_owned())
           continue;
-        const ScaledRegion         &r  = device.region(cell->material_id());
-        const RecombinationChannel *ch = radiative_channel(r);
-        if (!ch)
-          continue;
-        const std::size_t              ci  = cell->active_cell_index();
-        const types::global_dof_index *idx = &cell_cache.dofs[ci * 12];
-        double                         ul[3][4];
-        for (unsigned i = 0; i < 12; ++i)
-          ul[cell_cache.component[i]][cell_cache.vertex[i]] = u[idx[i]];
+        const std::size_t ci = cell->active_cell_index();
+        std::fill(at_q.begin(), at_q.end(), 0.0);
+        rates(ci, device.region(cell->material_id()), at_q.data());
         for (unsigned q = 0; q < nq; ++q)
-          {
-            double v[3] = {0, 0, 0};
-            for (unsigned k = 0; k < 3; ++k)
-              for (unsigned a = 0; a < 4; ++a)
-                v[k] += ul[k][a] * cell_cache.phi[q][a];
-            const double n = std::exp(v[c_psi] - v[c_phin] + r.a_n);
-            const double p = std::exp(v[c_phip] - v[c_psi] + r.a_p);
-            e[c] += ch->rate(n, p).R * cell_cache.jxw[ci * nq + q];
-          }
+          sum[c] += at_q[q] * cell_cache.jxw[ci * nq + q];
       }
-    Utilities::MPI::sum(e, comm, e);
+    Utilities::MPI::sum(sum, comm, sum);
     // Scaled rate times um^2 per um of column width -> cm^-2 s^-1.
     for (std::size_t i = 0; i < nc; ++i)
-      e[i] *= device.scaling.R0 * 1e-4 / (columns.edges[i + 1] - columns.edges[i]);
-    return e;
+      sum[i] *= device.scaling.R0 * 1e-4 / (columns.edges[i + 1] - columns.edges[i]);
+    return sum;
+  }
+
+  std::vector<double>
+  DriftDiffusionSolver::column_emission(const Vector<double> &u) const
+  {
+    const unsigned nq = cell_quadrature.size();
+    return columns_integral([&](const std::size_t ci, const ScaledRegion &r, double *rate) {
+      const RecombinationChannel *ch = radiative_channel(r);
+      if (!ch)
+        return;
+      const types::global_dof_index *idx = &cell_cache.dofs[ci * 12];
+      double                         ul[3][4];
+      for (unsigned i = 0; i < 12; ++i)
+        ul[cell_cache.component[i]][cell_cache.vertex[i]] = u[idx[i]];
+      for (unsigned q = 0; q < nq; ++q)
+        {
+          double v[3] = {0, 0, 0};
+          for (unsigned k = 0; k < 3; ++k)
+            for (unsigned a = 0; a < 4; ++a)
+              v[k] += ul[k][a] * cell_cache.phi[q][a];
+          const double n = std::exp(v[c_psi] - v[c_phin] + r.a_n);
+          const double p = std::exp(v[c_phip] - v[c_psi] + r.a_p);
+          rate[q]        = ch->rate(n, p).R;
+        }
+    });
   }
 
   void
@@ -302,10 +312,6 @@ namespace backcomb::fem
     const std::size_t         nc               = columns.recycled.size();
 
     OuterIteration it;
-    it.solver     = this;
-    it.voltage    = voltage;
-    it.light      = light;
-    it.budget     = iteration_budget;
     it.solve_with = [&](const std::vector<double> &g) {
       set_recycled(g);
       return solve_fixed_generation(voltage, light, iteration_budget);
@@ -314,23 +320,11 @@ namespace backcomb::fem
     // The scale of the generation: the optical generation per column at
     // this light or the recycled one now, whichever is larger.
     double optical = 0;
-    {
-      const unsigned nq = cell_quadrature.size();
-      std::vector<double> per_column(nc, 0.0);
-      for (const auto &cell : dofs.active_cell_iterators())
-        {
-          const int c = columns.of_cell[cell->active_cell_index()];
-          if (c < 0 || !cell->is_locally_owned())
-            continue;
-          for (unsigned q = 0; q < nq; ++q)
-            per_column[c] += light * generation_qp[cell->active_cell_index() * nq + q] *
-                             cell_cache.jxw[cell->active_cell_index() * nq + q];
-        }
-      Utilities::MPI::sum(per_column, comm, per_column);
-      for (std::size_t i = 0; i < nc; ++i)
-        optical = std::max(optical, std::abs(per_column[i]) * device.scaling.R0 * 1e-4 /
-                                      (columns.edges[i + 1] - columns.edges[i]));
-    }
+    for (const double g : columns_integral([&](const std::size_t ci, const ScaledRegion &, double *rate) {
+           for (unsigned q = 0; q < cell_quadrature.size(); ++q)
+             rate[q] = light * generation_qp[ci * cell_quadrature.size() + q];
+         }))
+      optical = std::max(optical, std::abs(g));
     double recycled_now = 0;
     for (const double g : columns.recycled)
       recycled_now = std::max(recycled_now, std::abs(g));

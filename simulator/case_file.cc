@@ -897,10 +897,7 @@ namespace backcomb::simulator
 
         // Contradictions between sections.
         check_consistency(c, prm);
-        apply_coefficient_from_absorption(c);
-        // The emission spectrum's data, checked before anything is written.
-        if (c.absorber.recycling_transport)
-          absorber_emission(c);
+        prepare_absorber_emission(c);
       }
     catch (const InputError &e)
       {

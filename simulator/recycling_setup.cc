@@ -37,10 +37,13 @@ namespace backcomb::simulator
   }
 
   void
-  apply_coefficient_from_absorption(Case &c)
+  prepare_absorber_emission(Case &c)
   {
+    if (!c.absorber.recycling_transport && !c.absorber.B_from_absorption)
+      return;
+    const fem::EmissionSpectrum emission = absorber_emission(c);
     if (c.absorber.B_from_absorption)
-      c.absorber.B_rad = fem::radiative_coefficient(absorber_emission(c), c.absorber);
+      c.absorber.B_rad = fem::radiative_coefficient(emission, c.absorber);
   }
 
   fem::RecyclingFactory

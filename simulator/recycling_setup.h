@@ -21,10 +21,13 @@ namespace backcomb::simulator
   fem::FilmOptics
   absorber_film(const Case &c);
 
-  // Replaces the absorber's B by the van Roosbroeck-Shockley value when
-  // Coefficient from absorption is true (read_case calls it).
+  // When Photon recycling = transport or Coefficient from absorption =
+  // true need the emission spectrum: computes it once (so that bad data are
+  // refused while the case is read, before anything is written) and, with
+  // Coefficient from absorption, replaces the absorber's B by the van
+  // Roosbroeck-Shockley value (read_case calls it).
   void
-  apply_coefficient_from_absorption(Case &c);
+  prepare_absorber_emission(Case &c);
 
   // The operator factory when the absorber's Photon recycling is
   // transport; empty (the local model) otherwise.

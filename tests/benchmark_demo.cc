@@ -8,45 +8,23 @@
 // the run); a bias that costs one factorisation, one assembly and a few
 // residuals is near it. The demo sweep's time is printed by `.ci/demo`.
 // Run: build/tests/benchmark_demo [path/to/cases/short-film.prm]
-#include "simulator/case_file.h"
-#include "simulator/case_run.h"
+#include "tests/benchmark_run.h"
 
 #include <deal.II/base/mpi.h>
 
 #include <nlohmann/json.hpp>
 
-#include <chrono>
 #include <cstdio>
-#include <filesystem>
-#include <fstream>
 #include <sys/resource.h>
 
 namespace
 {
-  struct Run
-  {
-    int            code = 0;
-    double         wall = 0;
-    nlohmann::json s;
-  };
+  using backcomb::benchmark::Run;
 
   Run
   run(const std::string &demo, const std::vector<std::string> &overrides)
   {
-    const auto out = std::filesystem::temp_directory_path() / "backcomb-benchmark";
-    std::filesystem::remove_all(out);
-    const backcomb::simulator::Case c = backcomb::simulator::read_case(demo, overrides);
-    backcomb::simulator::RunOptions o;
-    o.folder = out.string();
-    o.quiet  = true;
-    Run        r;
-    const auto t0 = std::chrono::steady_clock::now();
-    r.code        = backcomb::simulator::run_solve(c, o);
-    r.wall        = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-    std::ifstream in(out / "summary.json");
-    r.s = nlohmann::json::parse(in);
-    std::filesystem::remove_all(out);
-    return r;
+    return backcomb::benchmark::run(demo, overrides, "backcomb-benchmark");
   }
 
   double
