@@ -169,6 +169,9 @@ namespace backcomb::fem
         r.doping   = (m.donors - m.acceptors) / s.N0;
         r.ni2      = u.ni2;
         r.half_gap = u.half_gap;
+        r.ion_density = m.ion_density / s.N0;
+        r.ion_z       = m.ion_charge;
+        r.ion_mu      = m.ion_diffusion / (s.Vt * s.mu0);
         // Every registered bulk channel that the material switches on, set
         // up in scaled units, in registry order.
         for (const std::string &name : bulk_recombination_channels().names())
@@ -245,6 +248,15 @@ namespace backcomb::fem
     if (boundary_id == geometry::ids::gap_interface)
       return &gap_interface;
     return nullptr;
+  }
+
+  bool
+  DeviceModel::has_ions() const
+  {
+    for (const auto &[id, r] : regions)
+      if (r.ion_density > 0)
+        return true;
+    return false;
   }
 
   const ScaledRegion &

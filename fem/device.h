@@ -104,6 +104,11 @@ namespace backcomb::fem
     double ni2;
     double half_gap;          // Eg/2 in kT
     double ln_nc, ln_nv;      // ln(Nc/N0), ln(Nv/N0)
+    // Mobile ions (0: none here): mean density /N0, charge number z and
+    // mobility D/(Vt mu0). The ion density is c = ion_density
+    // exp(z (phi_c - psi)) with phi_c the ions' electrochemical potential,
+    // the fourth unknown of the solver when any region has ions.
+    double ion_density = 0, ion_z = 1, ion_mu = 0;
     // The bulk channels switched on in this region, in registry order.
     std::vector<std::shared_ptr<const RecombinationChannel>> channels;
   };
@@ -157,6 +162,8 @@ namespace backcomb::fem
     std::map<unsigned, Material>       materials;      // physical units
 
     const ScaledRegion &region(unsigned material_id) const;
+    // Whether any region holds mobile ions.
+    bool has_ions() const;
     // The contact or recombining surface at boundary id `boundary_id`,
     // nullptr for other boundaries (mirror sides).
     const ScaledContact *contact_at(unsigned boundary_id) const;

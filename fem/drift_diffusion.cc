@@ -28,7 +28,7 @@ namespace backcomb::fem
   namespace
   {
     // Component numbers of the unknowns.
-    constexpr unsigned c_psi = 0, c_phin = 1, c_phip = 2;
+    constexpr unsigned c_psi = 0, c_phin = 1, c_phip = 2, c_ion = 3;
 
     // PETSc error codes become exceptions (caught as failed solves).
     void
@@ -62,7 +62,8 @@ namespace backcomb::fem
     , device(device_)
     , numerics(numerics_)
     , comm(MPI_COMM_SELF)
-    , fe(FE_Q<2>(1), 3)
+    , n_components(device_.has_ions() ? 4 : 3)
+    , fe(FE_Q<2>(1), n_components)
     , dofs(tria_)
     , cell_quadrature(numerics_.quadrature)
     , face_quadrature(numerics_.quadrature)
@@ -198,11 +199,48 @@ namespace backcomb::fem
           for (const auto i : hole_contact_dofs[c])
             zero_constraints.add_line(i);
       }
+    // Mobile ions: the ion DoFs of cells without ions take no part (their
+    // update is 0); in the steady state the others are tied to the first.
+    std::vector<types::global_dof_index> ion_dofs;
+    if (n_components == 4)
+      {
+        std::vector<bool> in_ion_cell(dofs.n_dofs(), false), ion_component(dofs.n_dofs(), false);
+        std::vector<types::global_dof_index> idx(fe.n_dofs_per_cell());
+        for (const auto &cell : dofs.active_cell_iterators())
+          {
+            cell->get_dof_indices(idx);
+            const bool ions = device.region(cell->material_id()).ion_density > 0;
+            for (unsigned i = 0; i < idx.size(); ++i)
+              if (fe.system_to_component_index(i).first == c_ion)
+                {
+                  ion_component[idx[i]] = true;
+                  in_ion_cell[idx[i]]   = in_ion_cell[idx[i]] || ions;
+                }
+          }
+        for (types::global_dof_index i = 0; i < dofs.n_dofs(); ++i)
+          if (ion_component[i] && in_ion_cell[i])
+            ion_dofs.push_back(i);
+          else if (ion_component[i])
+            zero_constraints.add_line(i);
+      }
+    ion_region_dofs = ion_dofs.size();
     zero_constraints.close();
+    steady_constraints.clear();
+    steady_constraints.merge(zero_constraints);
+    for (std::size_t k = 1; k < ion_dofs.size(); ++k)
+      {
+        steady_constraints.add_line(ion_dofs[k]);
+        steady_constraints.add_entry(ion_dofs[k], ion_dofs[0], 1.0);
+      }
+    steady_constraints.close();
 
-    DynamicSparsityPattern dsp(relevant);
-    DoFTools::make_sparsity_pattern(dofs, dsp, zero_constraints, false);
-    SparsityTools::distribute_sparsity_pattern(dsp, owned, comm, relevant);
+    // With ions, the tie couples the first ion DoF to every unknown of the
+    // ion region: all rows are kept on every process before distribution.
+    // The pattern holds both modes' entries (steady and transient).
+    const IndexSet         stored = has_ions() ? complete_index_set(dofs.n_dofs()) : relevant;
+    DynamicSparsityPattern dsp(stored);
+    DoFTools::make_sparsity_pattern(dofs, dsp, steady_constraints, has_ions());
+    SparsityTools::distribute_sparsity_pattern(dsp, owned, comm, stored);
     jacobian.reinit(owned, owned, dsp, comm);
     rhs.reinit(owned, comm);
     row_scale.reinit(owned, comm);
@@ -215,7 +253,7 @@ namespace backcomb::fem
       {
         cell->get_dof_indices(idx);
         for (unsigned v = 0; v < 4; ++v)
-          for (unsigned c = 0; c < 3; ++c)
+          for (unsigned c = 0; c < n_components; ++c)
             support_points[idx[fe.component_to_system_index(c, v)]] = cell->vertex(v);
       }
   }
@@ -283,17 +321,18 @@ namespace backcomb::fem
         cell_cache.component[i] = fe.system_to_component_index(i).first;
         cell_cache.vertex[i]    = fe.system_to_component_index(i).second;
       }
-    const std::size_t n = tria.n_active_cells();
+    const std::size_t n   = tria.n_active_cells();
+    const unsigned    dpc = fe.n_dofs_per_cell();
     cell_cache.grad.assign(n * nq * 8, 0.0);
     cell_cache.jxw.assign(n * nq, 0.0);
-    cell_cache.dofs.assign(n * 12, 0);
+    cell_cache.dofs.assign(n * dpc, 0);
     FEValues<2>                          fv(base, cell_quadrature, update_gradients | update_JxW_values);
     std::vector<types::global_dof_index> idx(fe.n_dofs_per_cell());
     for (const auto &cell : dofs.active_cell_iterators())
       {
         const std::size_t c = cell->active_cell_index();
         cell->get_dof_indices(idx);
-        std::copy(idx.begin(), idx.end(), cell_cache.dofs.begin() + c * 12);
+        std::copy(idx.begin(), idx.end(), cell_cache.dofs.begin() + c * dpc);
         if (!cell->is_locally_owned())
           continue;
         fv.reinit(typename Triangulation<2>::active_cell_iterator(cell));
@@ -319,7 +358,8 @@ namespace backcomb::fem
     const QGauss<1> &face_quad = face_quadrature;
     FEFaceValues<2> &ffv       = *fe_face_values;
 
-    constexpr unsigned dpc = 12; // Q1 for psi, phi_n, phi_p
+    const unsigned     nc  = n_components; // psi, phi_n, phi_p (, phi_c)
+    const unsigned     dpc = 4 * nc;       // Q1
     const unsigned     nq  = cell_quadrature.size();
     const std::size_t  ci  = cell->active_cell_index();
     const types::global_dof_index *idx = &cell_cache.dofs[ci * dpc];
@@ -328,19 +368,20 @@ namespace backcomb::fem
     const ScaledRegion &r = device.region(cell->material_id());
     // Nodal values per component and vertex; residual and Jacobian in the
     // same (component, vertex) layout, copied to the system order at the end.
-    double ul[3][4];
+    double ul[4][4];
     for (unsigned i = 0; i < dpc; ++i)
       ul[comp[i]][cell_cache.vertex[i]] = u[idx[i]];
-    double f[3][4] = {};
-    double a[3][4][3][4];
+    double f[4][4] = {};
+    double a[4][4][4][4];
     if (Aptr)
-      std::fill(&a[0][0][0][0], &a[0][0][0][0] + 144, 0.0);
+      std::fill(&a[0][0][0][0], &a[0][0][0][0] + 256, 0.0);
+    const bool ions = r.ion_density > 0;
     for (unsigned q = 0; q < nq; ++q)
       {
         const double *phi = cell_cache.phi[q];
         const double *gq  = &cell_cache.grad[(ci * nq + q) * 8];
-        double        v[3] = {0, 0, 0}, g[3][2] = {{0, 0}, {0, 0}, {0, 0}};
-        for (unsigned c = 0; c < 3; ++c)
+        double        v[4] = {0, 0, 0, 0}, g[4][2] = {{0, 0}, {0, 0}, {0, 0}, {0, 0}};
+        for (unsigned c = 0; c < nc; ++c)
           for (unsigned k = 0; k < 4; ++k)
             {
               v[c] += ul[c][k] * phi[k];
@@ -365,7 +406,15 @@ namespace backcomb::fem
         // Derivatives of R with respect to (psi, phi_n, phi_p).
         const double dR[3]   = {k.dR_dn * n - k.dR_dp * p, -k.dR_dn * n, k.dR_dp * p};
         const double jn_coef = r.mu_n * n, jp_coef = r.mu_p * p;
-        const double charge  = p - n + r.doping + fixed;
+        // Mobile ions: density c, its charge z (c - N_ion) against the fixed
+        // background, and their row: the ion number in the steady state;
+        // in a transient dc/dt + div F = 0 with F = -mu_c z c grad phi_c,
+        // discretised as beta c - hist + dt div F = 0 (ion_beta, ion_step).
+        const double z       = r.ion_z;
+        const double cion   = ions ? r.ion_density * std::exp(z * (v[c_ion] - v[c_psi])) : 0.0;
+        const double hist    = ions && transient ? ion_history_qp[ci * nq + q] : 0.0;
+        const double jc_coef = r.ion_mu * z * cion;
+        const double charge  = p - n + r.doping + fixed + (ions ? z * (cion - r.ion_density) : 0.0);
         for (unsigned i = 0; i < 4; ++i)
           {
             const double vi = phi[i] * dx, gi0 = gq[2 * i] * dx, gi1 = gq[2 * i + 1] * dx;
@@ -375,6 +424,10 @@ namespace backcomb::fem
             f[c_psi][i] += r.eps * gpsi - charge * vi;
             f[c_phin][i] += jn_coef * gn - (k.R - G) * vi;
             f[c_phip][i] += jp_coef * gp + (k.R - G) * vi;
+            const double gc = ions ? g[c_ion][0] * gi0 + g[c_ion][1] * gi1 : 0.0;
+            if (ions)
+              f[c_ion][i] += transient ? (ion_beta * cion - hist) * vi + ion_step * jc_coef * gc
+                                       : (cion - r.ion_density) * vi;
             if (!Aptr)
               continue;
             for (unsigned j = 0; j < 4; ++j)
@@ -391,6 +444,23 @@ namespace backcomb::fem
                 a[c_phip][i][c_psi][j] += -jp_coef * wj * gp + dR[0] * M;
                 a[c_phip][i][c_phin][j] += dR[1] * M;
                 a[c_phip][i][c_phip][j] += jp_coef * wj * gp + jp_coef * K + dR[2] * M;
+                if (!ions)
+                  continue;
+                // dc/dpsi = -z c, dc/dphi_c = z c.
+                const double zzc = z * z * cion;
+                a[c_psi][i][c_psi][j] += zzc * M;
+                a[c_psi][i][c_ion][j] -= zzc * M;
+                if (transient)
+                  {
+                    a[c_ion][i][c_psi][j] += -ion_beta * z * cion * M - ion_step * r.ion_mu * zzc * wj * gc;
+                    a[c_ion][i][c_ion][j] +=
+                      ion_beta * z * cion * M + ion_step * (r.ion_mu * zzc * wj * gc + jc_coef * K);
+                  }
+                else
+                  {
+                    a[c_ion][i][c_psi][j] -= z * cion * M;
+                    a[c_ion][i][c_ion][j] += z * cion * M;
+                  }
               }
           }
       }
@@ -431,7 +501,7 @@ namespace backcomb::fem
           }
         for (unsigned q = 0; q < face_quad.size(); ++q)
           {
-            double v[3] = {0, 0, 0};
+            double v[4] = {0, 0, 0, 0};
             for (unsigned i = 0; i < dpc; ++i)
               v[comp[i]] += u[idx[i]] * ffv.shape_value(i, q);
             const double n  = std::exp(v[c_psi] - v[c_phin] + r.a_n);
@@ -441,7 +511,7 @@ namespace backcomb::fem
             // their derivatives with respect to (psi, phi_n, phi_p), from
             // those with respect to n and p (dn/dpsi = n, dn/dphi_n = -n,
             // dp/dpsi = -p, dp/dphi_p = p).
-            double fn = 0, fp = 0, dfn[3] = {0, 0, 0}, dfp[3] = {0, 0, 0};
+            double fn = 0, fp = 0, dfn[4] = {0, 0, 0, 0}, dfp[4] = {0, 0, 0, 0};
             if (contact)
               {
                 const ContactFlux k = contact->model->flux(n, p, n0, p0);
@@ -467,7 +537,7 @@ namespace backcomb::fem
             for (unsigned i = 0; i < dpc; ++i)
               {
                 const double vi = ffv.shape_value(i, q);
-                if (comp[i] == c_psi || vi == 0)
+                if (comp[i] == c_psi || comp[i] == c_ion || vi == 0)
                   continue;
                 const double  sign  = comp[i] == c_phin ? -1.0 : 1.0;
                 const double  flux  = comp[i] == c_phin ? fn : fp;
@@ -497,7 +567,7 @@ namespace backcomb::fem
           continue;
         assemble_cell(cell, u, light, &A, F, true);
         cell->get_dof_indices(idx);
-        zero_constraints.distribute_local_to_global(A, F, idx, jacobian, rhs);
+        constraints().distribute_local_to_global(A, F, idx, jacobian, rhs);
       }
     jacobian.compress(VectorOperation::add);
     rhs.compress(VectorOperation::add);
@@ -539,7 +609,7 @@ namespace backcomb::fem
           continue;
         assemble_cell(cell, u, light, nullptr, F, true);
         cell->get_dof_indices(idx);
-        zero_constraints.distribute_local_to_global(F, idx, rhs);
+        constraints().distribute_local_to_global(F, idx, rhs);
       }
     rhs.compress(VectorOperation::add);
     check(VecPointwiseMult(static_cast<const Vec &>(rhs), static_cast<const Vec &>(row_scale),
@@ -602,7 +672,7 @@ namespace backcomb::fem
         factors_valid = ok;
         // The update, complete on every process.
         Vector<double> delta(delta_p);
-        zero_constraints.distribute(delta);
+        constraints().distribute(delta);
 
         double   worst  = 0;
         unsigned where  = 0;
@@ -716,7 +786,7 @@ namespace backcomb::fem
     }
     // Prescribed values do not change with G.
     for (types::global_dof_index i = 0; i < b.size(); ++i)
-      if (zero_constraints.is_constrained(i))
+      if (constraints().is_constrained(i))
         b[i] = 0;
     Vector<double> lambda;
     solve_transposed(b, lambda);
@@ -732,8 +802,8 @@ namespace backcomb::fem
             const auto in = idx[fe.component_to_system_index(c_phin, v)];
             const auto ip = idx[fe.component_to_system_index(c_phip, v)];
             const auto i0 = idx[fe.component_to_system_index(c_psi, v)];
-            const double an = -w[in] - (zero_constraints.is_constrained(in) ? 0.0 : lambda[in]);
-            const double ap = w[ip] + (zero_constraints.is_constrained(ip) ? 0.0 : lambda[ip]);
+            const double an = -w[in] - (constraints().is_constrained(in) ? 0.0 : lambda[in]);
+            const double ap = w[ip] + (constraints().is_constrained(ip) ? 0.0 : lambda[ip]);
             fc[in] = an;
             fc[ip] = ap;
             fc[i0] = an + ap;
@@ -827,6 +897,18 @@ namespace backcomb::fem
             solution[idx[i]] = psi;
       }
     set_boundary_values(solution, 0.0);
+    // Mobile ions: uniform at their mean density in the neutral guess.
+    if (has_ions())
+      {
+        double area = 0;
+        for (const auto &cell : dofs.active_cell_iterators())
+          if (cell->is_locally_owned())
+            if (const ScaledRegion &r = device.region(cell->material_id()); r.ion_density > 0)
+              for (unsigned q = 0; q < cell_quadrature.size(); ++q)
+                area += r.ion_density * device.scaling.N0 *
+                        cell_cache.jxw[cell->active_cell_index() * cell_quadrature.size() + q];
+        uniform_ion_potential(solution, Utilities::MPI::sum(area, comm));
+      }
     Vector<double> u = solution;
     const NewtonReport rep = newton(u, 0.0, false, numerics.max_iterations);
     if (rep.converged)
@@ -842,6 +924,8 @@ namespace backcomb::fem
   NewtonReport
   DriftDiffusionSolver::solve(const double voltage, const double light, const unsigned iteration_budget)
   {
+    if (transient)
+      return solve_instantaneous(voltage, light);
     return recycling ? solve_with_recycling(voltage, light, iteration_budget)
                      : solve_fixed_generation(voltage, light, iteration_budget);
   }

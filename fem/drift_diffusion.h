@@ -155,6 +155,47 @@ namespace backcomb::fem
     unsigned recycling_iterations() const { return n_recycling; }
     std::size_t recycling_operator_bytes() const { return recycling ? recycling->memory_bytes() : 0; }
 
+    // Mobile ions (DeviceModel::has_ions()): a fourth unknown, the ions'
+    // electrochemical potential phi_c, with ion density
+    // c = N_ion exp(z (phi_c - psi)) and blocking boundaries everywhere.
+    // By default every solve puts the ions in their steady state in the
+    // self-consistent potential: zero ionic current (phi_c uniform over
+    // the region) and their number fixed (the mean density is N_ion). In
+    // a transient (begin_transient()) they follow time instead: each
+    // solve_time_step() is one implicit step of the ion continuity
+    // equation, with electrons and holes in their steady state at every
+    // instant (they relax in microseconds, the ions in seconds). A plain
+    // solve() in a transient is an instantaneous change of bias or light:
+    // the ions keep the distribution they had at the end of the last time
+    // step (or at begin_transient()), in the L2 sense of the Q1 functions.
+    bool has_ions() const { return ion_region_dofs > 0; }
+    // The current state becomes the start (t = 0) of a transient.
+    void begin_transient();
+    // One step of length dt (s) to bias `voltage` and light factor `light`:
+    // BDF1 for the first step of a transient, then the variable-step BDF2
+    // (second-order backward differentiation; E. Hairer, G. Wanner,
+    // Solving Ordinary Differential Equations II, 2nd ed. 1996, Sec. III.5).
+    // Leaves the state unchanged if Newton fails.
+    NewtonReport solve_time_step(double voltage, double light, double dt);
+    // Back to steady-state ions (the next solve relaxes them).
+    // (In a transient, solve() calls solve_instantaneous().)
+    void end_transient();
+    bool in_transient() const { return transient; }
+    // What a time step needs besides the state: the state before it and
+    // the length of the step that led to it (for restarting a rejected step).
+    struct TransientHistory
+    {
+      dealii::Vector<double> previous;
+      double                 previous_dt = 0; // s; 0: no step yet (BDF1 next)
+    };
+    const TransientHistory &transient_history() const { return history; }
+    void set_transient_history(const TransientHistory &h) { history = h; }
+    // Integral of the ion density over the ion region, cm^-3 um^2 (per unit
+    // length along the fingers), and its mean density in cm^-3, both with
+    // the quadrature of the assembly (in which the number is conserved).
+    double ion_number(const dealii::Vector<double> &u) const;
+    double mean_ion_density() const;
+
     TerminalCurrent terminal_current() const;
 
     // Integrals over the domain, per footprint width, in mA/cm^2 as q*rate:
@@ -250,6 +291,7 @@ namespace backcomb::fem
     void assemble_system(const dealii::Vector<double> &u, double light) const;
     // The drift-diffusion solve with the recycled generation held fixed.
     NewtonReport solve_fixed_generation(double voltage, double light, unsigned iteration_budget);
+    NewtonReport solve_instantaneous(double voltage, double light);
     NewtonReport solve_with_recycling(double voltage, double light, unsigned iteration_budget);
     void setup_recycling();
     // Sets the outer iteration's part of the re-absorbed generation per
@@ -270,6 +312,17 @@ namespace backcomb::fem
     // process holds the contributions of its own cells).
     void assemble_residual(const dealii::Vector<double> &u, double light,
                            dealii::Vector<double> &r) const;
+    // The ion density (scaled) at each quadrature point of the owned ion
+    // cells for state u (0 elsewhere).
+    std::vector<double> ion_density_qp(const dealii::Vector<double> &u) const;
+    // Sets phi_c uniform over the ion region such that the ion number
+    // (ion_number()) of u is `number`, psi as it is.
+    void uniform_ion_potential(dealii::Vector<double> &u, double number) const;
+    // The constraints of the Newton update in the current mode.
+    const dealii::AffineConstraints<double> &constraints() const
+    {
+      return transient ? zero_constraints : steady_constraints;
+    }
     // Newton's method; with `reuse` a step may take the factorisation of an
     // earlier Jacobian (a chord step) while the updates contract fast.
     NewtonReport newton(dealii::Vector<double> &u, double light, bool reuse, unsigned max_iterations) const;
@@ -282,6 +335,7 @@ namespace backcomb::fem
     NumericsParameters               numerics;
     MPI_Comm                         comm;
 
+    unsigned                         n_components; // 3, or 4 with mobile ions
     dealii::FESystem<2>              fe;
     dealii::DoFHandler<2>            dofs;
     dealii::QGauss<2>                cell_quadrature;
@@ -292,6 +346,20 @@ namespace backcomb::fem
     mutable KSP                      ksp = nullptr; // MUMPS LU, kept between solves
     dealii::IndexSet                 owned, relevant;
     dealii::AffineConstraints<double> zero_constraints; // Dirichlet DoFs of the update
+    // With ions in their steady state, also every ion DoF tied to one:
+    // phi_c is uniform, and the condensed row of that DoF is the ion
+    // number, int (c - N_ion) = 0 (no ions: the same as zero_constraints).
+    dealii::AffineConstraints<double> steady_constraints;
+    std::size_t                      ion_region_dofs = 0;
+    bool                             transient = false;
+    TransientHistory                 history;
+    // The time step being solved, as beta c - hist + dt div F = 0 for the
+    // ion density c at the quadrature points: the BDF leading coefficient,
+    // the step (scaled; 0 for an instantaneous change) and the history
+    // part hist; and the ion density at the end of the last step, which an
+    // instantaneous change keeps (ions frozen).
+    double                           ion_beta = 1, ion_step = 0;
+    std::vector<double>              ion_history_qp, frozen_ions_qp;
     mutable dealii::PETScWrappers::MPI::SparseMatrix jacobian;
     mutable dealii::PETScWrappers::MPI::Vector       rhs;
     mutable dealii::PETScWrappers::MPI::Vector       row_scale; // of the factorised Jacobian
@@ -303,11 +371,11 @@ namespace backcomb::fem
     // values of the reference cell.
     struct CellCache
     {
-      std::vector<dealii::types::global_dof_index> dofs; // 12 per cell
+      std::vector<dealii::types::global_dof_index> dofs; // 4 x n_components per cell
       std::vector<double> grad;                          // [cell][q][vertex][2]
       std::vector<double> jxw;                           // [cell][q]
       double              phi[64][4];                    // [q][vertex]
-      unsigned            component[12], vertex[12];     // of each system DoF
+      unsigned            component[16], vertex[16];     // of each system DoF
     } cell_cache;
     std::vector<double>              generation_qp; // scaled, per cell and quadrature point
     std::vector<double>              fixed_charge_qp; // scaled, empty if none

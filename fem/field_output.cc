@@ -27,6 +27,7 @@ namespace backcomb::fem
         : device(d)
         , light(light)
         , channel_names(bulk_recombination_channels().names())
+        , ions(d.has_ions())
       {
         // One field per registered bulk channel, named by the channel, in
         // registry order (the same on every process, whatever regions it
@@ -54,6 +55,11 @@ namespace backcomb::fem
                                           "recombination_rate_per_cm3_s",
                                           "quasi_fermi_level_splitting_eV"};
         names.insert(names.end(), channel_fields.begin(), channel_fields.end());
+        if (ions)
+          {
+            names.push_back("mobile_ion_density_per_cm3");
+            names.push_back("ionic_space_charge_per_cm3"); // z (c - N_ion)
+          }
         return names;
       }
 
@@ -64,7 +70,7 @@ namespace backcomb::fem
         const I        s = DataComponentInterpretation::component_is_scalar;
         const I        v = DataComponentInterpretation::component_is_part_of_vector;
         std::vector<I> out = {s, s, s, s, s, v, v, v, v, v, v, s, s, s, s};
-        out.insert(out.end(), channel_fields.size(), s);
+        out.insert(out.end(), channel_fields.size() + (ions ? 2 : 0), s);
         return out;
       }
 
@@ -115,6 +121,13 @@ namespace backcomb::fem
             o(14) = o(1) - o(2); // E_Fn - E_Fp
             for (unsigned c = 0; c < channel.size(); ++c)
               o(15 + c) = channel[c] * s.R0;
+            if (ions)
+              {
+                // 0 outside the ion region.
+                const double c = r.ion_density > 0 ? r.ion_density * std::exp(r.ion_z * (u[3] - u[0])) : 0.0;
+                o(15 + channel.size())     = c * s.N0;
+                o(15 + channel.size() + 1) = r.ion_z * (c - r.ion_density) * s.N0;
+              }
           }
       }
 
@@ -123,6 +136,7 @@ namespace backcomb::fem
       double                   light;
       std::vector<std::string> channel_names;  // registry names
       std::vector<std::string> channel_fields; // their VTK field names
+      bool                     ions;
     };
 
     // The adjoint collection probability (a nodal vector of the system:

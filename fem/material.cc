@@ -34,6 +34,17 @@ namespace backcomb::fem
                              "Ionised donor density N_D (complete ionisation)"};
     const NumberEntry acceptors_entry{"Acceptor density", 0, "cm^-3", Range::closed(0.0, 1e23),
                                 "Ionised acceptor density N_A (complete ionisation)"};
+    // Orders of magnitude for halide-perovskite films (common practice, no
+    // single source): 1e17-1e19 cm^-3, D around 1e-12 cm^2/s at room
+    // temperature. The default is no ions.
+    const NumberEntry ion_density_entry{"Density", 0, "cm^-3", Range::closed(0.0, 1e21),
+                                        "Mean density of the mobile ionic species, compensated by a uniform fixed "
+                                        "background of opposite charge (0: no mobile ions)"};
+    const NumberEntry ion_charge_entry{"Charge number", 1, "", Range::whole_numbers(-2, 2),
+                                       "Charge of one ion in elementary charges (+1 for a positive vacancy, -1 for a "
+                                       "negative one; not 0)"};
+    const NumberEntry ion_diffusion_entry{"Diffusion coefficient", 1e-12, "cm^2/s", Range::closed(1e-20, 1e-2),
+                                          "Ionic diffusion coefficient D (mobility D q/kT, Einstein relation)"};
   } // namespace
 
   void
@@ -61,6 +72,11 @@ namespace backcomb::fem
     for (const std::string &name : bulk_recombination_channels().names())
       bulk_recombination_channels().create(name)->declare_parameters(prm, section + "/" + recombination_subsection, d);
     prm.leave_subsection();
+    prm.enter_subsection(mobile_ions_subsection);
+    declare(prm, section + "/" + mobile_ions_subsection, ion_density_entry, d.ion_density);
+    declare(prm, section + "/" + mobile_ions_subsection, ion_charge_entry, d.ion_charge);
+    declare(prm, section + "/" + mobile_ions_subsection, ion_diffusion_entry, d.ion_diffusion);
+    prm.leave_subsection();
     prm.leave_subsection();
   }
 
@@ -87,6 +103,19 @@ namespace backcomb::fem
     for (const std::string &name : bulk_recombination_channels().names())
       bulk_recombination_channels().create(name)->parse_parameters(prm, section + "/" + recombination_subsection,
                                                                    *this);
+    prm.leave_subsection();
+    prm.enter_subsection(mobile_ions_subsection);
+    const std::string ions = section + "/" + mobile_ions_subsection;
+    ion_density   = get(prm, ions, ion_density_entry);
+    ion_charge    = get(prm, ions, ion_charge_entry);
+    ion_diffusion = get(prm, ions, ion_diffusion_entry);
+    if (ion_charge == 0)
+      {
+        const std::string v = prm.get(ion_charge_entry.name);
+        prm.leave_subsection();
+        prm.leave_subsection();
+        throw InputError(ions + "/" + ion_charge_entry.name, v, "must not be 0 (a mobile ion carries charge)");
+      }
     prm.leave_subsection();
     prm.leave_subsection();
   }

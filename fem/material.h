@@ -42,6 +42,12 @@ namespace backcomb::fem
     double emission_cutoff_eV  = 0.0;  // 0: the band gap
     double urbach_energy_eV    = 0.0;  // 0: no absorption below the cut-off
     bool   B_from_absorption   = false;
+    // One mobile ionic species (e.g. halide vacancies) with a uniform
+    // compensating background of fixed opposite charge; 0: none. Ions
+    // cannot cross any contact, surface or interface of the region.
+    double ion_density       = 0.0;   // cm^-3, mean density
+    double ion_charge        = 1.0;   // charge number z (+1: positive ions)
+    double ion_diffusion     = 1e-12; // cm^2/s
     double C_n               = 0.0;   // cm^6/s, Auger (eeh)
     double C_p               = 0.0;   // cm^6/s, Auger (ehh)
     std::map<std::string, double> model_numbers; // further channels' entries
@@ -62,6 +68,8 @@ namespace backcomb::fem
   // The subsection of a material section that holds the recombination
   // channels' entries (each channel in a subsection of its own).
   inline const std::string recombination_subsection = "Recombination";
+  // The subsection with the mobile ions' entries.
+  inline const std::string mobile_ions_subsection = "Mobile ions";
 
   // Thermal voltage kT/q in V.
   double thermal_voltage(double temperature);

@@ -55,8 +55,8 @@ namespace backcomb::fem
         cell->get_dof_indices(idx);
         for (unsigned q = 0; q < nq; ++q)
           {
-            double       v[3] = {0, 0, 0};
-            Tensor<1, 2> g[3];
+            double       v[4] = {0, 0, 0, 0}; // psi, phi_n, phi_p (, phi_c)
+            Tensor<1, 2> g[4];
             for (unsigned i = 0; i < dpc; ++i)
               {
                 const unsigned c = fe.system_to_component_index(i).first;
@@ -100,7 +100,7 @@ namespace backcomb::fem
             ffv.reinit(cell, f);
             for (unsigned q = 0; q < face_quadrature.size(); ++q)
               {
-                double v[3] = {0, 0, 0};
+                double v[4] = {0, 0, 0, 0};
                 for (unsigned i = 0; i < dpc; ++i)
                   v[fe.system_to_component_index(i).first] += solution[idx[i]] * ffv.shape_value(i, q);
                 const double n = std::exp(v[c_psi] - v[c_phin] + r.a_n);

@@ -261,9 +261,10 @@ namespace backcomb::fem
       const RecombinationChannel *ch = radiative_channel(r);
       if (!ch)
         return;
-      const types::global_dof_index *idx = &cell_cache.dofs[ci * 12];
-      double                         ul[3][4];
-      for (unsigned i = 0; i < 12; ++i)
+      const unsigned                 dpc = fe.n_dofs_per_cell();
+      const types::global_dof_index *idx = &cell_cache.dofs[ci * dpc];
+      double                         ul[4][4];
+      for (unsigned i = 0; i < dpc; ++i)
         ul[cell_cache.component[i]][cell_cache.vertex[i]] = u[idx[i]];
       for (unsigned q = 0; q < nq; ++q)
         {

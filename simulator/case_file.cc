@@ -394,6 +394,13 @@ namespace backcomb::simulator
           throw InputError(name + "/Recombination/Radiative/" +
                              (m->recycling_transport ? "Photon recycling" : "Coefficient from absorption"),
                            m->recycling_transport ? "transport" : "true", "applies to the Absorber only");
+      // Mobile ions live in the absorber: blocking at every boundary of it,
+      // with their steady state tied over one connected region.
+      for (const auto &[name, m] : {std::pair<std::string, const fem::Material *>{"Electron interlayer", &c.electron_interlayer},
+                                    {"Hole interlayer", &c.hole_interlayer}})
+        if (m->ion_density > 0)
+          throw InputError(name + "/" + fem::mobile_ions_subsection + "/Density", prm_text(m->ion_density),
+                           "mobile ions apply to the Absorber only");
       // Refuse meshes too large for memory before anything is allocated.
       // Estimate: the uniform parts plus the graded parts at each refined
       // line (about 4 kB of memory per cell with the direct solver: a

@@ -1,0 +1,216 @@
+// Mobile ions in the drift-diffusion solver: their density at the
+// quadrature points, their number, and the implicit time steps of a
+// transient (the assembly of their equations is in drift_diffusion.cc).
+//
+// Discrete conservation: the ion rows are tested with the Q1 functions of
+// the ion region, which sum to 1 there, and the flux term of each cell sums
+// to 0 over them; so the sum of the rows says that the quadrature of
+// dc/dt over the region vanishes. The ion number measured with the same
+// quadrature (ion_number()) is therefore kept by every step up to the
+// Newton tolerance, and the BDF2 history preserves it too (its
+// coefficients sum to the leading one).
+#include "fem/drift_diffusion.h"
+
+#include <deal.II/base/mpi.h>
+
+#include <cmath>
+#include <stdexcept>
+
+namespace backcomb::fem
+{
+  using namespace dealii;
+
+  namespace
+  {
+    constexpr unsigned c_psi = 0, c_ion = 3;
+  }
+
+  std::vector<double>
+  DriftDiffusionSolver::ion_density_qp(const Vector<double> &u) const
+  {
+    const unsigned nq  = cell_quadrature.size();
+    const unsigned dpc = fe.n_dofs_per_cell();
+    std::vector<double> c(tria.n_active_cells() * nq, 0.0);
+    if (!has_ions())
+      return c;
+    for (const auto &cell : dofs.active_cell_iterators())
+      {
+        const ScaledRegion &r = device.region(cell->material_id());
+        if (!cell->is_locally_owned() || r.ion_density <= 0)
+          continue;
+        const std::size_t              ci  = cell->active_cell_index();
+        const types::global_dof_index *idx = &cell_cache.dofs[ci * dpc];
+        double                         psi[4] = {}, phic[4] = {};
+        for (unsigned i = 0; i < dpc; ++i)
+          {
+            if (cell_cache.component[i] == c_psi)
+              psi[cell_cache.vertex[i]] = u[idx[i]];
+            else if (cell_cache.component[i] == c_ion)
+              phic[cell_cache.vertex[i]] = u[idx[i]];
+          }
+        for (unsigned q = 0; q < nq; ++q)
+          {
+            double a = 0, b = 0;
+            for (unsigned k = 0; k < 4; ++k)
+              {
+                a += psi[k] * cell_cache.phi[q][k];
+                b += phic[k] * cell_cache.phi[q][k];
+              }
+            c[ci * nq + q] = r.ion_density * std::exp(r.ion_z * (b - a));
+          }
+      }
+    return c;
+  }
+
+  double
+  DriftDiffusionSolver::ion_number(const Vector<double> &u) const
+  {
+    const std::vector<double> c  = ion_density_qp(u);
+    double                    sum = 0;
+    for (std::size_t k = 0; k < c.size(); ++k)
+      sum += c[k] * cell_cache.jxw[k];
+    return Utilities::MPI::sum(sum, comm) * device.scaling.N0;
+  }
+
+  double
+  DriftDiffusionSolver::mean_ion_density() const
+  {
+    if (!has_ions())
+      return 0;
+    const unsigned nq   = cell_quadrature.size();
+    double         area = 0;
+    for (const auto &cell : dofs.active_cell_iterators())
+      if (cell->is_locally_owned() && device.region(cell->material_id()).ion_density > 0)
+        for (unsigned q = 0; q < nq; ++q)
+          area += cell_cache.jxw[cell->active_cell_index() * nq + q];
+    return ion_number(solution) / Utilities::MPI::sum(area, comm);
+  }
+
+  void
+  DriftDiffusionSolver::uniform_ion_potential(Vector<double> &u, const double number) const
+  {
+    // phi_c uniform with int N exp(z (phi_c - psi)) = number:
+    // z phi_c = ln(number) - ln(int N exp(-z psi)), the second by
+    // log-sum-exp (psi spans hundreds of kT/q between regions).
+    if (!has_ions())
+      return;
+    const unsigned nq  = cell_quadrature.size();
+    const unsigned dpc = fe.n_dofs_per_cell();
+    double         z   = 1, top = -1e300;
+    for (const auto &[id, r] : device.regions)
+      if (r.ion_density > 0)
+        z = r.ion_z; // one ion region (the absorber)
+    std::vector<std::pair<double, double>> terms; // (-z psi + ln N, JxW)
+    for (const auto &cell : dofs.active_cell_iterators())
+      {
+        const ScaledRegion &r = device.region(cell->material_id());
+        if (!cell->is_locally_owned() || r.ion_density <= 0)
+          continue;
+        const std::size_t              ci  = cell->active_cell_index();
+        const types::global_dof_index *idx = &cell_cache.dofs[ci * dpc];
+        for (unsigned q = 0; q < nq; ++q)
+          {
+            double psi = 0;
+            for (unsigned i = 0; i < dpc; ++i)
+              if (cell_cache.component[i] == c_psi)
+                psi += u[idx[i]] * cell_cache.phi[q][cell_cache.vertex[i]];
+            terms.emplace_back(-z * psi + std::log(r.ion_density * device.scaling.N0),
+                               cell_cache.jxw[ci * nq + q]);
+            top = std::max(top, terms.back().first);
+          }
+      }
+    top = Utilities::MPI::max(top, comm);
+    double sum = 0;
+    for (const auto &[e, w] : terms)
+      sum += std::exp(e - top) * w;
+    sum = Utilities::MPI::sum(sum, comm);
+    const double phic = (std::log(number) - top - std::log(sum)) / z;
+    std::vector<types::global_dof_index> idx(fe.n_dofs_per_cell());
+    for (const auto &cell : dofs.active_cell_iterators())
+      {
+        if (device.region(cell->material_id()).ion_density <= 0)
+          continue;
+        cell->get_dof_indices(idx);
+        for (unsigned i = 0; i < idx.size(); ++i)
+          if (fe.system_to_component_index(i).first == c_ion)
+            u[idx[i]] = phic;
+      }
+  }
+
+  void
+  DriftDiffusionSolver::begin_transient()
+  {
+    if (!has_ions())
+      throw std::logic_error("a transient needs mobile ions");
+    transient      = true;
+    history        = TransientHistory();
+    frozen_ions_qp = ion_density_qp(solution);
+    factors_valid  = false; // the steady mode's matrix is condensed differently
+  }
+
+  void
+  DriftDiffusionSolver::end_transient()
+  {
+    if (!transient)
+      return;
+    transient     = false;
+    history       = TransientHistory();
+    factors_valid = false;
+    // A start for the steady state with the same number of ions.
+    uniform_ion_potential(solution, ion_number(solution));
+  }
+
+  NewtonReport
+  DriftDiffusionSolver::solve_instantaneous(const double voltage, const double light)
+  {
+    ion_beta       = 1;
+    ion_step       = 0;
+    ion_history_qp = frozen_ions_qp;
+    const NewtonReport rep = recycling ? solve_with_recycling(voltage, light, 0)
+                                       : solve_fixed_generation(voltage, light, 0);
+    // A jump: the next time step starts afresh (BDF1).
+    if (rep.converged)
+      history = TransientHistory();
+    return rep;
+  }
+
+  NewtonReport
+  DriftDiffusionSolver::solve_time_step(const double voltage, const double light, const double dt)
+  {
+    if (!transient)
+      throw std::logic_error("solve_time_step outside a transient");
+    if (!(dt > 0) || !std::isfinite(dt))
+      throw std::invalid_argument("time step must be positive and finite");
+    // Variable-step BDF2 (Hairer & Wanner, Sec. III.5): with w = dt/dt_prev,
+    //   (1+2w)/(1+w) c^{n+1} - (1+w) c^n + w^2/(1+w) c^{n-1} = dt dc/dt;
+    // BDF1 (implicit Euler) for the first step. The history coefficients
+    // sum to the leading one, so a uniform c is a solution and the ion
+    // number is kept.
+    ion_step                     = dt / device.scaling.t0;
+    const std::vector<double> cn = ion_density_qp(solution);
+    if (history.previous_dt <= 0)
+      {
+        ion_beta       = 1;
+        ion_history_qp = cn;
+      }
+    else
+      {
+        const double              w    = dt / history.previous_dt;
+        const std::vector<double> cnm1 = ion_density_qp(history.previous);
+        ion_beta                       = (1 + 2 * w) / (1 + w);
+        ion_history_qp.assign(cn.size(), 0.0);
+        for (std::size_t k = 0; k < cn.size(); ++k)
+          ion_history_qp[k] = (1 + w) * cn[k] - w * w / (1 + w) * cnm1[k];
+      }
+    const Vector<double> before = solution;
+    const NewtonReport   rep    = recycling ? solve_with_recycling(voltage, light, 0)
+                                            : solve_fixed_generation(voltage, light, 0);
+    if (rep.converged)
+      {
+        history.previous    = before;
+        history.previous_dt = dt;
+        frozen_ions_qp      = ion_density_qp(solution);
+      }
+    return rep;
+  }
+} // namespace backcomb::fem
