@@ -411,10 +411,11 @@ namespace backcomb::fem
         // in a transient dc/dt + div F = 0 with F = -mu_c z c grad phi_c,
         // discretised as beta c - hist + dt div F = 0 (ion_beta, ion_step).
         const double z       = r.ion_z;
-        const double cion   = ions ? r.ion_density * std::exp(z * (v[c_ion] - v[c_psi])) : 0.0;
+        const double Nion    = r.ion_density * ion_scale;
+        const double cion    = ions ? Nion * std::exp(z * (v[c_ion] - v[c_psi])) : 0.0;
         const double hist    = ions && transient ? ion_history_qp[ci * nq + q] : 0.0;
         const double jc_coef = r.ion_mu * z * cion;
-        const double charge  = p - n + r.doping + fixed + (ions ? z * (cion - r.ion_density) : 0.0);
+        const double charge  = p - n + r.doping + fixed + (ions ? z * (cion - Nion) : 0.0);
         for (unsigned i = 0; i < 4; ++i)
           {
             const double vi = phi[i] * dx, gi0 = gq[2 * i] * dx, gi1 = gq[2 * i + 1] * dx;
@@ -427,7 +428,7 @@ namespace backcomb::fem
             const double gc = ions ? g[c_ion][0] * gi0 + g[c_ion][1] * gi1 : 0.0;
             if (ions)
               f[c_ion][i] += transient ? (ion_beta * cion - hist) * vi + ion_step * jc_coef * gc
-                                       : (cion - r.ion_density) * vi;
+                                       : (cion - Nion) * vi;
             if (!Aptr)
               continue;
             for (unsigned j = 0; j < 4; ++j)
@@ -910,7 +911,42 @@ namespace backcomb::fem
         uniform_ion_potential(solution, Utilities::MPI::sum(area, comm));
       }
     Vector<double> u = solution;
-    const NewtonReport rep = newton(u, 0.0, false, numerics.max_iterations);
+    if (has_ions())
+      ion_scale = 1e-8;
+    NewtonReport rep = newton(u, 0.0, false, numerics.max_iterations);
+    // Mobile ions: their density raised from 1e-8 of its value (the start
+    // above) in decades (a geometric midpoint when a level fails), each
+    // level from the one before, with phi_c as it was (c scales with the
+    // density): the ion layers at the contacts, exp(band bending / kT)
+    // denser than the bulk, are far from a neutral start.
+    if (has_ions() && rep.converged)
+      {
+        std::vector<double> levels;
+        for (int e = 0; e >= -7; --e)
+          levels.push_back(std::pow(10.0, e));
+        double   reached = ion_scale;
+        unsigned depth   = 0;
+        while (!levels.empty() && rep.converged)
+          {
+            ion_scale            = levels.back();
+            Vector<double>     w = u;
+            const NewtonReport r = newton(w, 0.0, false, numerics.max_iterations);
+            rep.iterations += r.iterations;
+            rep.factorisations += r.factorisations;
+            if (r.converged)
+              {
+                u       = w;
+                reached = levels.back();
+                levels.pop_back();
+                depth = 0;
+              }
+            else if (depth++ < numerics.max_halvings)
+              levels.push_back(std::sqrt(reached * levels.back()));
+            else
+              rep = r;
+          }
+      }
+    ion_scale = 1;
     if (rep.converged)
       {
         equilibrium  = u;

@@ -175,12 +175,15 @@ namespace backcomb::fem
     // BDF1 for the first step of a transient, then the variable-step BDF2
     // (second-order backward differentiation; E. Hairer, G. Wanner,
     // Solving Ordinary Differential Equations II, 2nd ed. 1996, Sec. III.5).
-    // Leaves the state unchanged if Newton fails.
-    NewtonReport solve_time_step(double voltage, double light, double dt);
+    // Newton starts from `guess` if given (a predicted state), else from
+    // the current state. Leaves the state unchanged if Newton fails.
+    NewtonReport solve_time_step(double voltage, double light, double dt,
+                                 const dealii::Vector<double> *guess = nullptr);
     // Back to steady-state ions (the next solve relaxes them).
     // (In a transient, solve() calls solve_instantaneous().)
     void end_transient();
     bool in_transient() const { return transient; }
+    static constexpr unsigned time_step_iterations = 25;
     // What a time step needs besides the state: the state before it and
     // the length of the step that led to it (for restarting a rejected step).
     struct TransientHistory
@@ -359,6 +362,7 @@ namespace backcomb::fem
     // part hist; and the ion density at the end of the last step, which an
     // instantaneous change keeps (ions frozen).
     double                           ion_beta = 1, ion_step = 0;
+    double                           ion_scale = 1; // of the ion density (equilibrium continuation)
     std::vector<double>              ion_history_qp, frozen_ions_qp;
     mutable dealii::PETScWrappers::MPI::SparseMatrix jacobian;
     mutable dealii::PETScWrappers::MPI::Vector       rhs;

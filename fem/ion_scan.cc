@@ -46,7 +46,7 @@ namespace backcomb::fem
     class Stepper
     {
     public:
-      Stepper(DriftDiffusionSolver &s, const ScanSettings &settings, ScanResult &result)
+      Stepper(DriftDiffusionSolver &s, const HysteresisSettings &settings, HysteresisScan &result)
         : solver(s)
         , settings(settings)
         , result(result)
@@ -76,16 +76,25 @@ namespace backcomb::fem
             const dealii::Vector<double>                  old  = solver.state();
             const DriftDiffusionSolver::TransientHistory  hist = solver.transient_history();
             const double                                  v_old = solver.voltage();
-            const NewtonReport                            rep  = solver.solve_time_step(v, settings.light, h);
+            // Linear extrapolation through the last two states: Newton's
+            // start, and what the error estimate compares with.
+            dealii::Vector<double> predicted;
+            if (hist.previous_dt > 0)
+              {
+                const double w = h / hist.previous_dt;
+                predicted      = old;
+                predicted.sadd(1 + w, -w, hist.previous);
+              }
+            const NewtonReport rep =
+              solver.solve_time_step(v, settings.light, h, predicted.size() > 0 ? &predicted : nullptr);
             result.newton_iterations += rep.iterations;
             double error = 0;
-            if (rep.converged && hist.previous_dt > 0)
+            if (rep.converged && predicted.size() > 0)
               {
-                const double                  w = h / hist.previous_dt;
                 const dealii::Vector<double> &u = solver.state();
                 for (std::size_t i = 0; i < u.size(); ++i)
                   if (mask[i])
-                    error = std::max(error, std::abs(u[i] - (old[i] + w * (old[i] - hist.previous[i]))));
+                    error = std::max(error, std::abs(u[i] - predicted[i]));
               }
             if (!rep.converged || error > settings.tolerance)
               {
@@ -126,8 +135,8 @@ namespace backcomb::fem
 
     private:
       DriftDiffusionSolver &solver;
-      const ScanSettings   &settings;
-      ScanResult           &result;
+      const HysteresisSettings   &settings;
+      HysteresisScan           &result;
       std::vector<bool>     mask;
       double                dt; // next step to try, s
     };
@@ -141,10 +150,10 @@ namespace backcomb::fem
     return (reverse.Pmax - forward.Pmax) / reverse.Pmax;
   }
 
-  ScanResult
-  scan_with_ions(DriftDiffusionSolver &solver, const ScanSettings &settings, const ScanObserver &observe)
+  HysteresisScan
+  scan_with_ions(DriftDiffusionSolver &solver, const HysteresisSettings &settings, const HysteresisObserver &observe)
   {
-    ScanResult result;
+    HysteresisScan result;
     result.hysteresis_index = std::numeric_limits<double>::quiet_NaN();
     if (!solver.has_ions())
       throw std::logic_error("scan_with_ions: the device has no mobile ions");
@@ -172,7 +181,7 @@ namespace backcomb::fem
         !stepper.advance(settings.precondition_time, settings.precondition_bias, false))
       return result;
     if (observe)
-      observe("preconditioned", ScanPoint{0, solver.voltage(), solver.terminal_current().total(), true});
+      observe("preconditioned", HysteresisPoint{0, solver.voltage(), solver.terminal_current().total(), true});
 
     double time = 0;
     for (const std::string &direction : settings.directions)
@@ -185,7 +194,7 @@ namespace backcomb::fem
         // A curve starts where the last one ended, or after a jump.
         if (std::abs(solver.voltage() - from) > 1e-12 && !jump(from, settings.light))
           return result;
-        ScanCurve curve;
+        HysteresisCurve curve;
         curve.direction = direction;
         const unsigned n = static_cast<unsigned>(std::ceil((settings.high - settings.low) / settings.step - 1e-9));
         for (unsigned k = 0; k <= n; ++k)
@@ -198,21 +207,21 @@ namespace backcomb::fem
                   return result;
                 time += dt;
               }
-            const ScanPoint p{time, solver.voltage(), solver.terminal_current().total(), true};
+            const HysteresisPoint p{time, solver.voltage(), solver.terminal_current().total(), true};
             curve.points.push_back(p);
             if (observe)
               observe(direction, p);
           }
         std::vector<JVPoint> sorted;
-        for (const ScanPoint &p : curve.points)
+        for (const HysteresisPoint &p : curve.points)
           sorted.push_back({p.voltage, p.current, true, 0});
         std::sort(sorted.begin(), sorted.end(),
                   [](const JVPoint &a, const JVPoint &b) { return a.voltage < b.voltage; });
         curve.metrics = jv_metrics(sorted);
         result.curves.push_back(curve);
       }
-    const ScanCurve *rev = nullptr, *fwd = nullptr;
-    for (const ScanCurve &c : result.curves)
+    const HysteresisCurve *rev = nullptr, *fwd = nullptr;
+    for (const HysteresisCurve &c : result.curves)
       (c.direction == "reverse" ? rev : fwd) = &c;
     if (rev && fwd)
       result.hysteresis_index = hysteresis_index(rev->metrics, fwd->metrics);

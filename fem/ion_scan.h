@@ -14,7 +14,7 @@
 
 namespace backcomb::fem
 {
-  struct ScanSettings
+  struct HysteresisSettings
   {
     double rate  = 0.1;   // V/s, > 0
     double low   = -0.1;  // V: the scan spans [low, high]
@@ -33,7 +33,7 @@ namespace backcomb::fem
     unsigned max_halvings = 8; // per bias step and for the light ramp
   };
 
-  struct ScanPoint
+  struct HysteresisPoint
   {
     double   time_s    = 0; // since the start of the scan
     double   voltage   = 0;
@@ -41,18 +41,18 @@ namespace backcomb::fem
     bool     converged = false;
   };
 
-  struct ScanCurve
+  struct HysteresisCurve
   {
     std::string            direction; // "reverse" or "forward"
-    std::vector<ScanPoint> points;    // in scan order
+    std::vector<HysteresisPoint> points;    // in scan order
     JVMetrics              metrics;
   };
 
-  struct ScanResult
+  struct HysteresisScan
   {
     bool                   converged = false;
     std::string            diagnostic;      // why it stopped, if it failed
-    std::vector<ScanCurve> curves;
+    std::vector<HysteresisCurve> curves;
     unsigned               time_steps = 0;  // accepted, preconditioning included
     unsigned               rejected   = 0;  // steps repeated with a shorter dt
     unsigned               newton_iterations = 0;
@@ -65,13 +65,13 @@ namespace backcomb::fem
 
   // Called at the end of preconditioning ("preconditioned") and at every
   // recorded bias of each curve, with the solver at that state.
-  using ScanObserver = std::function<void(const std::string &direction, const ScanPoint &)>;
+  using HysteresisObserver = std::function<void(const std::string &direction, const HysteresisPoint &)>;
 
   // Runs the scan on a solver with mobile ions whose state is the dark
   // equilibrium (solve_equilibrium()); leaves it in a transient at the end
   // of the scan.
-  ScanResult scan_with_ions(DriftDiffusionSolver &solver, const ScanSettings &settings,
-                            const ScanObserver &observe = {});
+  HysteresisScan scan_with_ions(DriftDiffusionSolver &solver, const HysteresisSettings &settings,
+                            const HysteresisObserver &observe = {});
 
   // Hysteresis index (PCE_rev - PCE_fwd) / PCE_rev of two curves' maximum
   // power (S. N. Habisreutinger, N. K. Noel, H. J. Snaith, ACS Energy Lett.

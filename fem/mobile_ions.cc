@@ -175,7 +175,8 @@ namespace backcomb::fem
   }
 
   NewtonReport
-  DriftDiffusionSolver::solve_time_step(const double voltage, const double light, const double dt)
+  DriftDiffusionSolver::solve_time_step(const double voltage, const double light, const double dt,
+                                        const Vector<double> *guess)
   {
     if (!transient)
       throw std::logic_error("solve_time_step outside a transient");
@@ -203,8 +204,31 @@ namespace backcomb::fem
           ion_history_qp[k] = (1 + w) * cn[k] - w * w / (1 + w) * cnm1[k];
       }
     const Vector<double> before = solution;
-    const NewtonReport   rep    = recycling ? solve_with_recycling(voltage, light, 0)
-                                            : solve_fixed_generation(voltage, light, 0);
+    // A step that Newton does not finish within time_step_iterations is
+    // better repeated shorter than pursued (the caller halves it).
+    auto attempt = [&] {
+      return recycling ? solve_with_recycling(voltage, light, time_step_iterations)
+                       : solve_fixed_generation(voltage, light, time_step_iterations);
+    };
+    NewtonReport rep;
+    if (guess)
+      {
+        // Newton from the predicted state; from the last one if that fails.
+        solution = *guess;
+        rep      = attempt();
+        if (!rep.converged)
+          {
+            solution               = before;
+            const NewtonReport again = attempt();
+            rep.converged = again.converged;
+            rep.iterations += again.iterations;
+            rep.factorisations += again.factorisations;
+          }
+      }
+    else
+      rep = attempt();
+    if (!rep.converged)
+      solution = before;
     if (rep.converged)
       {
         history.previous    = before;

@@ -79,19 +79,37 @@ namespace backcomb::postprocess
   }
 
   std::string
-  jv_csv(const fem::JVScan &light, const fem::JVScan &dark, const double footprint_um)
+  jv_csv(const fem::JVScan &light, const fem::JVScan &dark, const double footprint_um,
+         const std::vector<JVColumn> &more)
   {
-    std::map<long, std::pair<std::string, std::string>> rows;
+    std::map<long, std::vector<std::string>> rows;
+    const std::size_t                        n = 2 + more.size();
+    auto row = [&](const double v) -> std::vector<std::string> & {
+      auto &r = rows[bias_key(v)];
+      r.resize(n);
+      return r;
+    };
     for (const auto &p : light.points)
-      rows[bias_key(p.jv.voltage)].first = p.jv.converged ? format_number(p.jv.current) : "failed";
+      row(p.jv.voltage)[0] = p.jv.converged ? format_number(p.jv.current) : "failed";
     for (const auto &p : dark.points)
-      rows[bias_key(p.jv.voltage)].second = p.jv.converged ? format_number(p.jv.current) : "failed";
+      row(p.jv.voltage)[1] = p.jv.converged ? format_number(p.jv.current) : "failed";
+    for (std::size_t k = 0; k < more.size(); ++k)
+      for (const auto &[v, j] : more[k].points)
+        row(v)[2 + k] = format_number(j);
     std::ostringstream csv;
     csv << "# backcomb J-V; current density per footprint (period width " << footprint_um
         << " um), generator convention (positive = delivered)\n";
-    csv << "voltage_V,J_light_mA_per_cm2,J_dark_mA_per_cm2\n";
+    csv << "voltage_V,J_light_mA_per_cm2,J_dark_mA_per_cm2";
+    for (const auto &c : more)
+      csv << ',' << c.name;
+    csv << '\n';
     for (const auto &[k, r] : rows)
-      csv << format_number(k * 1e-7) << ',' << r.first << ',' << r.second << '\n';
+      {
+        csv << format_number(k * 1e-7);
+        for (const auto &cell : r)
+          csv << ',' << cell;
+        csv << '\n';
+      }
     return csv.str();
   }
 } // namespace backcomb::postprocess

@@ -32,6 +32,15 @@ namespace backcomb::postprocess
   void add_points(nlohmann::json &list, const std::string &label, const fem::JVScan &s,
                   const std::vector<double> &grid);
 
+  // A further column of jv.csv: (voltage, current) pairs, e.g. one
+  // direction of a hysteresis scan; empty cells where it has no bias.
+  struct JVColumn
+  {
+    std::string                            name; // "J_reverse_scan_mA_per_cm2"
+    std::vector<std::pair<double, double>> points;
+  };
+
   // jv.csv: current density per footprint in the generator convention.
-  std::string jv_csv(const fem::JVScan &light, const fem::JVScan &dark, double footprint_um);
+  std::string jv_csv(const fem::JVScan &light, const fem::JVScan &dark, double footprint_um,
+                     const std::vector<JVColumn> &more = {});
 } // namespace backcomb::postprocess

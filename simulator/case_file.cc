@@ -399,7 +399,7 @@ namespace backcomb::simulator
       for (const auto &[name, m] : {std::pair<std::string, const fem::Material *>{"Electron interlayer", &c.electron_interlayer},
                                     {"Hole interlayer", &c.hole_interlayer}})
         if (m->ion_density > 0)
-          throw InputError(name + "/" + fem::mobile_ions_subsection + "/Density", prm_text(m->ion_density),
+          throw InputError(name + "/" + fem::mobile_ions_subsection + "/Density", default_text(m->ion_density),
                            "mobile ions apply to the Absorber only");
       // Refuse meshes too large for memory before anything is allocated.
       // Estimate: the uniform parts plus the graded parts at each refined
@@ -441,6 +441,7 @@ namespace backcomb::simulator
     const DeviceSettings device_defaults;
     const JVSettings     jv_defaults;
     const OutputSettings output_defaults;
+    const HysteresisScanSettings hysteresis_defaults;
 
     const NumberEntry temperature{"Temperature", device_defaults.temperature, "K",
                                   Range::closed(100, 1000), "Device temperature"};
@@ -461,6 +462,25 @@ namespace backcomb::simulator
       Range::above(0, 1), 50,
       "Light levels, as fractions of the Illumination intensity, at which the open-circuit "
       "voltage is found for the suns-Voc pseudo J-V and the series resistance"};
+
+    // Section "Hysteresis scan": a J-V scan at a finite rate with the
+    // absorber's mobile ions moving during it.
+    const std::string hysteresis = "Hysteresis scan";
+    const NumberEntry scan_rate{
+      "Scan rate", hysteresis_defaults.rate, "V/s", Range::closed(0, 1e6),
+      "Rate of a J-V scan over the biases of the J-V scan section with the absorber's mobile ions moving "
+      "(0: none; needs Absorber/Mobile ions/Density > 0). The other metrics keep the ions' steady state"};
+    const NumberEntry preconditioning_bias{
+      "Preconditioning bias", hysteresis_defaults.precondition_bias, "V", bias_range,
+      "Bias held under the light before the scan, starting from the ions' steady state in the dark at 0 V"};
+    const NumberEntry preconditioning_time{"Preconditioning time", hysteresis_defaults.precondition_time, "s",
+                                           Range::closed(0, 1e7), "How long the preconditioning bias is held"};
+    const NumberEntry step_tolerance{
+      "Time step tolerance", hysteresis_defaults.tolerance, "kT/q", Range::closed(1e-4, 1),
+      "Largest local error of a time step in the ions' electrochemical potential (smaller: more steps)"};
+    const NumberEntry snapshots{"Snapshots per direction", double(hysteresis_defaults.snapshots), "",
+                                Range::whole_numbers(0, 1000),
+                                "Ion-density fields written at this many evenly spaced biases of each direction"};
 
     const NumberEntry dead_zone_threshold{
       "Dead zone threshold", output_defaults.dead_zone_threshold, "", Range::open(0, 1),
@@ -586,6 +606,17 @@ namespace backcomb::simulator
                  "Also compute the dark J-V over the same biases.");
     declare(prm, jv, mpp_resolution);
     declare(prm, jv, suns_voc_intensities);
+    prm.leave_subsection();
+
+    prm.enter_subsection(hysteresis);
+    declare(prm, hysteresis, scan_rate);
+    declare_text(prm, hysteresis, "Directions", hysteresis_defaults.directions,
+                 Selection("reverse then forward|forward then reverse|reverse|forward"), "",
+                 "The scan's directions in order: reverse from Stop to Start voltage, forward from Start to Stop.");
+    declare(prm, hysteresis, preconditioning_bias);
+    declare(prm, hysteresis, preconditioning_time);
+    declare(prm, hysteresis, step_tolerance);
+    declare(prm, hysteresis, snapshots);
     prm.leave_subsection();
 
     prm.enter_subsection("Output");
@@ -869,6 +900,18 @@ namespace backcomb::simulator
         if ((c.jv.stop - c.jv.start) / c.jv.step > 20000)
           throw InputError(jv + "/Voltage step", prm.get("Voltage step"),
                            "gives more than 20000 biases");
+        prm.leave_subsection();
+
+        prm.enter_subsection(hysteresis);
+        c.hysteresis.rate              = get(prm, hysteresis, scan_rate);
+        c.hysteresis.directions        = prm.get("Directions");
+        c.hysteresis.precondition_bias = get(prm, hysteresis, preconditioning_bias);
+        c.hysteresis.precondition_time = get(prm, hysteresis, preconditioning_time);
+        c.hysteresis.tolerance         = get(prm, hysteresis, step_tolerance);
+        c.hysteresis.snapshots         = static_cast<unsigned>(get(prm, hysteresis, snapshots));
+        if (c.hysteresis.rate > 0 && !(c.absorber.ion_density > 0))
+          throw InputError(hysteresis + "/Scan rate", prm.get("Scan rate"),
+                           "needs mobile ions: Absorber/" + fem::mobile_ions_subsection + "/Density is 0");
         prm.leave_subsection();
 
         prm.enter_subsection("Output");

@@ -50,6 +50,17 @@ namespace backcomb::simulator
     bool                eqe_without_bias_light = false;
   };
 
+  // Section "Hysteresis scan" (fem/ion_scan.h); rate 0: no such scan.
+  struct HysteresisScanSettings
+  {
+    double      rate              = 0;    // V/s
+    std::string directions        = "reverse then forward";
+    double      precondition_bias = 1.2;  // V
+    double      precondition_time = 10;   // s
+    double      tolerance         = 0.02; // kT/q
+    unsigned    snapshots         = 5;    // per direction
+  };
+
   struct Case
   {
     std::string                  file;   // path as given
@@ -64,6 +75,7 @@ namespace backcomb::simulator
     fem::ElectrodeParameters     electrodes;
     DeviceSettings               device;
     JVSettings                   jv;
+    HysteresisScanSettings       hysteresis;
     OutputSettings               output;
     FabricationSettings          fabrication;
     std::vector<std::string>     overrides;

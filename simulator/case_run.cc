@@ -22,6 +22,7 @@
 #include "simulator/bounds.h"
 #include "simulator/checkpoint.h"
 #include "simulator/guard_rails.h"
+#include "simulator/hysteresis_run.h"
 #include "simulator/recycling_setup.h"
 
 #include <deal.II/base/config.h>
@@ -221,6 +222,7 @@ namespace backcomb::simulator
     const char *const t_losses = "losses_and_suns_voc";
     const char *const t_dark   = "dark";
     const char *const t_cell   = "comb_cell";
+    const char *const t_ions   = "hysteresis_scan";
   } // namespace
 
   // One `solve` of a case. The members are the data that flows from step to
@@ -248,6 +250,7 @@ namespace backcomb::simulator
     void balance_at(const std::string &name, double v);
     void compute_suns_voc(const fem::JVMetrics &m0);
     void solve_dark_jv();
+    void scan_with_moving_ions();
     void evaluate_comb_cell();
     void settle_status();
     json summary_of_results() const;
@@ -313,6 +316,7 @@ namespace backcomb::simulator
     json                                    cell_json = nullptr, rs_json = nullptr;
     fem::JVMetrics                          cell_metrics;
     std::optional<fem::CombOperatingPoint> cell_mpp;
+    HysteresisOutput                        hysteresis;
   };
 
   CaseRun::CaseRun(const Case &c_, const RunOptions &o_)
@@ -346,6 +350,7 @@ namespace backcomb::simulator
         compute_suns_voc(scanned);
       }
     solve_dark_jv();
+    scan_with_moving_ions();
     progress.done();
     metrics = lit ? fem::jv_metrics(fem::converged_curve(light)) : fem::JVMetrics();
     if (metrics.valid && !strip)
@@ -869,6 +874,18 @@ namespace backcomb::simulator
     progress.stage("dark J-V: " + std::to_string(fem::converged_curve(dark).size()) + " converged points");
   }
 
+  void
+  CaseRun::scan_with_moving_ions()
+  {
+    dealii::TimerOutput::Scope scope(timer, t_ions);
+    if (c.output.fields)
+      make_folder(o.folder + "/fields");
+    hysteresis = run_hysteresis_scan(*solver, c, o.folder, lit ? 1.0 : 0.0, c.output.fields,
+                                     [this](const std::string &s) { progress.stage(s); });
+    if (hysteresis.ran && !hysteresis.converged && status == Status::converged)
+      status = Status::partial;
+  }
+
   // The whole comb cell (fingers and contact resistance, Electrodes
   // section) and the series resistance from suns-Voc, both from the
   // period's light J-V.
@@ -1066,6 +1083,8 @@ namespace backcomb::simulator
     for (const auto &[level, v] : suns_voc)
       s["suns_voc"].push_back({{"light_factor", level}, {"Voc_V", v}});
     s["photon_recycling"]  = photon_recycling_json();
+    s["mobile_ions"]       = solver ? mobile_ions_json(c, *solver) : json(nullptr);
+    s["hysteresis_scan"]   = hysteresis.summary;
     s["cell"]              = cell_json;
     s["series_resistance"] = rs_json;
     if (cell_mpp && s["losses"].is_object())
@@ -1090,7 +1109,7 @@ namespace backcomb::simulator
       return it == wall.end() ? 0.0 : it->second;
     };
     json &t = s["timings_s"];
-    for (const char *name : {t_mesh, t_light, t_fields, t_losses, t_dark, t_cell})
+    for (const char *name : {t_mesh, t_light, t_fields, t_losses, t_dark, t_cell, t_ions})
       t[name] = phase(name);
     t["light_start"]        = ramp_seconds;
     t["light_assembly"]     = light_assembly;
@@ -1132,7 +1151,7 @@ namespace backcomb::simulator
       }
     for (const auto &w : plot_warnings)
       std::fprintf(stderr, "backcomb: %s\n", w.c_str());
-    write_file_atomically(o.folder + "/jv.csv", jv_csv(light, dark, width));
+    write_file_atomically(o.folder + "/jv.csv", jv_csv(light, dark, width, hysteresis.columns));
     if (eqe)
       {
         write_file_atomically(o.folder + "/eqe.csv", eqe_csv(*eqe));

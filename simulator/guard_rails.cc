@@ -143,6 +143,36 @@ namespace backcomb::simulator
           if (xc > x0 && xc < x1)
             f.gap_cell_um = std::max(f.gap_cell_um, box.side_length(0));
         }
+
+    const fem::Material &a = c.absorber;
+    if (a.ion_density > 0)
+      {
+        f.ion_debye_um = debye_length_um(a.permittivity, T, a.ion_charge * a.ion_charge * a.ion_density);
+        for (const auto &cell : tria.active_cell_iterators())
+          {
+            if (cell->material_id() != ids::absorber && cell->material_id() != ids::absorber_right)
+              continue;
+            for (unsigned fi = 0; fi < cell->n_faces(); ++fi)
+              {
+                const auto face     = cell->face(fi);
+                const bool contact  = face->at_boundary() && (face->boundary_id() == ids::electron_contact ||
+                                                             face->boundary_id() == ids::hole_contact);
+                const bool interlayer = !face->at_boundary() &&
+                                        (cell->neighbor(fi)->material_id() == ids::electron_interlayer ||
+                                         cell->neighbor(fi)->material_id() == ids::hole_interlayer);
+                if (!contact && !interlayer)
+                  continue;
+                const auto v0 = face->vertex(0), v1 = face->vertex(1);
+                const bool horizontal = std::abs(v1[1] - v0[1]) < std::abs(v1[0] - v0[0]);
+                const auto box        = cell->bounding_box();
+                f.ion_cell_um = std::max(f.ion_cell_um, horizontal ? box.side_length(1) : box.side_length(0));
+              }
+          }
+        const double D      = a.ion_diffusion * 1e8; // um^2/s
+        const double W      = strip ? c.geometry.strip_length_um : c.geometry.gap_um;
+        f.ion_relaxation_s = f.ion_debye_um * f.ion_debye_um / D;
+        f.ion_gap_s        = f.ion_debye_um * W / D;
+      }
     return f;
   }
 
@@ -172,6 +202,30 @@ namespace backcomb::simulator
                   " times shorter than the lateral cell in the gap, " + format("%.3g um", f.gap_cell_um) +
                   ": collection in the gap is not resolved; set Mesh/Largest lateral cell to " +
                   format("%.2g um", diffusion_cell_factor * L) + " or less");
+    if (f.ion_debye_um > 0 && f.ion_cell_um > f.ion_debye_um)
+      w.push_back("Absorber/Mobile ions: the ionic Debye length " + format("%.3g nm", 1e3 * f.ion_debye_um) +
+                  " (N = " + format("%.3g cm^-3", c.absorber.ion_density) +
+                  ") is smaller than the largest first cell normal to a contact or interlayer of the absorber, " +
+                  format("%.3g nm", 1e3 * f.ion_cell_um) +
+                  ": the ion layers there are not resolved; set Mesh/Smallest cell to " +
+                  format("%.2g nm", 1e3 * f.ion_debye_um) + " or less");
+    const auto &h = c.hysteresis;
+    if (h.rate > 0 && f.ion_relaxation_s > 0)
+      {
+        const double scan = (c.jv.stop - c.jv.start) / h.rate, per_step = c.jv.step / h.rate;
+        if (scan < 0.01 * f.ion_relaxation_s)
+          w.push_back("Hysteresis scan/Scan rate: the whole scan (" + format("%.3g s", scan) +
+                      ") is shorter than 1/100 of the ions' relaxation time L_D^2/D = " +
+                      format("%.3g s", f.ion_relaxation_s) +
+                      ": the ions stay frozen where preconditioning left them, and a faster scan gives the same "
+                      "curves; scan more slowly to see the rate dependence");
+        if (per_step > 100 * f.ion_gap_s)
+          w.push_back("Hysteresis scan/Scan rate: one bias step (" + format("%.3g s", per_step) +
+                      ") is longer than 100 times the time the ions need to cross the gap, L_D W/D = " +
+                      format("%.3g s", f.ion_gap_s) +
+                      ": the ions are in their steady state at every bias, and a slower scan gives the same "
+                      "curves; scan faster to see the rate dependence");
+      }
     return w;
   }
 } // namespace backcomb::simulator

@@ -18,6 +18,18 @@
 //      extracted. The shorter of the electron and hole lengths counts. A
 //      lateral cell in the gap wider than diffusion_cell_factor * L cannot
 //      represent how the collected carriers decay towards the gap centre.
+//  (c) With mobile ions, the ionic Debye length L_D = sqrt(eps kT /
+//      (q^2 z^2 N_ion)) against the first cell normal to the absorber's
+//      contacts and interlayer interfaces, where the ions pile up.
+//  (d) With a hysteresis scan, the scan against the ions' time scales:
+//      the dielectric relaxation of the ion gas tau_r = L_D^2 / D and
+//      the time to cross the gap tau_g = L_D W / D (W the gap, or the
+//      strip). A whole scan shorter than tau_r / 100 sees the ions frozen,
+//      a bias step longer than 100 tau_g sees them in their steady state:
+//      the hysteresis is then at one of its limits and the scan rate
+//      cannot be resolved by the time steps (ionic time scales: common
+//      practice for the charging of a diffuse layer, e.g. M. Z. Bazant,
+//      K. Thornton, A. Ajdari, Phys. Rev. E 70 (2004) 021506, from memory).
 #pragma once
 
 #include "simulator/case_file.h"
@@ -60,6 +72,10 @@ namespace backcomb::simulator
     std::vector<Contact> contacts;
     double electron_diffusion_um = 0, hole_diffusion_um = 0;
     double gap_cell_um = 0; // largest lateral cell side of the absorber in the gap
+    // Mobile ions (0 when there are none).
+    double ion_debye_um = 0;
+    double ion_cell_um  = 0;  // largest first cell normal to a contact or interlayer of the absorber
+    double ion_relaxation_s = 0, ion_gap_s = 0;
   };
 
   GuardRailFigures guard_rail_figures(const Case &c, const dealii::Triangulation<2> &tria);

@@ -160,6 +160,9 @@ namespace backcomb::study
       add(t, "dead_zone_fraction", "", &StudyRow::dead_zone_fraction)
         .read({"dead_zone", "area_fraction"})
         .show("dead zone", 3, 3);
+      // A scan with mobile ions (Hysteresis scan section): (Pmax_reverse -
+      // Pmax_forward) / Pmax_reverse, fem/ion_scan.h.
+      add(t, "hysteresis_index", "", &StudyRow::hysteresis_index).read({"hysteresis_scan", "hysteresis_index"});
       add(t, "loss_recombination_mW_per_cm2", "mW/cm^2", &StudyRow::loss_recombination)
         .json_at({loss_json, "recombination"})
         .read({"losses", "points", "max_power", "split", "recombination"})

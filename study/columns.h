@@ -39,7 +39,7 @@ namespace backcomb::study
     // did not produce them. Whole numbers (Newton iterations, step
     // halvings) are held as doubles too, exactly.
     std::optional<double> pitch_um, footprint_width_um, active_width_um, collection_efficiency, Jsc, Voc, FF,
-      PCE, Jsc_active, PCE_active, dead_zone_fraction;
+      PCE, Jsc_active, PCE_active, dead_zone_fraction, hysteresis_index;
     // Power lost at the maximum power point, mW/cm^2 of footprint
     // (summary.json losses): recombination (bulk, surfaces, minority
     // carriers at the combs), Joule heat in the film, majority carriers

@@ -64,6 +64,8 @@ namespace backcomb::study
       "Device/Active area); collection_efficiency = Jsc / (q * generation integrated over the absorber)\n"
       "# dead_zone_fraction: absorber area fraction with collection probability below the "
       "case's threshold (summary.json dead_zone)\n"
+      "# hysteresis_index: (Pmax_reverse - Pmax_forward) / Pmax_reverse of the scan with moving ions "
+      "(summary.json hysteresis_scan; empty without one)\n"
       "# loss_*: power lost at the maximum power point in mW/cm^2 of footprint (losses.csv of the case "
       "has every term): recombination = bulk + surfaces + minority carriers at the combs, film_joule = "
       "Joule heat of both carriers, contacts = majority carriers crossing the combs; electrodes = "

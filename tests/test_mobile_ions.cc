@@ -269,7 +269,7 @@ TEST(MobileIons, ScanRateLimitsAndHysteresisPeak)
   // L_D = 19 nm: ion relaxation L_D^2/D = 3.6 ms, redistribution over
   // the strip about L L_D / D = 0.4 s.
   const DeviceModel d = lateral_cell(1e17, 1e-9);
-  ScanSettings      set;
+  HysteresisSettings      set;
   set.low               = 0.0;
   set.high              = 1.3;
   set.step              = 0.05;
@@ -293,7 +293,7 @@ TEST(MobileIons, ScanRateLimitsAndHysteresisPeak)
   {
     DriftDiffusionSolver s(tria, d, tight());
     ASSERT_TRUE(s.solve_equilibrium().converged);
-    ScanSettings only = set;
+    HysteresisSettings only = set;
     only.directions.clear();
     ASSERT_TRUE(scan_with_ions(s, only).converged);
     for (double V = set.high; V >= -1e-9; V -= set.step)
@@ -308,12 +308,12 @@ TEST(MobileIons, ScanRateLimitsAndHysteresisPeak)
       DriftDiffusionSolver s(tria, d, tight());
       ASSERT_TRUE(s.solve_equilibrium().converged);
       set.rate           = rate;
-      const ScanResult r = scan_with_ions(s, set);
+      const HysteresisScan r = scan_with_ions(s, set);
       ASSERT_TRUE(r.converged) << r.diagnostic;
       index.push_back(r.hysteresis_index);
       double off_steady = 0, off_frozen = 0;
-      for (const ScanCurve &c : r.curves)
-        for (const ScanPoint &p : c.points)
+      for (const HysteresisCurve &c : r.curves)
+        for (const HysteresisPoint &p : c.points)
           {
             // Relative to the larger of |J| and Jsc.
             const double js = steady[std::round(p.voltage / set.step)];
