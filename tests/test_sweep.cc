@@ -500,6 +500,7 @@ TEST(StudyColumns, SummaryJsonFillsEveryColumn)
     "metrics": {"Jsc_mA_per_cm2": 20.5, "Voc_V": 0.75, "FF": 0.8, "PCE_percent": 12.25,
                 "per_active_area": {"Jsc_mA_per_cm2": 27.5, "PCE_percent": 16.5}},
     "dead_zone": {"area_fraction": 0.125},
+    "hysteresis_scan": {"hysteresis_index": 0.375},
     "losses": {"points": {"max_power": {"split": {"recombination": 3.5, "film_joule": 0.5, "contacts": 0.25}}},
                "electrodes_at_cell_max_power": {"fingers": 0.75, "contact_resistance": 0.125}},
     "cell": {"metrics": {"PCE_percent": 11.5}},
@@ -520,6 +521,7 @@ TEST(StudyColumns, SummaryJsonFillsEveryColumn)
   EXPECT_EQ(r.Jsc_active, 27.5);
   EXPECT_EQ(r.PCE_active, 16.5);
   EXPECT_EQ(r.dead_zone_fraction, 0.125);
+  EXPECT_EQ(r.hysteresis_index, 0.375);
   EXPECT_EQ(r.loss_recombination, 3.5);
   EXPECT_EQ(r.loss_film_joule, 0.5);
   EXPECT_EQ(r.loss_contacts, 0.25);
