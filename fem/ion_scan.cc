@@ -127,7 +127,7 @@ namespace backcomb::fem
                 result.largest_dt  = std::max(result.largest_dt, h);
               }
             t += h;
-            const double grow = error > 0 ? std::min(4.0, 0.9 * std::sqrt(settings.tolerance / error)) : 4.0;
+            const double grow = error > 0 ? std::min(2.0, 0.9 * std::sqrt(settings.tolerance / error)) : 2.0;
             dt                = std::max(h * grow, 1e-15);
           }
         return true;

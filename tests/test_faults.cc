@@ -361,6 +361,47 @@ TEST(GuardRails, WarningsNameTheNumbersAndTheEntry)
 }
 
 // The warnings reach summary.json.
+// Mobile ions: the ionic Debye length sqrt(eps kT / (q^2 z^2 N)) (Sze &
+// Ng, Physics of Semiconductor Devices, 3rd ed. 2007) for 1e17 cm^-3 in
+// eps_r 25 at 300 K is 18.899 nm by hand (CODATA constants), the ions'
+// relaxation time L_D^2/D = 3.5717 s and their time to cross the 1 um
+// strip L_D W/D = 188.99 s for D = 1e-12 cm^2/s. The strip's 20 nm cells
+// at the contacts miss the ion layers; a 1e6 V/s scan (1.2 us in all) is
+// far faster than 3.57 s / 100, one 0.1 V step at 1e-6 V/s (1e5 s) far
+// slower than 100 x 189 s, and 1 V/s neither.
+TEST(GuardRails, IonicDebyeLengthAndScanRateLimits)
+{
+  const std::vector<std::string> ions = {"Absorber/Mobile ions/Density=1e17",
+                                         "Absorber/Mobile ions/Diffusion coefficient=1e-12"};
+  {
+    const simulator::Case  c = simulator::read_case(tiny_case, ions);
+    dealii::Triangulation<2> tria;
+    geometry::build_triangulation(c.geometry, c.mesh, tria);
+    const auto f = simulator::guard_rail_figures(c, tria);
+    EXPECT_NEAR(f.ion_debye_um, 18.899e-3, 1e-4 * 18.899e-3);
+    EXPECT_NEAR(f.ion_relaxation_s, 3.5717, 1e-4 * 3.5717);
+    EXPECT_NEAR(f.ion_gap_s, 188.99, 1e-4 * 188.99);
+    EXPECT_NEAR(f.ion_cell_um, 0.020, 1e-9);
+    const auto w = simulator::guard_rail_warnings(c, tria);
+    ASSERT_EQ(w.size(), 1u);
+    EXPECT_TRUE(any_contains(w, "Absorber/Mobile ions: the ionic Debye length 18.9 nm")) << w[0];
+    EXPECT_TRUE(any_contains(w, "set Mesh/Smallest cell to 19 nm or less"));
+  }
+  auto scan = [&](const std::string &rate) {
+    std::vector<std::string> o = ions;
+    o.push_back("Mesh/Smallest cell=10");
+    o.push_back("Hysteresis scan/Scan rate=" + rate);
+    return warnings_of(o);
+  };
+  EXPECT_TRUE(scan("1").empty());
+  const auto fast = scan("1e6"), slow = scan("1e-6");
+  ASSERT_EQ(fast.size(), 1u);
+  EXPECT_TRUE(any_contains(fast, "the whole scan (1.2e-06 s) is shorter than 1/100 of the ions' relaxation time"))
+    << fast[0];
+  ASSERT_EQ(slow.size(), 1u);
+  EXPECT_TRUE(any_contains(slow, "one bias step (1e+05 s) is longer than 100 times")) << slow[0];
+}
+
 TEST(GuardRails, WarningsInSummary)
 {
   const fs::path          dir = fresh_folder("warnings");
