@@ -23,7 +23,23 @@ namespace backcomb::fem
   namespace
   {
     constexpr unsigned c_psi = 0, c_ion = 3;
-  }
+
+    // Component `c` of u at the nq quadrature points of one cell, from its
+    // dpc DoF indices, their components and vertices, and the shape values
+    // phi[q][vertex] (the solver's cell cache).
+    void
+    at_points(const Vector<double> &u, const types::global_dof_index *idx, const unsigned *component,
+              const unsigned *vertex, const unsigned dpc, const double (*phi)[4], const unsigned nq, const unsigned c,
+              double *out)
+    {
+      double nodal[4] = {};
+      for (unsigned i = 0; i < dpc; ++i)
+        if (component[i] == c)
+          nodal[vertex[i]] = u[idx[i]];
+      for (unsigned q = 0; q < nq; ++q)
+        out[q] = nodal[0] * phi[q][0] + nodal[1] * phi[q][1] + nodal[2] * phi[q][2] + nodal[3] * phi[q][3];
+    }
+  } // namespace
 
   std::vector<double>
   DriftDiffusionSolver::ion_density_qp(const Vector<double> &u) const
@@ -40,24 +56,11 @@ namespace backcomb::fem
           continue;
         const std::size_t              ci  = cell->active_cell_index();
         const types::global_dof_index *idx = &cell_cache.dofs[ci * dpc];
-        double                         psi[4] = {}, phic[4] = {};
-        for (unsigned i = 0; i < dpc; ++i)
-          {
-            if (cell_cache.component[i] == c_psi)
-              psi[cell_cache.vertex[i]] = u[idx[i]];
-            else if (cell_cache.component[i] == c_ion)
-              phic[cell_cache.vertex[i]] = u[idx[i]];
-          }
+        double                         psi[64], phic[64];
+        at_points(u, idx, cell_cache.component, cell_cache.vertex, dpc, cell_cache.phi, nq, c_psi, psi);
+        at_points(u, idx, cell_cache.component, cell_cache.vertex, dpc, cell_cache.phi, nq, c_ion, phic);
         for (unsigned q = 0; q < nq; ++q)
-          {
-            double a = 0, b = 0;
-            for (unsigned k = 0; k < 4; ++k)
-              {
-                a += psi[k] * cell_cache.phi[q][k];
-                b += phic[k] * cell_cache.phi[q][k];
-              }
-            c[ci * nq + q] = r.ion_density * std::exp(r.ion_z * (b - a));
-          }
+          c[ci * nq + q] = r.ion_density * std::exp(r.ion_z * (phic[q] - psi[q]));
       }
     return c;
   }
@@ -106,15 +109,13 @@ namespace backcomb::fem
         const ScaledRegion &r = device.region(cell->material_id());
         if (!cell->is_locally_owned() || r.ion_density <= 0)
           continue;
-        const std::size_t              ci  = cell->active_cell_index();
-        const types::global_dof_index *idx = &cell_cache.dofs[ci * dpc];
+        const std::size_t ci = cell->active_cell_index();
+        double            psi[64];
+        at_points(u, &cell_cache.dofs[ci * dpc], cell_cache.component, cell_cache.vertex, dpc, cell_cache.phi, nq,
+                  c_psi, psi);
         for (unsigned q = 0; q < nq; ++q)
           {
-            double psi = 0;
-            for (unsigned i = 0; i < dpc; ++i)
-              if (cell_cache.component[i] == c_psi)
-                psi += u[idx[i]] * cell_cache.phi[q][cell_cache.vertex[i]];
-            terms.emplace_back(-z * psi + std::log(r.ion_density * device.scaling.N0),
+            terms.emplace_back(-z * psi[q] + std::log(r.ion_density * device.scaling.N0),
                                cell_cache.jxw[ci * nq + q]);
             top = std::max(top, terms.back().first);
           }

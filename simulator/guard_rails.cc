@@ -82,6 +82,22 @@ namespace backcomb::simulator
     return {1 / rate_n, 1 / rate_p};
   }
 
+  IonicScales
+  ionic_scales(const Case &c)
+  {
+    const fem::Material &a = c.absorber;
+    IonicScales          s;
+    if (!(a.ion_density > 0))
+      return s;
+    const bool   strip = c.geometry.layout == geometry::GeometryParameters::Layout::test_strip;
+    const double D     = a.ion_diffusion * 1e8; // um^2/s
+    const double W     = strip ? c.geometry.strip_length_um : c.geometry.gap_um;
+    s.debye_um         = debye_length_um(a.permittivity, c.device.temperature, a.ion_charge * a.ion_charge * a.ion_density);
+    s.relaxation_s     = s.debye_um * s.debye_um / D;
+    s.gap_s            = s.debye_um * W / D;
+    return s;
+  }
+
   GuardRailFigures
   guard_rail_figures(const Case &c, const dealii::Triangulation<2> &tria)
   {
@@ -144,10 +160,11 @@ namespace backcomb::simulator
             f.gap_cell_um = std::max(f.gap_cell_um, box.side_length(0));
         }
 
-    const fem::Material &a = c.absorber;
-    if (a.ion_density > 0)
+    if (const IonicScales ions = ionic_scales(c); ions.debye_um > 0)
       {
-        f.ion_debye_um = debye_length_um(a.permittivity, T, a.ion_charge * a.ion_charge * a.ion_density);
+        f.ion_debye_um     = ions.debye_um;
+        f.ion_relaxation_s = ions.relaxation_s;
+        f.ion_gap_s        = ions.gap_s;
         for (const auto &cell : tria.active_cell_iterators())
           {
             if (cell->material_id() != ids::absorber && cell->material_id() != ids::absorber_right)
@@ -168,10 +185,6 @@ namespace backcomb::simulator
                 f.ion_cell_um = std::max(f.ion_cell_um, horizontal ? box.side_length(1) : box.side_length(0));
               }
           }
-        const double D      = a.ion_diffusion * 1e8; // um^2/s
-        const double W      = strip ? c.geometry.strip_length_um : c.geometry.gap_um;
-        f.ion_relaxation_s = f.ion_debye_um * f.ion_debye_um / D;
-        f.ion_gap_s        = f.ion_debye_um * W / D;
       }
     return f;
   }

@@ -58,6 +58,14 @@ namespace backcomb::simulator
   // a material (s) at `temperature` (K), as described above.
   std::pair<double, double> minority_lifetimes(const fem::Material &m, double temperature = 300.0);
 
+  // The ionic length and time scales of (d) for a case with mobile ions
+  // (all 0 without): L_D, L_D^2/D and L_D W/D.
+  struct IonicScales
+  {
+    double debye_um = 0, relaxation_s = 0, gap_s = 0;
+  };
+  IonicScales ionic_scales(const Case &c);
+
   // The figures behind the warnings.
   struct GuardRailFigures
   {

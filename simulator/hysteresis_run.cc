@@ -17,19 +17,6 @@ namespace backcomb::simulator
 
   namespace
   {
-    json
-    curve_metrics_json(const fem::JVMetrics &m, const double input_power)
-    {
-      if (!m.valid)
-        return nullptr;
-      return {{"Jsc_mA_per_cm2", m.Jsc},
-              {"Voc_V", m.Voc},
-              {"FF", m.FF},
-              {"Pmax_mW_per_cm2", m.Pmax},
-              {"Vmp_V", m.Vmp},
-              {"PCE_percent", input_power > 0 ? json(100 * m.Pmax / input_power) : json(nullptr)}};
-    }
-
     std::vector<std::string>
     directions_of(const std::string &text)
     {
@@ -40,18 +27,6 @@ namespace backcomb::simulator
       return {text};
     }
 
-    // Ionic time scales of the case (simulator/guard_rails.h (d)).
-    std::pair<double, double>
-    ionic_times(const Case &c)
-    {
-      const double L_D = debye_length_um(c.absorber.permittivity, c.device.temperature,
-                                         c.absorber.ion_charge * c.absorber.ion_charge * c.absorber.ion_density);
-      const double D   = c.absorber.ion_diffusion * 1e8; // um^2/s
-      const double W   = c.geometry.layout == geometry::GeometryParameters::Layout::test_strip
-                           ? c.geometry.strip_length_um
-                           : c.geometry.gap_um;
-      return {L_D * L_D / D, L_D * W / D};
-    }
   } // namespace
 
   json
@@ -59,15 +34,14 @@ namespace backcomb::simulator
   {
     if (!solver.has_ions())
       return nullptr;
-    const auto &a            = c.absorber;
-    const auto [relax, gap]  = ionic_times(c);
+    const auto       &a    = c.absorber;
+    const IonicScales ions = ionic_scales(c);
     return {{"density_per_cm3", a.ion_density},
             {"charge_number", a.ion_charge},
             {"diffusion_coefficient_cm2_per_s", a.ion_diffusion},
-            {"debye_length_nm",
-             1e3 * debye_length_um(a.permittivity, c.device.temperature, a.ion_charge * a.ion_charge * a.ion_density)},
-            {"relaxation_time_s", relax},
-            {"gap_crossing_time_s", gap},
+            {"debye_length_nm", 1e3 * ions.debye_um},
+            {"relaxation_time_s", ions.relaxation_s},
+            {"gap_crossing_time_s", ions.gap_s},
             {"mean_density_of_state_per_cm3", solver.mean_ion_density()},
             {"model", "steady state at every bias of the J-V, collection map and losses (zero ionic current, "
                       "fixed number); see hysteresis_scan for a scan at a finite rate"}};
@@ -146,8 +120,8 @@ namespace backcomb::simulator
     if (write_fields && !listed.empty() && dealii::Utilities::MPI::this_mpi_process(solver.communicator()) == 0)
       postprocess::write_pvd(folder + "/ions.pvd", listed);
 
-    const auto [relax, gap] = ionic_times(c);
-    json curves             = json::array();
+    const IonicScales ions   = ionic_scales(c);
+    json              curves = json::array();
     for (const auto &curve : r.curves)
       {
         json points = json::array();
@@ -158,7 +132,10 @@ namespace backcomb::simulator
             column.emplace_back(p.voltage, p.current);
           }
         curves.push_back({{"direction", curve.direction},
-                          {"metrics", curve_metrics_json(curve.metrics, 100.0 * c.illumination.intensity_suns)},
+                          {"metrics", curve.metrics.valid
+                                        ? postprocess::metrics_json(curve.metrics, curve.metrics.Jsc, std::nullopt,
+                                                                    100.0 * c.illumination.intensity_suns)
+                                        : json(nullptr)},
                           {"points", points}});
         out.columns.push_back({"J_" + curve.direction + "_scan_mA_per_cm2", column});
       }
@@ -178,8 +155,8 @@ namespace backcomb::simulator
       {"smallest_step_s", r.smallest_dt},
       {"largest_step_s", r.largest_dt},
       {"ion_number_drift", r.ion_number_drift},
-      {"ion_relaxation_time_s", relax},
-      {"ion_gap_crossing_time_s", gap},
+      {"ion_relaxation_time_s", ions.relaxation_s},
+      {"ion_gap_crossing_time_s", ions.gap_s},
       {"snapshots", snapshots},
       {"snapshot_collection", listed.empty() ? json(nullptr) : json("ions.pvd")},
       {"model", "ions move by drift and diffusion (BDF2 time steps); electrons and holes in their steady state at "
