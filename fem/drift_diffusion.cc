@@ -375,7 +375,8 @@ namespace backcomb::fem
     double a[4][4][4][4];
     if (Aptr)
       std::fill(&a[0][0][0][0], &a[0][0][0][0] + 256, 0.0);
-    const bool ions = r.ion_density > 0;
+    const bool ions    = r.ion_density > 0;
+    const bool storage = transient && ion_step > 0; // a time step, not an instantaneous change
     for (unsigned q = 0; q < nq; ++q)
       {
         const double *phi = cell_cache.phi[q];
@@ -416,6 +417,11 @@ namespace backcomb::fem
         const double hist    = ions && transient ? ion_history_qp[ci * nq + q] : 0.0;
         const double jc_coef = r.ion_mu * z * cion;
         const double charge  = p - n + r.doping + fixed + (ions ? z * (cion - Nion) : 0.0);
+        // Storage of electrons and holes in a time step: dn/dt = (beta n -
+        // hist) / dt; it enters the continuity rows beside R - G.
+        const double sn = storage ? (ion_beta * n - electron_history_qp[ci * nq + q]) / ion_step : 0.0;
+        const double sp = storage ? (ion_beta * p - hole_history_qp[ci * nq + q]) / ion_step : 0.0;
+        const double bn = storage ? ion_beta / ion_step * n : 0.0, bp = storage ? ion_beta / ion_step * p : 0.0;
         for (unsigned i = 0; i < 4; ++i)
           {
             const double vi = phi[i] * dx, gi0 = gq[2 * i] * dx, gi1 = gq[2 * i + 1] * dx;
@@ -423,8 +429,8 @@ namespace backcomb::fem
             const double gn   = g[c_phin][0] * gi0 + g[c_phin][1] * gi1;
             const double gp   = g[c_phip][0] * gi0 + g[c_phip][1] * gi1;
             f[c_psi][i] += r.eps * gpsi - charge * vi;
-            f[c_phin][i] += jn_coef * gn - (k.R - G) * vi;
-            f[c_phip][i] += jp_coef * gp + (k.R - G) * vi;
+            f[c_phin][i] += jn_coef * gn - (k.R - G + sn) * vi;
+            f[c_phip][i] += jp_coef * gp + (k.R - G + sp) * vi;
             const double gc = ions ? g[c_ion][0] * gi0 + g[c_ion][1] * gi1 : 0.0;
             if (ions)
               f[c_ion][i] += transient ? (ion_beta * cion - hist) * vi + ion_step * jc_coef * gc
@@ -445,6 +451,14 @@ namespace backcomb::fem
                 a[c_phip][i][c_psi][j] += -jp_coef * wj * gp + dR[0] * M;
                 a[c_phip][i][c_phin][j] += dR[1] * M;
                 a[c_phip][i][c_phip][j] += jp_coef * wj * gp + jp_coef * K + dR[2] * M;
+                if (storage)
+                  {
+                    // dn/dpsi = n, dn/dphi_n = -n, dp/dpsi = -p, dp/dphi_p = p.
+                    a[c_phin][i][c_psi][j] -= bn * M;
+                    a[c_phin][i][c_phin][j] += bn * M;
+                    a[c_phip][i][c_psi][j] -= bp * M;
+                    a[c_phip][i][c_phip][j] += bp * M;
+                  }
                 if (!ions)
                   continue;
                 // dc/dpsi = -z c, dc/dphi_c = z c.
@@ -1004,6 +1018,9 @@ namespace backcomb::fem
     solution     = u;
     bias         = voltage;
     light_factor = light;
+    // In a transient the time step that led to u is not known here: the
+    // next solve is a new step or an instantaneous change.
+    ion_step = 0;
     // A stored state was converged with the generation it re-emits.
     if (recycling)
       set_recycled(outer_part(u));
@@ -1029,6 +1046,15 @@ namespace backcomb::fem
     t.hole                      = -sum(hole_contact_dofs[c_phip]) * J0;
     t.electron_contact_electron = sum(electron_contact_dofs[c_phin]) * J0;
     t.electron_contact_hole     = sum(electron_contact_dofs[c_phip]) * J0;
+    if (transient && ion_step > 0)
+      {
+        // Displacement current out of the film into each contact, minus the
+        // rate of change of the Poisson rows' sum there (BDF, as the storage
+        // terms): exactly what makes the total current the same at both.
+        t.displacement = -(ion_beta * sum(hole_contact_dofs[c_psi]) - field_flux_history[0]) / ion_step * J0;
+        t.electron_contact_displacement =
+          (ion_beta * sum(electron_contact_dofs[c_psi]) - field_flux_history[1]) / ion_step * J0;
+      }
     return t;
   }
 

@@ -27,6 +27,7 @@
 #include <mpi.h>
 #include <petscksp.h>
 
+#include <array>
 #include <functional>
 #include <map>
 #include <memory>
@@ -58,11 +59,17 @@ namespace backcomb::fem
   {
     double electron = 0; // J_n part through the hole contact
     double hole     = 0; // J_p part
-    double total() const { return electron + hole; }
-    // The same through the electron contact, sign flipped so that in steady
-    // state electron_contact_electron + electron_contact_hole = total().
-    double electron_contact_electron = 0;
-    double electron_contact_hole     = 0;
+    // Displacement current d(eps E.n)/dt into the hole contact during a time
+    // step of a transient (0 in a steady state and after an instantaneous
+    // change, whose displacement current is a pulse of zero duration).
+    double displacement = 0;
+    double total() const { return electron + hole + displacement; }
+    // The same through the electron contact, sign flipped so that
+    // electron_contact_electron + electron_contact_hole +
+    // electron_contact_displacement = total() (total current is conserved).
+    double electron_contact_electron     = 0;
+    double electron_contact_hole         = 0;
+    double electron_contact_displacement = 0;
   };
 
   // Free-energy balance of one operating point (R. Brendel,
@@ -162,9 +169,10 @@ namespace backcomb::fem
     // self-consistent potential: zero ionic current (phi_c uniform over
     // the region) and their number fixed (the mean density is N_ion). In
     // a transient (begin_transient()) they follow time instead: each
-    // solve_time_step() is one implicit step of the ion continuity
-    // equation, with electrons and holes in their steady state at every
-    // instant (they relax in microseconds, the ions in seconds). A plain
+    // solve_time_step() is one implicit step of the continuity equations
+    // of all three species (ions, electrons, holes: their storage terms
+    // dc/dt, dn/dt, dp/dt), and the terminal current includes the
+    // displacement current at the contacts. A plain
     // solve() in a transient is an instantaneous change of bias or light:
     // the ions keep the distribution they had at the end of the last time
     // step (or at begin_transient()), in the L2 sense of the Q1 functions.
@@ -318,6 +326,14 @@ namespace backcomb::fem
     // The ion density (scaled) at each quadrature point of the owned ion
     // cells for state u (0 elsewhere).
     std::vector<double> ion_density_qp(const dealii::Vector<double> &u) const;
+    // Electron and hole densities (scaled) at each quadrature point of the
+    // owned cells for state u.
+    void carrier_density_qp(const dealii::Vector<double> &u, std::vector<double> &n,
+                            std::vector<double> &p) const;
+    // The electric flux into the hole and the electron contact, the sums of
+    // the Poisson rows of the residual over each contact's nodes (scaled,
+    // per unit length; its rate of change is the displacement current).
+    std::array<double, 2> contact_field_flux(const dealii::Vector<double> &u) const;
     // Sets phi_c uniform over the ion region such that the ion number
     // (ion_number()) of u is `number`, psi as it is.
     void uniform_ion_potential(dealii::Vector<double> &u, double number) const;
@@ -364,6 +380,10 @@ namespace backcomb::fem
     double                           ion_beta = 1, ion_step = 0;
     double                           ion_scale = 1; // of the ion density (equilibrium continuation)
     std::vector<double>              ion_history_qp, frozen_ions_qp;
+    // The same history parts for the electron and hole densities, and for
+    // the electric flux into the two contacts (contact_field_flux()).
+    std::vector<double>              electron_history_qp, hole_history_qp;
+    std::array<double, 2>            field_flux_history = {{0, 0}};
     mutable dealii::PETScWrappers::MPI::SparseMatrix jacobian;
     mutable dealii::PETScWrappers::MPI::Vector       rhs;
     mutable dealii::PETScWrappers::MPI::Vector       row_scale; // of the factorised Jacobian

@@ -1,6 +1,7 @@
 // Mobile ions in the drift-diffusion solver: their density at the
 // quadrature points, their number, and the implicit time steps of a
-// transient (the assembly of their equations is in drift_diffusion.cc).
+// transient of all three species, ions, electrons and holes (the assembly
+// of their equations is in drift_diffusion.cc).
 //
 // Discrete conservation: the ion rows are tested with the Q1 functions of
 // the ion region, which sum to 1 there, and the flux term of each cell sums
@@ -13,6 +14,7 @@
 
 #include <deal.II/base/mpi.h>
 
+#include <array>
 #include <cmath>
 #include <stdexcept>
 
@@ -22,7 +24,7 @@ namespace backcomb::fem
 
   namespace
   {
-    constexpr unsigned c_psi = 0, c_ion = 3;
+    constexpr unsigned c_psi = 0, c_phin = 1, c_phip = 2, c_ion = 3;
 
     // Component `c` of u at the nq quadrature points of one cell, from its
     // dpc DoF indices, their components and vertices, and the shape values
@@ -63,6 +65,47 @@ namespace backcomb::fem
           c[ci * nq + q] = r.ion_density * std::exp(r.ion_z * (phic[q] - psi[q]));
       }
     return c;
+  }
+
+  void
+  DriftDiffusionSolver::carrier_density_qp(const Vector<double> &u, std::vector<double> &n,
+                                           std::vector<double> &p) const
+  {
+    const unsigned nq  = cell_quadrature.size();
+    const unsigned dpc = fe.n_dofs_per_cell();
+    n.assign(tria.n_active_cells() * nq, 0.0);
+    p.assign(n.size(), 0.0);
+    for (const auto &cell : dofs.active_cell_iterators())
+      {
+        if (!cell->is_locally_owned())
+          continue;
+        const ScaledRegion            &r   = device.region(cell->material_id());
+        const std::size_t              ci  = cell->active_cell_index();
+        const types::global_dof_index *idx = &cell_cache.dofs[ci * dpc];
+        double                         psi[64], phin[64], phip[64];
+        at_points(u, idx, cell_cache.component, cell_cache.vertex, dpc, cell_cache.phi, nq, c_psi, psi);
+        at_points(u, idx, cell_cache.component, cell_cache.vertex, dpc, cell_cache.phi, nq, c_phin, phin);
+        at_points(u, idx, cell_cache.component, cell_cache.vertex, dpc, cell_cache.phi, nq, c_phip, phip);
+        for (unsigned q = 0; q < nq; ++q)
+          {
+            n[ci * nq + q] = std::exp(psi[q] - phin[q] + r.a_n);
+            p[ci * nq + q] = std::exp(phip[q] - psi[q] + r.a_p);
+          }
+      }
+  }
+
+  std::array<double, 2>
+  DriftDiffusionSolver::contact_field_flux(const Vector<double> &u) const
+  {
+    Vector<double> r;
+    assemble_residual(u, light_factor, r);
+    auto sum = [&](const std::vector<types::global_dof_index> &d) {
+      double s = 0;
+      for (const auto i : d)
+        s += r[i];
+      return Utilities::MPI::sum(s, comm);
+    };
+    return {sum(hole_contact_dofs[c_psi]), sum(electron_contact_dofs[c_psi])};
   }
 
   double
@@ -144,6 +187,7 @@ namespace backcomb::fem
     if (!has_ions())
       throw std::logic_error("a transient needs mobile ions");
     transient      = true;
+    ion_step       = 0;
     history        = TransientHistory();
     frozen_ions_qp = ion_density_qp(solution);
     factors_valid  = false; // the steady mode's matrix is condensed differently
@@ -155,6 +199,7 @@ namespace backcomb::fem
     if (!transient)
       return;
     transient     = false;
+    ion_step      = 0;
     history       = TransientHistory();
     factors_valid = false;
     // A start for the steady state with the same number of ions.
@@ -187,23 +232,38 @@ namespace backcomb::fem
     //   (1+2w)/(1+w) c^{n+1} - (1+w) c^n + w^2/(1+w) c^{n-1} = dt dc/dt;
     // BDF1 (implicit Euler) for the first step. The history coefficients
     // sum to the leading one, so a uniform c is a solution and the ion
-    // number is kept.
-    ion_step                     = dt / device.scaling.t0;
-    const std::vector<double> cn = ion_density_qp(solution);
+    // number is kept. The same for n, p and the electric flux into the
+    // contacts (the displacement current).
+    ion_step = 0; // no storage terms while the history is formed
+    std::vector<double> cn = ion_density_qp(solution), nn, pn;
+    ion_history_qp         = cn; // read by the ion rows of contact_field_flux()'s assembly
+    carrier_density_qp(solution, nn, pn);
+    std::array<double, 2> flux = contact_field_flux(solution);
     if (history.previous_dt <= 0)
-      {
-        ion_beta       = 1;
-        ion_history_qp = cn;
-      }
+      ion_beta = 1;
     else
       {
-        const double              w    = dt / history.previous_dt;
-        const std::vector<double> cnm1 = ion_density_qp(history.previous);
-        ion_beta                       = (1 + 2 * w) / (1 + w);
-        ion_history_qp.assign(cn.size(), 0.0);
+        const double w  = dt / history.previous_dt;
+        const double h0 = 1 + w, h1 = w * w / (1 + w);
+        ion_beta        = (1 + 2 * w) / (1 + w);
+        std::vector<double> nm1, pm1;
+        const std::vector<double> cm1 = ion_density_qp(history.previous);
+        carrier_density_qp(history.previous, nm1, pm1);
+        const std::array<double, 2> flux_m1 = contact_field_flux(history.previous);
         for (std::size_t k = 0; k < cn.size(); ++k)
-          ion_history_qp[k] = (1 + w) * cn[k] - w * w / (1 + w) * cnm1[k];
+          {
+            cn[k] = h0 * cn[k] - h1 * cm1[k];
+            nn[k] = h0 * nn[k] - h1 * nm1[k];
+            pn[k] = h0 * pn[k] - h1 * pm1[k];
+          }
+        for (unsigned k = 0; k < 2; ++k)
+          flux[k] = h0 * flux[k] - h1 * flux_m1[k];
       }
+    ion_history_qp      = std::move(cn);
+    electron_history_qp = std::move(nn);
+    hole_history_qp     = std::move(pn);
+    field_flux_history  = flux;
+    ion_step            = dt / device.scaling.t0;
     const Vector<double> before = solution;
     // A fresh Jacobian at the start of every step: the factorisation of the
     // last step belongs to another step length, and chord steps with it

@@ -261,20 +261,27 @@ TEST(MobileIons, TransientConservesTheIonNumber)
 // fastest gives the J-V with the ions frozen where preconditioning left
 // them, each within 0.5 % at every bias (of |J| there, or of Jsc where
 // |J| is smaller); the hysteresis index
-// vanishes at both ends and peaks between them.
+// vanishes at both ends and peaks between them. "Much faster than the
+// ions" stays much slower than the carriers: their storage changes the
+// current by about tau_carrier r / (2 kT/q), 2e-4 at the fastest rate.
+// At every recorded point of every scan the total current (conduction
+// plus displacement) is the same at both contacts (Maxwell-Ampere, as in
+// the capacitance test below): a check that fails if the storage of
+// electrons and holes or the displacement current were left out.
+
 TEST(MobileIons, ScanRateLimitsAndHysteresisPeak)
 {
   dealii::Triangulation<2> tria;
   test_support::make_strip(tria, 2.0, 0.4, 0.0, 0.002, 1.25, 0.1);
-  // L_D = 19 nm: ion relaxation L_D^2/D = 3.6 ms, redistribution over
-  // the strip about L L_D / D = 0.4 s.
-  const DeviceModel d = lateral_cell(1e17, 1e-9);
+  // L_D = 19 nm: ion relaxation L_D^2/D = 0.36 s, redistribution over
+  // the strip about L L_D / D = 40 s.
+  const DeviceModel d = lateral_cell(1e17, 1e-11);
   HysteresisSettings      set;
   set.low               = 0.0;
   set.high              = 1.3;
   set.step              = 0.05;
   set.precondition_bias = 1.3;
-  set.precondition_time = 100;
+  set.precondition_time = 1000;
 
   // Steady-state J-V.
   std::map<double, double> steady;
@@ -302,13 +309,19 @@ TEST(MobileIons, ScanRateLimitsAndHysteresisPeak)
         frozen[std::round(V / set.step)] = s.terminal_current().total();
       }
   }
-  std::vector<double> rates = {1e-4, 1e-2, 1, 1e2, 1e4}, index;
+  std::vector<double> rates = {1e-6, 1e-4, 1e-2, 1, 1e2}, index;
   for (const double rate : rates)
     {
       DriftDiffusionSolver s(tria, d, tight());
       ASSERT_TRUE(s.solve_equilibrium().converged);
-      set.rate           = rate;
-      const HysteresisScan r = scan_with_ions(s, set);
+      set.rate = rate;
+      double kirchhoff = 0, displacement = 0;
+      const HysteresisScan r = scan_with_ions(s, set, [&](const std::string &, const HysteresisPoint &) {
+        const TerminalCurrent j = s.terminal_current();
+        kirchhoff = std::max(kirchhoff, std::abs(j.electron_contact_electron + j.electron_contact_hole +
+                                                 j.electron_contact_displacement - j.total()) / jsc);
+        displacement = std::max(displacement, std::abs(j.displacement) / jsc);
+      });
       ASSERT_TRUE(r.converged) << r.diagnostic;
       index.push_back(r.hysteresis_index);
       double off_steady = 0, off_frozen = 0;
@@ -326,9 +339,12 @@ TEST(MobileIons, ScanRateLimitsAndHysteresisPeak)
           }
       std::printf("rate %8.0e V/s: Pmax reverse %.4f forward %.4f mW/cm2, hysteresis index %+.4f; "
                   "%u steps (%u rejected), dt %.2e..%.2e s; largest |J - J_steady| %.2e, reverse |J - J_frozen| "
-                  "%.2e (of max(|J|, Jsc)); ion number drift %.1e\n",
+                  "%.2e (of max(|J|, Jsc)); ion number drift %.1e; largest displacement current %.1e of Jsc, "
+                  "largest difference of the total current at the two contacts %.1e of Jsc\n",
                   rate, r.curves[0].metrics.Pmax, r.curves[1].metrics.Pmax, r.hysteresis_index, r.time_steps,
-                  r.rejected, r.smallest_dt, r.largest_dt, off_steady, off_frozen, r.ion_number_drift);
+                  r.rejected, r.smallest_dt, r.largest_dt, off_steady, off_frozen, r.ion_number_drift, displacement,
+                  kirchhoff);
+      EXPECT_LT(kirchhoff, 1e-7);
       if (rate == rates.front())
         EXPECT_LT(off_steady, 5e-3);
       if (rate == rates.back())
@@ -340,4 +356,93 @@ TEST(MobileIons, ScanRateLimitsAndHysteresisPeak)
   EXPECT_LT(std::abs(index.front()), 0.1 * std::abs(peak));
   EXPECT_LT(std::abs(index.back()), 0.1 * std::abs(peak));
   EXPECT_GT(std::abs(peak), 0.01);
+}
+
+// Displacement current, and the three species' storage in a time step: a
+// blocking cell of mobile ions (no electrons or holes) under a slow bias
+// ramp V = r t draws the current C r of its capacitance. Before the ions
+// move (t much shorter than their relaxation L_D^2/D) that is the
+// geometric capacitance eps/L; long after the cell's charging time
+// (about L L_D / (2 D)) it is the static capacitance of the two diffuse
+// layers in series, from the Debye-Hueckel solution above:
+//   C = eps coth(L / (2 L_D)) / (2 L_D)
+// (dQ/dV of the surface field; Bard & Faulkner, Sec. 13.3, whose diffuse-
+// layer capacitance eps/L_D per electrode in the linear limit this is for
+// two electrodes; from memory). The total current -- conduction plus
+// displacement -- is the same through both contacts at every step
+// (Maxwell-Ampere: div (J + dD/dt) = 0), which the discrete equations keep
+// up to the Newton tolerance.
+TEST(MobileIons, DisplacementCurrentChargesTheIonicCapacitance)
+{
+  const double N = 1e17, L = 1.0, t = 0.1, D = 1e-10, LD = debye_length_um(25.0, N);
+  Material     m;
+  m.band_gap      = 5.0;
+  m.ion_density   = N;
+  m.ion_charge    = 1;
+  m.ion_diffusion = D;
+  m.permittivity  = 25.0;
+  ContactParameters c;
+  c.model         = "ohmic";
+  c.work_function = m.electron_affinity + 0.5 * m.band_gap;
+  const DeviceModel d(300, {{ids::absorber, m}}, {ids::absorber}, c, c, SurfaceParameters(), SurfaceParameters(),
+                      [](double, double) { return 0.0; });
+  dealii::Triangulation<2> tria;
+  test_support::make_strip(tria, L, t, 0.0, 0.0005, 1.1, 0.02);
+  const double eps         = 25.0 * constants::eps0 * 1e-2;       // F/cm
+  const double tau_r       = std::pow(LD * 1e-4, 2) / D;          // s
+  const double tau_cell    = 0.5 * L / LD * tau_r;                // s
+  const double C_geometric = eps / (L * 1e-4);                    // F/cm^2
+  const double C_static    = eps / (2 * LD * 1e-4) / std::tanh(0.5 * L / LD);
+
+  // A ramp from equilibrium that reaches 1e-3 kT/q (linear response, and
+  // potentials far above the Newton tolerance) at t_end, in steps from dt0
+  // growing by 1.5 up to dt_max: the current at the end over C r, with C
+  // the capacitance per area as mA/cm^2 of the strip's width (C t/L per
+  // unit length over the width L), and the largest relative difference of
+  // the total current at the two contacts over the last 90 % of the ramp.
+  struct Ramp
+  {
+    double current_over_C_r, kirchhoff;
+    unsigned steps;
+  };
+  auto ramp = [&](const double t_end, double dt, const double dt_max, const double C) {
+    DriftDiffusionSolver s(tria, d, tight());
+    EXPECT_TRUE(s.solve_equilibrium().converged);
+    s.begin_transient();
+    const double rate = 1e-3 * Vt / t_end;
+    Ramp         out{0, 0, 0};
+    double       time = 0;
+    while (time < t_end * (1 - 1e-9))
+      {
+        dt = std::min(dt, t_end - time);
+        EXPECT_TRUE(s.solve_time_step(rate * (time + dt), 0.0, dt).converged) << "t = " << time + dt;
+        time += dt;
+        ++out.steps;
+        const TerminalCurrent j     = s.terminal_current();
+        const double          je    = j.electron_contact_electron + j.electron_contact_hole + j.electron_contact_displacement;
+        const double          scale = 1e3 * C * rate * t / L;
+        if (time > 0.1 * t_end) // where the potentials are well above the Newton tolerance
+          out.kirchhoff = std::max(out.kirchhoff, std::abs(je - j.total()) / scale);
+        // Generator convention: charging draws current into the positive
+        // (hole) contact.
+        out.current_over_C_r = -j.total() / scale;
+        dt                   = std::min(1.5 * dt, dt_max);
+      }
+    return out;
+  };
+  const Ramp early = ramp(5e-4 * tau_r, 1e-5 * tau_r, 1.0, C_geometric);
+  const Ramp late  = ramp(20 * tau_cell, 1e-4 * tau_r, tau_cell / 20, C_static);
+  std::printf("L_D %.3f nm, tau_r = L_D^2/D %.3e s, charging time L L_D/(2D) %.3e s, C_static/C_geometric %.2f\n"
+              "at t = 5e-4 tau_r (%u steps): current / (C_geometric r) = %.7f (first order 1.0005000); largest relative difference of the "
+              "total current at the two contacts %.1e\n"
+              "at t = 20 charging times (%u steps): current / (C_static r) = %.6f; largest difference %.1e\n",
+              1e3 * LD, tau_r, tau_cell, C_static / C_geometric, early.steps, early.current_over_C_r, early.kirchhoff,
+              late.steps, late.current_over_C_r, late.kirchhoff);
+  // Early, the ions' ohmic current sigma V/L (sigma = eps/tau_r) piles
+  // charge at the electrodes as well: C_geometric r (1 + t/tau_r) to
+  // first order in t/tau_r.
+  EXPECT_NEAR(early.current_over_C_r, 1.0 + 5e-4, 5e-5);
+  EXPECT_NEAR(late.current_over_C_r, 1.0, 1e-2);
+  EXPECT_LT(early.kirchhoff, 1e-5);
+  EXPECT_LT(late.kirchhoff, 1e-5);
 }
