@@ -202,6 +202,7 @@ namespace backcomb::fem
     // Mobile ions: the ion DoFs of cells without ions take no part (their
     // update is 0); in the steady state the others are tied to the first.
     std::vector<types::global_dof_index> ion_dofs;
+    ion_nodes_.clear();
     if (n_components == 4)
       {
         std::vector<bool> in_ion_cell(dofs.n_dofs(), false), ion_component(dofs.n_dofs(), false);
@@ -213,6 +214,12 @@ namespace backcomb::fem
             for (unsigned i = 0; i < idx.size(); ++i)
               if (fe.system_to_component_index(i).first == c_ion)
                 {
+                  if (ions && !in_ion_cell[idx[i]])
+                    {
+                      const unsigned v = fe.system_to_component_index(i).second;
+                      ion_nodes_.push_back({idx[i], idx[fe.component_to_system_index(c_psi, v)],
+                                            device.region(cell->material_id()).ion_z});
+                    }
                   ion_component[idx[i]] = true;
                   in_ion_cell[idx[i]]   = in_ion_cell[idx[i]] || ions;
                 }

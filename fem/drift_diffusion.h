@@ -28,6 +28,7 @@
 #include <petscksp.h>
 
 #include <array>
+#include <cmath>
 #include <functional>
 #include <map>
 #include <memory>
@@ -205,6 +206,22 @@ namespace backcomb::fem
     // length along the fingers), and its mean density in cm^-3, both with
     // the quadrature of the assembly (in which the number is conserved).
     double ion_number(const dealii::Vector<double> &u) const;
+    // Each node of the ion region once: its phi_c and psi DoFs and the
+    // ions' charge number there.
+    struct IonNode
+    {
+      dealii::types::global_dof_index ion, psi;
+      double                          z;
+    };
+    const std::vector<IonNode> &ion_nodes() const { return ion_nodes_; }
+    // c / (c + N_ion) at a node of state u, the logistic function of
+    // ln(c / N_ion) = z (phi_c - psi): 1 where the ions pile up, their
+    // density over N_ion where they are depleted.
+    static double ion_weight(const dealii::Vector<double> &u, const IonNode &k)
+    {
+      const double x = k.z * (u[k.ion] - u[k.psi]);
+      return x > 0 ? 1 / (1 + std::exp(-x)) : std::exp(x) / (1 + std::exp(x));
+    }
     double mean_ion_density() const;
 
     TerminalCurrent terminal_current() const;
@@ -370,6 +387,7 @@ namespace backcomb::fem
     // number, int (c - N_ion) = 0 (no ions: the same as zero_constraints).
     dealii::AffineConstraints<double> steady_constraints;
     std::size_t                      ion_region_dofs = 0;
+    std::vector<IonNode>             ion_nodes_;
     bool                             transient = false;
     TransientHistory                 history;
     // The time step being solved, as beta c - hist + dt div F = 0 for the

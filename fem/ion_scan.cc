@@ -12,25 +12,6 @@ namespace backcomb::fem
 {
   namespace
   {
-    // The DoFs of the ions' electrochemical potential (component 3).
-    std::vector<bool>
-    ion_mask(const DriftDiffusionSolver &s)
-    {
-      const auto                                   &dofs = s.dof_handler();
-      std::vector<bool>                             mask(dofs.n_dofs(), false);
-      std::vector<dealii::types::global_dof_index> idx(dofs.get_fe().n_dofs_per_cell());
-      for (const auto &cell : dofs.active_cell_iterators())
-        {
-          if (s.device_model().region(cell->material_id()).ion_density <= 0)
-            continue;
-          cell->get_dof_indices(idx);
-          for (unsigned i = 0; i < idx.size(); ++i)
-            if (dofs.get_fe().system_to_component_index(i).first == 3)
-              mask[idx[i]] = true;
-        }
-      return mask;
-    }
-
     // The shortest time scale of the ions: the dielectric relaxation of the
     // ion gas, eps / (q mu_c z^2 N) = L_D^2 / D (s).
     double
@@ -50,7 +31,6 @@ namespace backcomb::fem
         : solver(s)
         , settings(settings)
         , result(result)
-        , mask(ion_mask(s))
         , dt(0.1 * ionic_relaxation_time(s.device_model()))
       {}
 
@@ -58,7 +38,8 @@ namespace backcomb::fem
       // present one to `v_end`. Step lengths: the ions' potential at the end
       // of a step must differ from its linear extrapolation through the two
       // states before it by at most the tolerance (the local error of a
-      // first-order method, so a conservative bound for BDF2); a step that
+      // first-order method, so a conservative bound for BDF2), weighted by
+      // c / (c + N_ion) (DriftDiffusionSolver::ion_weight()); a step that
       // exceeds it or fails to converge is repeated shorter.
       bool
       advance(const double duration, const double v_end, const bool scanning)
@@ -88,13 +69,16 @@ namespace backcomb::fem
             const NewtonReport rep =
               solver.solve_time_step(v, settings.light, h, predicted.size() > 0 ? &predicted : nullptr);
             result.newton_iterations += rep.iterations;
+            // The error in ln c weighted by c / (c + N_ion): the relative
+            // error of the ion density where they pile up, its error against
+            // N_ion where they are depleted (where phi_c itself is nearly
+            // free and tells nothing about the charge).
             double error = 0;
             if (rep.converged && predicted.size() > 0)
               {
                 const dealii::Vector<double> &u = solver.state();
-                for (std::size_t i = 0; i < u.size(); ++i)
-                  if (mask[i])
-                    error = std::max(error, std::abs(u[i] - predicted[i]));
+                for (const DriftDiffusionSolver::IonNode &k : solver.ion_nodes())
+                  error = std::max(error, DriftDiffusionSolver::ion_weight(u, k) * std::abs(u[k.ion] - predicted[k.ion]));
               }
             if (!rep.converged || error > settings.tolerance)
               {
@@ -137,7 +121,6 @@ namespace backcomb::fem
       DriftDiffusionSolver &solver;
       const HysteresisSettings   &settings;
       HysteresisScan           &result;
-      std::vector<bool>     mask;
       double                dt; // next step to try, s
     };
   } // namespace
@@ -164,19 +147,44 @@ namespace backcomb::fem
     Stepper stepper(solver, settings, result);
 
     // At t = 0 the light comes on and the bias jumps to the preconditioning
-    // bias, faster than the ions can follow (instantaneous solves).
+    // bias, faster than the ions can follow (instantaneous solves): the
+    // light decade by decade at the starting bias, then the bias in steps
+    // of at most 0.1 V (a jump of a volt in one solve takes hundreds of
+    // Newton steps of step halving).
     auto jump = [&](const double v, const double light) {
-      const StepReport r = move_to(solver, v, light, settings.max_halvings);
-      result.newton_iterations += r.newton_iterations;
-      if (!r.converged)
-        result.diagnostic = r.diagnostic;
-      return r.converged;
+      const double   from = solver.voltage();
+      const unsigned n    = static_cast<unsigned>(std::ceil(std::abs(v - from) / 0.1 - 1e-9));
+      dealii::Vector<double> older, old;
+      for (unsigned k = 1; k <= std::max(n, 1u); ++k)
+        {
+          // Past the first two steps, from the state extrapolated linearly
+          // through the last two (equal bias steps).
+          const double vk = k >= n ? v : from + (v - from) * k / n, v_old = solver.voltage();
+          older           = std::move(old);
+          old             = solver.state();
+          StepReport r;
+          if (older.size() > 0)
+            {
+              dealii::Vector<double> guess = old;
+              guess.sadd(2.0, -1.0, older);
+              r = solve_from_guess(solver, guess, old, v_old, light, vk, light, settings.max_halvings);
+            }
+          else
+            r = move_to(solver, vk, light, settings.max_halvings);
+          result.newton_iterations += r.newton_iterations;
+          if (!r.converged)
+            {
+              result.diagnostic = r.diagnostic;
+              return false;
+            }
+        }
+      return true;
     };
-    if (!jump(settings.precondition_bias, 0.0))
-      return result;
     for (int e = -8; e <= 0; ++e)
-      if (!jump(settings.precondition_bias, settings.light * std::pow(10.0, e)))
+      if (!jump(solver.voltage(), settings.light * std::pow(10.0, e)))
         return result;
+    if (!jump(settings.precondition_bias, settings.light))
+      return result;
     if (settings.precondition_time > 0 &&
         !stepper.advance(settings.precondition_time, settings.precondition_bias, false))
       return result;
