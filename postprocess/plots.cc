@@ -466,13 +466,18 @@ namespace backcomb::postprocess
         warnings.push_back("no J-V plot: fewer than two converged points");
         return {};
       }
-    const auto [v_lo, v_hi] = padded_range(all_v, 0.03);
     // The generator convention (current > 0 under light at short circuit);
     // the dark curve's large forward currents would squash the light one,
     // so the y range follows the light curve when there is one.
     std::vector<double> range_j = d.light_j.empty() ? all_j : d.light_j;
+    for (const JVPlotData::Curve &c : d.scans)
+      {
+        all_v.insert(all_v.end(), c.v.begin(), c.v.end());
+        range_j.insert(range_j.end(), c.j.begin(), c.j.end());
+      }
     range_j.push_back(0.0);
-    auto [j_lo, j_hi] = padded_range(range_j, 0.08);
+    auto [j_lo, j_hi]       = padded_range(range_j, 0.08);
+    const auto [v_lo, v_hi] = padded_range(all_v, 0.03);
     auto draw_page = [&](plstream &pls) {
       pls.adv(0);
       pls.schr(0, 0.85);
@@ -499,6 +504,13 @@ namespace backcomb::postprocess
       };
       curve(d.light_v, d.light_j, first_line_colour);
       curve(d.dark_v, d.dark_j, first_line_colour + 1);
+      for (std::size_t k = 0; k < d.scans.size(); ++k)
+        if (d.scans[k].v.size() > 1)
+          {
+            pls.col0(first_line_colour + 2 + int(k));
+            pls.width(2);
+            pls.line(int(d.scans[k].v.size()), d.scans[k].v.data(), d.scans[k].j.data());
+          }
       if (d.mpp_v && d.mpp_j)
         {
           pls.col0(colour_best);
@@ -518,6 +530,8 @@ namespace backcomb::postprocess
         entry(first_line_colour, "● light");
       if (!d.dark_v.empty())
         entry(first_line_colour + 1, "● dark");
+      for (std::size_t k = 0; k < d.scans.size(); ++k)
+        entry(first_line_colour + 2 + int(k), "— " + d.scans[k].label);
       if (d.mpp_v && d.mpp_j)
         {
           char text[96];

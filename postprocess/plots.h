@@ -66,6 +66,14 @@ namespace backcomb::postprocess
   {
     std::vector<double>   light_v, light_j, dark_v, dark_j;
     std::optional<double> mpp_v, mpp_j;
+    // More curves under the light, e.g. the scans of a hysteresis scan
+    // ("reverse scan at 0.1 V/s"), drawn as lines without points.
+    struct Curve
+    {
+      std::string         label;
+      std::vector<double> v, j;
+    };
+    std::vector<Curve> scans;
   };
 
   // `stem`.svg and `stem`.png, like write_sweep_plots.

@@ -221,3 +221,45 @@ TEST(Pictures, SolveAndMeshDrawTheirPictures)
   EXPECT_GT(lines, 2000);
   fs::remove_all(dir);
 }
+
+// The J-V plot of a hysteresis scan: each scan curve in its own palette
+// colour (the third and fourth, after light and dark), and none of those
+// colours without scans. Synthetic curves: a diode-like light curve and
+// two scans offset from it.
+TEST(Pictures, JVPlotDrawsTheScanCurves)
+{
+  namespace fs       = std::filesystem;
+  const fs::path dir = test_support::fresh_folder("jv-scans");
+  postprocess::JVPlotData d;
+  for (int k = 0; k <= 40; ++k)
+    {
+      const double v = 0.03 * k, j = 20 - 1e-9 * std::exp(v / 0.05);
+      d.light_v.push_back(v), d.light_j.push_back(j);
+    }
+  auto count = [](const Picture &p, const std::array<int, 3> &colour) {
+    int n = 0;
+    for (const auto &c : p.rgb)
+      n += std::abs(c[0] - colour[0]) + std::abs(c[1] - colour[1]) + std::abs(c[2] - colour[2]) < 30;
+    return n;
+  };
+  std::vector<std::string> warnings;
+  postprocess::write_jv_plots(d, (dir / "plain").string(), warnings);
+  postprocess::JVPlotData::Curve reverse{"reverse scan, 0.1 V/s", d.light_v, d.light_j},
+    forward{"forward scan, 0.1 V/s", d.light_v, d.light_j};
+  for (double &j : reverse.j)
+    j += 3;
+  for (double &j : forward.j)
+    j -= 3;
+  d.scans = {reverse, forward};
+  postprocess::write_jv_plots(d, (dir / "scans").string(), warnings);
+  EXPECT_TRUE(warnings.empty());
+  const Picture plain = read_png(dir / "plain.png"), scans = read_png(dir / "scans.png");
+  const std::array<int, 3> green{0, 158, 115}, pink{204, 121, 167};
+  std::printf("pixels of the scan colours: %d, %d (with scans), %d, %d (without)\n", count(scans, green),
+              count(scans, pink), count(plain, green), count(plain, pink));
+  EXPECT_GT(count(scans, green), 500);
+  EXPECT_GT(count(scans, pink), 500);
+  EXPECT_LT(count(plain, green), 20);
+  EXPECT_LT(count(plain, pink), 20);
+  fs::remove_all(dir);
+}
