@@ -1041,28 +1041,35 @@ namespace backcomb::fem
     // through the contact.
     Vector<double> r;
     assemble_residual(solution, light_factor, r);
+    const auto      n = contact_sums(r, c_phin), p = contact_sums(r, c_phip);
+    const double    J0 = device.scaling.J0 / width;
+    TerminalCurrent t;
+    t.electron                  = -n[0] * J0;
+    t.hole                      = -p[0] * J0;
+    t.electron_contact_electron = n[1] * J0;
+    t.electron_contact_hole     = p[1] * J0;
+    if (transient && ion_step > 0)
+      {
+        // Displacement current out of the film into each contact, minus the
+        // rate of change of the Poisson rows' sum there (BDF, as the storage
+        // terms): exactly what makes the total current the same at both.
+        const auto S                    = contact_sums(r, c_psi);
+        t.displacement                  = -(ion_beta * S[0] - field_flux_history[0]) / ion_step * J0;
+        t.electron_contact_displacement = (ion_beta * S[1] - field_flux_history[1]) / ion_step * J0;
+      }
+    return t;
+  }
+
+  std::array<double, 2>
+  DriftDiffusionSolver::contact_sums(const Vector<double> &r, const unsigned c) const
+  {
     auto sum = [&](const std::vector<types::global_dof_index> &d) {
       double s = 0;
       for (const auto i : d)
         s += r[i];
       return Utilities::MPI::sum(s, comm);
     };
-    const double    J0 = device.scaling.J0 / width;
-    TerminalCurrent t;
-    t.electron                  = -sum(hole_contact_dofs[c_phin]) * J0;
-    t.hole                      = -sum(hole_contact_dofs[c_phip]) * J0;
-    t.electron_contact_electron = sum(electron_contact_dofs[c_phin]) * J0;
-    t.electron_contact_hole     = sum(electron_contact_dofs[c_phip]) * J0;
-    if (transient && ion_step > 0)
-      {
-        // Displacement current out of the film into each contact, minus the
-        // rate of change of the Poisson rows' sum there (BDF, as the storage
-        // terms): exactly what makes the total current the same at both.
-        t.displacement = -(ion_beta * sum(hole_contact_dofs[c_psi]) - field_flux_history[0]) / ion_step * J0;
-        t.electron_contact_displacement =
-          (ion_beta * sum(electron_contact_dofs[c_psi]) - field_flux_history[1]) / ion_step * J0;
-      }
-    return t;
+    return {{sum(hole_contact_dofs[c]), sum(electron_contact_dofs[c])}};
   }
 
   double

@@ -351,6 +351,10 @@ namespace backcomb::fem
     // the Poisson rows of the residual over each contact's nodes (scaled,
     // per unit length; its rate of change is the displacement current).
     std::array<double, 2> contact_field_flux(const dealii::Vector<double> &u) const;
+    // The rows of component c of a residual r (assemble_residual()) summed
+    // over the nodes of the hole and of the electron contact, over all
+    // processes.
+    std::array<double, 2> contact_sums(const dealii::Vector<double> &r, unsigned c) const;
     // Sets phi_c uniform over the ion region such that the ion number
     // (ion_number()) of u is `number`, psi as it is.
     void uniform_ion_potential(dealii::Vector<double> &u, double number) const;

@@ -99,13 +99,7 @@ namespace backcomb::fem
   {
     Vector<double> r;
     assemble_residual(u, light_factor, r);
-    auto sum = [&](const std::vector<types::global_dof_index> &d) {
-      double s = 0;
-      for (const auto i : d)
-        s += r[i];
-      return Utilities::MPI::sum(s, comm);
-    };
-    return {sum(hole_contact_dofs[c_psi]), sum(electron_contact_dofs[c_psi])};
+    return contact_sums(r, c_psi);
   }
 
   double

@@ -1175,18 +1175,14 @@ namespace backcomb::simulator
         jv.dark_v.push_back(p.voltage), jv.dark_j.push_back(p.current);
       if (metrics.valid)
         jv.mpp_v = metrics.Vmp, jv.mpp_j = metrics.Jmp;
-      if (hysteresis.summary.is_object())
-        for (const auto &curve : hysteresis.summary["curves"])
-          {
-            JVPlotData::Curve scan;
-            scan.label = curve["direction"].get<std::string>() + " scan, " +
-                         format_number(c.hysteresis.rate, 3) + " V/s";
-            for (const auto &p : curve["points"])
-              if (p["current_mA_per_cm2"].is_number())
-                scan.v.push_back(p["voltage_V"].get<double>()),
-                  scan.j.push_back(p["current_mA_per_cm2"].get<double>());
-            jv.scans.push_back(scan);
-          }
+      for (const fem::HysteresisCurve &curve : hysteresis.curves)
+        {
+          JVPlotData::Curve scan;
+          scan.label = curve.direction + " scan, " + format_number(c.hysteresis.rate, 3) + " V/s";
+          for (const fem::HysteresisPoint &p : curve.points)
+            scan.v.push_back(p.voltage), scan.j.push_back(p.current);
+          jv.scans.push_back(scan);
+        }
       std::vector<std::string> jv_warnings;
       write_jv_plots(jv, o.folder + "/jv", jv_warnings);
       for (const auto &w : jv_warnings)

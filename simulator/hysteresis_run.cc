@@ -139,6 +139,7 @@ namespace backcomb::simulator
                           {"points", points}});
         out.columns.push_back({"J_" + curve.direction + "_scan_mA_per_cm2", column});
       }
+    out.curves    = r.curves;
     out.converged = r.converged;
     out.summary   = {
       {"status", r.converged ? "converged" : "failed"},

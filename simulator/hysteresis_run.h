@@ -4,6 +4,7 @@
 #pragma once
 
 #include "fem/drift_diffusion.h"
+#include "fem/ion_scan.h"
 #include "postprocess/jv_tables.h"
 #include "simulator/case_file.h"
 
@@ -26,6 +27,7 @@ namespace backcomb::simulator
     bool                            converged = false;
     nlohmann::json                  summary   = nullptr; // summary.json "hysteresis_scan"
     std::vector<postprocess::JVColumn> columns;          // for jv.csv
+    std::vector<fem::HysteresisCurve> curves;            // each direction's points, for the J-V plot
   };
 
   // Runs the scan when Hysteresis scan/Scan rate > 0, from the solver's

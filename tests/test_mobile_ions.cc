@@ -42,14 +42,17 @@ namespace
   }
 
   // An ion conductor without electrons or holes: a 5 eV gap (n_i ~ 1e-30
-  // cm^-3) between contacts at midgap, positive ions of density N.
+  // cm^-3) between contacts at midgap, positive ions of density N with
+  // diffusion coefficient D (cm^2/s; 0: the material's default).
   DeviceModel
-  ion_conductor(const double N)
+  ion_conductor(const double N, const double D = 0)
   {
     Material m;
     m.band_gap    = 5.0;
     m.ion_density = N;
     m.ion_charge  = 1;
+    if (D > 0)
+      m.ion_diffusion = D;
     ContactParameters c;
     c.model         = "ohmic";
     c.work_function = m.electron_affinity + 0.5 * m.band_gap;
@@ -375,17 +378,7 @@ TEST(MobileIons, ScanRateLimitsAndHysteresisPeak)
 TEST(MobileIons, DisplacementCurrentChargesTheIonicCapacitance)
 {
   const double N = 1e17, L = 1.0, t = 0.1, D = 1e-10, LD = debye_length_um(25.0, N);
-  Material     m;
-  m.band_gap      = 5.0;
-  m.ion_density   = N;
-  m.ion_charge    = 1;
-  m.ion_diffusion = D;
-  m.permittivity  = 25.0;
-  ContactParameters c;
-  c.model         = "ohmic";
-  c.work_function = m.electron_affinity + 0.5 * m.band_gap;
-  const DeviceModel d(300, {{ids::absorber, m}}, {ids::absorber}, c, c, SurfaceParameters(), SurfaceParameters(),
-                      [](double, double) { return 0.0; });
+  const DeviceModel d = ion_conductor(N, D); // relative permittivity 25, the default
   dealii::Triangulation<2> tria;
   test_support::make_strip(tria, L, t, 0.0, 0.0005, 1.1, 0.02);
   const double eps         = 25.0 * constants::eps0 * 1e-2;       // F/cm

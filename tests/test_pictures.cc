@@ -254,7 +254,7 @@ TEST(Pictures, JVPlotDrawsTheScanCurves)
   postprocess::write_jv_plots(d, (dir / "scans").string(), warnings);
   EXPECT_TRUE(warnings.empty());
   const Picture plain = read_png(dir / "plain.png"), scans = read_png(dir / "scans.png");
-  const std::array<int, 3> green{0, 158, 115}, pink{204, 121, 167};
+  const std::array<int, 3> green{{0, 158, 115}}, pink{{204, 121, 167}};
   std::printf("pixels of the scan colours: %d, %d (with scans), %d, %d (without)\n", count(scans, green),
               count(scans, pink), count(plain, green), count(plain, pink));
   EXPECT_GT(count(scans, green), 500);
