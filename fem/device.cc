@@ -107,6 +107,11 @@ namespace backcomb::fem
                  "Newton steps may solve with the factorisation of an earlier Jacobian (chord steps) "
                  "while the updates contract fast; false gives plain Newton, a fresh Jacobian every step "
                  "(slower, same converged result)");
+    declare_text(prm, "Numerics", "Carrier flux", "galerkin", dealii::Patterns::Selection("galerkin|edge-averaged"),
+                 "", "Discretisation of the electron and hole currents: galerkin (Galerkin finite elements in the "
+                 "quasi-Fermi potentials; needs cells of about 2 nm where a density changes steeply, at contacts "
+                 "and finger edges) or edge-averaged (exponentially fitted Scharfetter-Gummel fluxes along the cell "
+                 "edges, edge-averaged finite elements of Xu and Zikatanov; accurate with cells of 10 to 20 nm there)");
     prm.leave_subsection();
   }
 
@@ -120,6 +125,7 @@ namespace backcomb::fem
     max_halvings   = static_cast<unsigned>(get(prm, "Numerics", step_halvings));
     quadrature     = static_cast<unsigned>(get(prm, "Numerics", quadrature_points));
     reuse_factorisations = prm.get_bool("Reuse factorisations");
+    carrier_flux = prm.get("Carrier flux") == "edge-averaged" ? CarrierFlux::edge_averaged : CarrierFlux::galerkin;
     prm.leave_subsection();
   }
 

@@ -70,6 +70,16 @@ namespace backcomb::fem
     unsigned quadrature     = 3;
     // Chord steps with an earlier factorisation (see DriftDiffusionSolver).
     bool     reuse_factorisations = true;
+    // Discretisation of the electron and hole currents: Galerkin in the
+    // quasi-Fermi potentials, or exponentially fitted along the cell edges
+    // (fem/edge_flux.h), which stays accurate where a density changes by
+    // many times e across a cell and so allows coarser cells at contacts.
+    enum class CarrierFlux
+    {
+      galerkin,
+      edge_averaged
+    };
+    CarrierFlux carrier_flux = CarrierFlux::galerkin;
 
     static void declare_parameters(dealii::ParameterHandler &prm);
     void parse_parameters(dealii::ParameterHandler &prm);

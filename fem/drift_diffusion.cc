@@ -1,5 +1,6 @@
 #include "fem/drift_diffusion.h"
 
+#include "fem/edge_flux.h"
 #include "geometry/ids.h"
 
 #include <deal.II/base/array_view.h>
@@ -27,6 +28,12 @@ namespace backcomb::fem
 
   namespace
   {
+    bool
+    fitted_fluxes(const NumericsParameters &n)
+    {
+      return n.carrier_flux == NumericsParameters::CarrierFlux::edge_averaged;
+    }
+
     // Component numbers of the unknowns.
     constexpr unsigned c_psi = 0, c_phin = 1, c_phip = 2, c_ion = 3;
 
@@ -268,8 +275,8 @@ namespace backcomb::fem
   void
   DriftDiffusionSolver::precompute_generation()
   {
-    const QGauss<2> quad(numerics.quadrature);
-    FEValues<2>     fv(fe, quad, update_quadrature_points);
+    const Quadrature<2> &quad = cell_quadrature;
+    FEValues<2>          fv(fe, quad, update_quadrature_points);
     generation_qp.assign(tria.n_active_cells() * quad.size(), 0.0);
     for (const auto &cell : dofs.active_cell_iterators())
       {
@@ -333,7 +340,11 @@ namespace backcomb::fem
     cell_cache.grad.assign(n * nq * 8, 0.0);
     cell_cache.jxw.assign(n * nq, 0.0);
     cell_cache.dofs.assign(n * dpc, 0);
+    const bool fitted = fitted_fluxes(numerics);
+    cell_cache.edge_w.assign(fitted ? n * 6 : 0, 0.0);
     FEValues<2>                          fv(base, cell_quadrature, update_gradients | update_JxW_values);
+    // The vertex rule (2 x 2 Gauss-Lobatto points) for the edge weights.
+    FEValues<2> fv_edges(base, QGaussLobatto<2>(2), update_gradients | update_JxW_values);
     std::vector<types::global_dof_index> idx(fe.n_dofs_per_cell());
     for (const auto &cell : dofs.active_cell_iterators())
       {
@@ -343,6 +354,21 @@ namespace backcomb::fem
         if (!cell->is_locally_owned())
           continue;
         fv.reinit(typename Triangulation<2>::active_cell_iterator(cell));
+        if (fitted)
+          {
+            fv_edges.reinit(typename Triangulation<2>::active_cell_iterator(cell));
+            double K[6] = {}, largest = 0;
+            for (unsigned e = 0; e < 6; ++e)
+              {
+                for (unsigned q = 0; q < 4; ++q)
+                  K[e] += fv_edges.shape_grad(q1_edge_pairs[e][0], q) * fv_edges.shape_grad(q1_edge_pairs[e][1], q) *
+                          fv_edges.JxW(q);
+                largest = std::max(largest, std::abs(K[e]));
+              }
+            // On a rectangle the diagonals' weights vanish; drop their rounding.
+            for (unsigned e = 0; e < 6; ++e)
+              cell_cache.edge_w[c * 6 + e] = std::abs(K[e]) > 1e-12 * largest ? -K[e] : 0.0;
+          }
         for (unsigned q = 0; q < nq; ++q)
           {
             cell_cache.jxw[c * nq + q] = fv.JxW(q);
@@ -362,7 +388,7 @@ namespace backcomb::fem
                                       Vector<double> &F,
                                       const bool with_contacts) const
   {
-    const QGauss<1> &face_quad = face_quadrature;
+    const Quadrature<1> &face_quad = face_quadrature;
     FEFaceValues<2> &ffv       = *fe_face_values;
 
     const unsigned     nc  = n_components; // psi, phi_n, phi_p (, phi_c)
@@ -384,6 +410,7 @@ namespace backcomb::fem
       std::fill(&a[0][0][0][0], &a[0][0][0][0] + 256, 0.0);
     const bool ions    = r.ion_density > 0;
     const bool storage = transient && ion_step > 0; // a time step, not an instantaneous change
+    const bool fitted  = !cell_cache.edge_w.empty();
     for (unsigned q = 0; q < nq; ++q)
       {
         const double *phi = cell_cache.phi[q];
@@ -413,7 +440,8 @@ namespace backcomb::fem
         const double dx    = cell_cache.jxw[ci * nq + q];
         // Derivatives of R with respect to (psi, phi_n, phi_p).
         const double dR[3]   = {k.dR_dn * n - k.dR_dp * p, -k.dR_dn * n, k.dR_dp * p};
-        const double jn_coef = r.mu_n * n, jp_coef = r.mu_p * p;
+        // Galerkin fluxes here; fitted fluxes are added edge by edge below.
+        const double jn_coef = fitted ? 0.0 : r.mu_n * n, jp_coef = fitted ? 0.0 : r.mu_p * p;
         // Mobile ions: density c, its charge z (c - N_ion) against the fixed
         // background, and their row: the ion number in the steady state;
         // in a transient dc/dt + div F = 0 with F = -mu_c z c grad phi_c,
@@ -483,6 +511,44 @@ namespace backcomb::fem
                     a[c_ion][i][c_psi][j] -= z * cion * M;
                     a[c_ion][i][c_ion][j] += z * cion * M;
                   }
+              }
+          }
+      }
+    if (fitted)
+      {
+        // Exponentially fitted electron and hole fluxes along each edge
+        // (fem/edge_flux.h): row i gains the flux from j, row j loses it.
+        double nn[4], pp[4];
+        for (unsigned k = 0; k < 4; ++k)
+          {
+            nn[k] = std::exp(ul[c_psi][k] - ul[c_phin][k] + r.a_n);
+            pp[k] = std::exp(ul[c_phip][k] - ul[c_psi][k] + r.a_p);
+          }
+        for (unsigned e = 0; e < 6; ++e)
+          {
+            const double w = cell_cache.edge_w[ci * 6 + e];
+            if (w == 0)
+              continue;
+            const unsigned i = q1_edge_pairs[e][0], j = q1_edge_pairs[e][1];
+            const EdgeFlux k =
+              edge_flux(w, r.mu_n, r.mu_p, ul[c_psi][i], ul[c_psi][j], nn[i], nn[j], pp[i], pp[j]);
+            f[c_phin][i] += k.n;
+            f[c_phin][j] -= k.n;
+            f[c_phip][i] -= k.p;
+            f[c_phip][j] += k.p;
+            if (!Aptr)
+              continue;
+            for (const unsigned row : {i, j})
+              {
+                const double sn = row == i ? 1.0 : -1.0;
+                a[c_phin][row][c_psi][i] += sn * k.dn_dpsi_i;
+                a[c_phin][row][c_psi][j] += sn * k.dn_dpsi_j;
+                a[c_phin][row][c_phin][i] += sn * k.dn_dphin_i;
+                a[c_phin][row][c_phin][j] += sn * k.dn_dphin_j;
+                a[c_phip][row][c_psi][i] -= sn * k.dp_dpsi_i;
+                a[c_phip][row][c_psi][j] -= sn * k.dp_dpsi_j;
+                a[c_phip][row][c_phip][i] -= sn * k.dp_dphip_i;
+                a[c_phip][row][c_phip][j] -= sn * k.dp_dphip_j;
               }
           }
       }
@@ -866,8 +932,7 @@ namespace backcomb::fem
   std::vector<DriftDiffusionSolver::CollectionPoint>
   DriftDiffusionSolver::collection_points(const Vector<double> &fc) const
   {
-    const QGauss<2> quad(numerics.quadrature);
-    FEValues<2>     fv(fe, quad, update_values | update_quadrature_points | update_JxW_values);
+    FEValues<2> fv(fe, cell_quadrature, update_values | update_quadrature_points | update_JxW_values);
     std::vector<types::global_dof_index> idx(fe.n_dofs_per_cell());
     std::vector<CollectionPoint>         points;
     for (const auto &cell : dofs.active_cell_iterators())
@@ -876,7 +941,7 @@ namespace backcomb::fem
           continue;
         fv.reinit(cell);
         cell->get_dof_indices(idx);
-        for (unsigned q = 0; q < quad.size(); ++q)
+        for (unsigned q = 0; q < cell_quadrature.size(); ++q)
           {
             double f = 0;
             for (unsigned i = 0; i < idx.size(); ++i)
@@ -1075,16 +1140,15 @@ namespace backcomb::fem
   double
   DriftDiffusionSolver::generation_current() const
   {
-    const QGauss<2> quad(numerics.quadrature);
-    FEValues<2>     fv(fe, quad, update_JxW_values);
+    FEValues<2>     fv(fe, cell_quadrature, update_JxW_values);
     double          total = 0;
     for (const auto &cell : dofs.active_cell_iterators())
       {
         if (!cell->is_locally_owned())
           continue;
         fv.reinit(cell);
-        for (unsigned q = 0; q < quad.size(); ++q)
-          total += light_factor * generation_qp[cell->active_cell_index() * quad.size() + q] * fv.JxW(q);
+        for (unsigned q = 0; q < cell_quadrature.size(); ++q)
+          total += light_factor * generation_qp[cell->active_cell_index() * cell_quadrature.size() + q] * fv.JxW(q);
       }
     return Utilities::MPI::sum(total, comm) * device.scaling.J0 / width;
   }

@@ -420,6 +420,10 @@ namespace backcomb::fem
       std::vector<dealii::types::global_dof_index> dofs; // 4 x n_components per cell
       std::vector<double> grad;                          // [cell][q][vertex][2]
       std::vector<double> jxw;                           // [cell][q]
+      // Edge weights -K_ij of the Q1 stiffness with the vertex rule, per
+      // cell and vertex pair (edge_pairs), for the exponentially fitted
+      // carrier fluxes (empty with Galerkin fluxes).
+      std::vector<double> edge_w;                        // [cell][6]
       double              phi[64][4];                    // [q][vertex]
       unsigned            component[16], vertex[16];     // of each system DoF
     } cell_cache;

@@ -5,6 +5,7 @@
 // the discretisation error (the mesh-independence tests cover that).
 #include "fem/drift_diffusion.h"
 
+#include "fem/edge_flux.h"
 #include "geometry/ids.h"
 
 #include <deal.II/base/mpi.h>
@@ -46,6 +47,7 @@ namespace backcomb::fem
     // interlayers, top surface, gap interface.
     double sums[7] = {0, 0, 0, 0, 0, 0, 0};
     double recycled = 0; // q int G_recycled dmu, scaled
+    const bool fitted = !cell_cache.edge_w.empty();
     for (const auto &cell : dofs.active_cell_iterators())
       {
         if (!cell->is_locally_owned())
@@ -53,6 +55,38 @@ namespace backcomb::fem
         const ScaledRegion &r = device.region(cell->material_id());
         fv.reinit(cell);
         cell->get_dof_indices(idx);
+        if (fitted)
+          {
+            // Joule heat of the fitted fluxes: the flux rows times the
+            // nodal quasi-Fermi potentials, edge by edge,
+            // sum w F_ij (phi_i - phi_j) for each carrier.
+            double ul[3][4];
+            for (unsigned i = 0; i < dpc; ++i)
+              {
+                const auto [c, v] = fe.system_to_component_index(i);
+                if (c < 3)
+                  ul[c][v] = solution[idx[i]];
+              }
+            double jn = 0, jp = 0;
+            for (unsigned e = 0; e < 6; ++e)
+              {
+                const double w = cell_cache.edge_w[cell->active_cell_index() * 6 + e];
+                if (w == 0)
+                  continue;
+                const unsigned i = q1_edge_pairs[e][0], j = q1_edge_pairs[e][1];
+                const EdgeFlux k = edge_flux(w, r.mu_n, r.mu_p, ul[c_psi][i], ul[c_psi][j],
+                                             std::exp(ul[c_psi][i] - ul[c_phin][i] + r.a_n),
+                                             std::exp(ul[c_psi][j] - ul[c_phin][j] + r.a_n),
+                                             std::exp(ul[c_phip][i] - ul[c_psi][i] + r.a_p),
+                                             std::exp(ul[c_phip][j] - ul[c_psi][j] + r.a_p));
+                jn += k.n * (ul[c_phin][i] - ul[c_phin][j]);
+                jp += k.p * (ul[c_phip][j] - ul[c_phip][i]);
+              }
+            if (r.absorber)
+              sums[2] += jn, sums[3] += jp;
+            else
+              sums[4] += jn + jp;
+          }
         for (unsigned q = 0; q < nq; ++q)
           {
             double       v[4] = {0, 0, 0, 0}; // psi, phi_n, phi_p (, phi_c)
@@ -76,12 +110,15 @@ namespace backcomb::fem
                   recycled += columns.local_share * rad->rate(n, p).R * dmu * dx; // re-absorbed on the spot
               }
             sums[1] += G * 2 * r.half_gap * dx;
-            const double jn = r.mu_n * n * g[c_phin].norm_square() * dx;
-            const double jp = r.mu_p * p * g[c_phip].norm_square() * dx;
-            if (r.absorber)
-              sums[2] += jn, sums[3] += jp;
-            else
-              sums[4] += jn + jp;
+            if (!fitted)
+              {
+                const double jn = r.mu_n * n * g[c_phin].norm_square() * dx;
+                const double jp = r.mu_p * p * g[c_phip].norm_square() * dx;
+                if (r.absorber)
+                  sums[2] += jn, sums[3] += jp;
+                else
+                  sums[4] += jn + jp;
+              }
             for (const auto &ch : r.channels)
               channel[ch->name()] += ch->rate(n, p).R * dmu * dx;
           }

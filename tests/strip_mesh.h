@@ -102,7 +102,8 @@ namespace backcomb::test_support
   // A small comb period through the Gmsh stage: fingers 2 um, gap 4 um,
   // film 0.4 um, coarse grading (5 nm cells, ratio 1.4).
   inline void
-  make_small_period(dealii::Triangulation<2> &tria, const double largest_lateral_cell_um)
+  make_small_period(dealii::Triangulation<2> &tria, const double largest_lateral_cell_um,
+                    const double smallest_cell_nm = 5)
   {
     geometry::GeometryParameters g;
     g.electron_finger_width_um = 2;
@@ -110,7 +111,7 @@ namespace backcomb::test_support
     g.gap_um                   = 4;
     g.absorber_thickness_um    = 0.4;
     geometry::MeshParameters mesh;
-    mesh.smallest_cell_nm         = 5;
+    mesh.smallest_cell_nm         = smallest_cell_nm;
     mesh.growth_ratio             = 1.4;
     mesh.largest_lateral_cell_um  = largest_lateral_cell_um;
     mesh.largest_vertical_cell_nm = 40;

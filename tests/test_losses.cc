@@ -5,6 +5,7 @@
 #include "fem/operating_points.h"
 #include "simulator/case_file.h"
 #include "simulator/case_run.h"
+#include "tests/small_cell.h"
 #include "tests/strip_mesh.h"
 
 #include <gtest/gtest.h>
@@ -37,33 +38,9 @@ namespace
                 b.contact[0][1], b.contact[1][0], b.contact[1][1], b.residual());
   }
 
-  // A film of the demo's kind (round numbers of the usual order for a
-  // solution-processed halide absorber; common practice, no single source)
-  // on a small comb period with selective contacts.
-  struct SmallCell
-  {
-    Material          film;
-    ContactParameters electron, hole;
-    SurfaceParameters top, gap;
-    SmallCell()
-    {
-      film.mu_n = 2, film.mu_p = 1.5;
-      film.tau_n = film.tau_p = 1e-7;
-      film.B_rad = 5e-11, film.photon_recycling = 0.2;
-      film.C_n = film.C_p = 1e-28;
-      electron.work_function = 4.0, electron.S_n = 1e7, electron.S_p = 10;
-      hole.work_function = 5.4, hole.S_n = 10, hole.S_p = 1e7;
-      top.S_n = top.S_p = 20;
-      gap.S_n = gap.S_p = 100;
-    }
-    DeviceModel
-    device() const
-    {
-      return DeviceModel(T, {{ids::absorber, film}}, {ids::absorber}, electron, hole, top, gap,
-                         [](double, double y) { return 4e21 * std::exp(-y / 0.2); });
-    }
-  };
 } // namespace
+
+using backcomb::test_support::SmallCell;
 
 // Joule heat of a uniformly doped resistor at small bias equals V^2 / R with
 // R = rho L / (t w) and rho = 1 / (q mu_n N_D) (Ohm's law; resistivity of a
