@@ -28,12 +28,6 @@ namespace backcomb::fem
 
   namespace
   {
-    bool
-    fitted_fluxes(const NumericsParameters &n)
-    {
-      return n.carrier_flux == NumericsParameters::CarrierFlux::edge_averaged;
-    }
-
     // Component numbers of the unknowns.
     constexpr unsigned c_psi = 0, c_phin = 1, c_phip = 2, c_ion = 3;
 
@@ -340,7 +334,7 @@ namespace backcomb::fem
     cell_cache.grad.assign(n * nq * 8, 0.0);
     cell_cache.jxw.assign(n * nq, 0.0);
     cell_cache.dofs.assign(n * dpc, 0);
-    const bool fitted = fitted_fluxes(numerics);
+    const bool fitted = numerics.carrier_flux == NumericsParameters::CarrierFlux::edge_averaged;
     cell_cache.edge_w.assign(fitted ? n * 6 : 0, 0.0);
     FEValues<2>                          fv(base, cell_quadrature, update_gradients | update_JxW_values);
     // The vertex rule (2 x 2 Gauss-Lobatto points) for the edge weights.
@@ -518,20 +512,15 @@ namespace backcomb::fem
       {
         // Exponentially fitted electron and hole fluxes along each edge
         // (fem/edge_flux.h): row i gains the flux from j, row j loses it.
-        double nn[4], pp[4];
-        for (unsigned k = 0; k < 4; ++k)
-          {
-            nn[k] = std::exp(ul[c_psi][k] - ul[c_phin][k] + r.a_n);
-            pp[k] = std::exp(ul[c_phip][k] - ul[c_psi][k] + r.a_p);
-          }
+        EdgeFlux fluxes[6];
+        cell_edge_fluxes(&cell_cache.edge_w[ci * 6], r.mu_n, r.mu_p, r.a_n, r.a_p, ul[c_psi], ul[c_phin],
+                         ul[c_phip], fluxes);
         for (unsigned e = 0; e < 6; ++e)
           {
-            const double w = cell_cache.edge_w[ci * 6 + e];
-            if (w == 0)
+            if (cell_cache.edge_w[ci * 6 + e] == 0)
               continue;
-            const unsigned i = q1_edge_pairs[e][0], j = q1_edge_pairs[e][1];
-            const EdgeFlux k =
-              edge_flux(w, r.mu_n, r.mu_p, ul[c_psi][i], ul[c_psi][j], nn[i], nn[j], pp[i], pp[j]);
+            const unsigned  i = q1_edge_pairs[e][0], j = q1_edge_pairs[e][1];
+            const EdgeFlux &k = fluxes[e];
             f[c_phin][i] += k.n;
             f[c_phin][j] -= k.n;
             f[c_phip][i] -= k.p;

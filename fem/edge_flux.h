@@ -81,4 +81,25 @@ namespace backcomb::fem
     e.dp_dphip_j = cp * p_j * bm;
     return e;
   }
+
+  // The fluxes of a cell's six vertex pairs (q1_edge_pairs) from its edge
+  // weights w, its region's mobilities and density offsets (n = exp(psi -
+  // phi_n + a_n), p = exp(phi_p - psi + a_p)) and the nodal potentials;
+  // zero where a weight is.
+  inline void
+  cell_edge_fluxes(const double *w, const double mu_n, const double mu_p, const double a_n, const double a_p,
+                   const double *psi, const double *phin, const double *phip, EdgeFlux (&out)[6])
+  {
+    double n[4], p[4];
+    for (unsigned k = 0; k < 4; ++k)
+      {
+        n[k] = std::exp(psi[k] - phin[k] + a_n);
+        p[k] = std::exp(phip[k] - psi[k] + a_p);
+      }
+    for (unsigned e = 0; e < 6; ++e)
+      {
+        const unsigned i = q1_edge_pairs[e][0], j = q1_edge_pairs[e][1];
+        out[e] = w[e] == 0 ? EdgeFlux() : edge_flux(w[e], mu_n, mu_p, psi[i], psi[j], n[i], n[j], p[i], p[j]);
+      }
+  }
 } // namespace backcomb::fem

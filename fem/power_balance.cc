@@ -67,20 +67,15 @@ namespace backcomb::fem
                 if (c < 3)
                   ul[c][v] = solution[idx[i]];
               }
+            EdgeFlux fluxes[6];
+            cell_edge_fluxes(&cell_cache.edge_w[cell->active_cell_index() * 6], r.mu_n, r.mu_p, r.a_n, r.a_p,
+                             ul[c_psi], ul[c_phin], ul[c_phip], fluxes);
             double jn = 0, jp = 0;
             for (unsigned e = 0; e < 6; ++e)
               {
-                const double w = cell_cache.edge_w[cell->active_cell_index() * 6 + e];
-                if (w == 0)
-                  continue;
                 const unsigned i = q1_edge_pairs[e][0], j = q1_edge_pairs[e][1];
-                const EdgeFlux k = edge_flux(w, r.mu_n, r.mu_p, ul[c_psi][i], ul[c_psi][j],
-                                             std::exp(ul[c_psi][i] - ul[c_phin][i] + r.a_n),
-                                             std::exp(ul[c_psi][j] - ul[c_phin][j] + r.a_n),
-                                             std::exp(ul[c_phip][i] - ul[c_psi][i] + r.a_p),
-                                             std::exp(ul[c_phip][j] - ul[c_psi][j] + r.a_p));
-                jn += k.n * (ul[c_phin][i] - ul[c_phin][j]);
-                jp += k.p * (ul[c_phip][j] - ul[c_phip][i]);
+                jn += fluxes[e].n * (ul[c_phin][i] - ul[c_phin][j]);
+                jp += fluxes[e].p * (ul[c_phip][j] - ul[c_phip][i]);
               }
             if (r.absorber)
               sums[2] += jn, sums[3] += jp;

@@ -28,10 +28,10 @@ namespace backcomb::test_support
       gap.S_n = gap.S_p = 100;
     }
     fem::DeviceModel
-    device(const double temperature = 300.0) const
+    device() const
     {
       namespace ids = backcomb::geometry::ids;
-      return fem::DeviceModel(temperature, {{ids::absorber, film}}, {ids::absorber}, electron, hole, top, gap,
+      return fem::DeviceModel(300.0, {{ids::absorber, film}}, {ids::absorber}, electron, hole, top, gap,
                               [](double, double y) { return 4e21 * std::exp(-y / 0.2); });
     }
   };

@@ -6,6 +6,7 @@
 #include "fem/drift_diffusion.h"
 #include "fem/edge_flux.h"
 #include "fem/operating_points.h"
+#include "tests/junction.h"
 #include "tests/small_cell.h"
 #include "tests/strip_mesh.h"
 
@@ -16,7 +17,6 @@
 
 using namespace backcomb;
 using namespace backcomb::fem;
-namespace ids = backcomb::geometry::ids;
 
 namespace
 {
@@ -32,22 +32,6 @@ namespace
     n.max_iterations = 200;
     n.carrier_flux   = flux;
     return n;
-  }
-
-  // Light J-V from short circuit in steps of dV until the current changes sign.
-  std::vector<JVPoint>
-  light_jv(DriftDiffusionSolver &solver, const double dV)
-  {
-    std::vector<JVPoint> c;
-    for (double V = 0;; V += dV)
-      {
-        const StepReport s = move_to(solver, V, 1.0, 8);
-        EXPECT_TRUE(s.converged) << s.diagnostic;
-        c.push_back({V, solver.terminal_current().total(), s.converged, s.newton_iterations});
-        if (!s.converged || c.back().current < 0 || V > 3)
-          break;
-      }
-    return c;
   }
 
   const char *
@@ -75,38 +59,22 @@ TEST(CarrierFlux, BernoulliFunctionAndItsDerivative)
     }
 }
 
-// The Shockley ideal diode law J = J0 (exp(V/kT) - 1), J0 = q n_i^2 2 D /
-// (L_D N) for a symmetric long-base junction (Sze & Ng, Physics of
-// Semiconductor Devices, 3rd ed., 2007, eq. 2.52 with sec. 2.3.2), on a strip
-// whose cells start at 50 nm at the junction and the contacts (25 times the
-// 2 nm of the Galerkin verification, PnJunction.IdealDiodeLaw): the fitted
-// fluxes stay within 5 % of the law where the depletion region spans only a
-// few cells.
+// The Shockley ideal diode law J = J0 (exp(V/kT) - 1) (Sze & Ng, Physics of
+// Semiconductor Devices, 3rd ed., 2007, eq. 2.65 in sec. 2.4.2; J0 from
+// test_support::Junction) on the p-n strip of PnJunction.IdealDiodeLaw with
+// cells from 50 nm at the junction and the contacts (25 times its 2 nm):
+// the fitted fluxes stay within 5 % of the law where the depletion region
+// spans only a few cells.
 TEST(CarrierFlux, IdealDiodeOnCoarseCells)
 {
-  const double N = 1e18, B = 1e-10, L = 40.0, xj = 20.0;
-  Material     m;
-  m.band_gap = 0.9, m.electron_affinity = 4.0, m.permittivity = 12.0;
-  m.Nc = m.Nv = 2.5e19;
-  m.mu_n = m.mu_p = 100.0;
-  m.tau_n = m.tau_p = 1.0;
-  m.B_rad = B;
-  Material mp = m, mn = m;
-  mp.acceptors = N, mn.donors = N;
-  ContactParameters p_contact, n_contact;
-  p_contact.model = n_contact.model = "ohmic";
-  p_contact.work_function = m.electron_affinity + m.band_gap - Vt * std::log(m.Nv / N);
-  n_contact.work_function = m.electron_affinity + Vt * std::log(m.Nc / N);
+  test_support::Junction j;
+  j.h_min = 0.05;
   dealii::Triangulation<2> tria;
-  test_support::make_strip(tria, L, 1.0, xj, 0.05, 1.1, 0.5);
-  DeviceModel dev(T, {{ids::absorber, mn}, {ids::absorber_right, mp}}, {}, n_contact, p_contact,
-                  SurfaceParameters(), SurfaceParameters(), nullptr);
+  j.mesh(tria);
+  const DeviceModel    dev = j.dark_diode();
   DriftDiffusionSolver solver(tria, dev, numerics(Flux::edge_averaged));
   ASSERT_TRUE(solver.solve_equilibrium().converged);
-  const double ni = std::sqrt(m.Nc * m.Nv) * std::exp(-m.band_gap / (2 * Vt));
-  const double D  = m.mu_n * Vt;
-  const double Ld = std::sqrt(D / (B * N));
-  const double J0 = constants::q * ni * ni * 2 * D / (Ld * N) * 1e3; // mA/cm^2
+  const double J0 = j.saturation_current(); // mA/cm^2
   std::printf("%u cells\n", tria.n_active_cells());
   for (double V = 0.05; V <= 0.5001; V += 0.05)
     {
@@ -114,7 +82,7 @@ TEST(CarrierFlux, IdealDiodeOnCoarseCells)
       ASSERT_TRUE(s.converged) << s.diagnostic;
       if (V < 0.199)
         continue;
-      const double J = -solver.terminal_current().total() * L;
+      const double J = -solver.terminal_current().total() * j.L;
       const double ideal = J0 * (std::exp(V / Vt) - 1);
       std::printf("V = %.2f V: J = %.6e mA/cm^2, ideal diode %.6e, ratio %.4f\n", V, J, ideal, J / ideal);
       EXPECT_NEAR(J / ideal, 1.0, 0.05);
@@ -185,7 +153,7 @@ TEST(CarrierFlux, MeshConvergenceSideBySide)
       ASSERT_TRUE(illuminate(solver, 1.0, 8).converged) << name(row.flux) << " " << row.smallest_nm;
       const dealii::Vector<double> fc        = solver.collection_probability();
       const double                 collected = solver.collected_current(fc);
-      const JVMetrics              m         = jv_metrics(light_jv(solver, 0.02));
+      const JVMetrics              m         = jv_metrics(test_support::light_jv(solver, 0.02));
       ASSERT_TRUE(m.valid) << name(row.flux) << " " << row.smallest_nm;
       row.unknowns = solver.n_dofs();
       // Pmax in mW/cm^2 is the PCE in % at 100 mW/cm^2.

@@ -3,6 +3,7 @@
 #include "fem/constants.h"
 #include "fem/drift_diffusion.h"
 #include "fem/operating_points.h"
+#include "tests/junction.h"
 #include "tests/strip_mesh.h"
 
 #include <gtest/gtest.h>
@@ -12,35 +13,15 @@
 using namespace backcomb;
 using namespace backcomb::fem;
 namespace ids = backcomb::geometry::ids;
+using test_support::Junction;
+using test_support::light_jv;
+using test_support::ohmic_contact;
+using test_support::textbook_material;
 
 namespace
 {
   constexpr double T  = 300.0;
   const double     Vt = constants::k_B * T / constants::q;
-
-  ContactParameters
-  ohmic_contact()
-  {
-    ContactParameters c;
-    c.model = "ohmic";
-    return c;
-  }
-
-  // A generic crystalline semiconductor for the textbook checks; the
-  // numbers are round values of the order of the common ones, not a
-  // particular material.
-  Material
-  textbook_material()
-  {
-    Material m;
-    m.band_gap          = 0.8;
-    m.electron_affinity = 4.0;
-    m.permittivity      = 12.0;
-    m.Nc = m.Nv = 2.5e19;
-    m.mu_n = m.mu_p = 100.0;
-    m.tau_n = m.tau_p = 1.0; // SRH switched off in effect
-    return m;
-  }
 
   // Strip device; generation uniform `G` (cm^-3 s^-1) in both regions.
   DeviceModel
@@ -100,50 +81,6 @@ TEST(Equilibrium, IntrinsicDensityAndNeutralRegion)
   EXPECT_NEAR(m.intrinsic_density(T) / ni, 1.0, 1e-12);
 }
 
-namespace
-{
-  // Symmetric abrupt p-n junction: p side left (acceptors), n side right.
-  struct Junction
-  {
-    double N = 1e18, B = 1e-10, L = 40.0, xj = 20.0;
-    Material p_side() const
-    {
-      Material m  = textbook_material();
-      m.band_gap  = 0.9; // keeps the currents small enough for negligible ohmic drop
-      m.acceptors = N;
-      m.B_rad     = B;
-      return m;
-    }
-    Material n_side() const
-    {
-      Material m = textbook_material();
-      m.band_gap = 0.9;
-      m.donors   = N;
-      m.B_rad    = B;
-      return m;
-    }
-    // Graded strip, junction at xj.
-    void mesh(dealii::Triangulation<2> &tria) const
-    {
-      test_support::make_strip(tria, L, 1.0, xj, 0.002, 1.1, 0.5);
-    }
-    // Ohmic contacts whose work functions match each side's Fermi level.
-    ContactParameters p_contact() const
-    {
-      const Material    m = p_side();
-      ContactParameters c = ohmic_contact();
-      c.work_function     = m.electron_affinity + m.band_gap - Vt * std::log(m.Nv / N);
-      return c;
-    }
-    ContactParameters n_contact() const
-    {
-      const Material    m = n_side();
-      ContactParameters c = ohmic_contact();
-      c.work_function     = m.electron_affinity + Vt * std::log(m.Nc / N);
-      return c;
-    }
-  };
-} // namespace
 
 // Built-in potential V_bi = (kT/q) ln(N_A N_D / n_i^2) and depletion width
 // W = sqrt(2 eps (V_bi - 2kT/q)/q (1/N_A + 1/N_D)), the depletion
@@ -244,20 +181,10 @@ TEST(PnJunction, IdealDiodeLaw)
   const Junction j;
   dealii::Triangulation<2> tria;
   j.mesh(tria);
-  const Material mp = j.p_side(), mn = j.n_side();
-  const ContactParameters left = j.p_contact(), right = j.n_contact();
-  // The p side must be at the hole contact for forward bias V > 0:
-  // mirror the strip so that acceptors are on the right.
-  DeviceModel dev(T, {{ids::absorber, mn}, {ids::absorber_right, mp}}, {}, right, left,
-                  SurfaceParameters(), SurfaceParameters(), nullptr);
+  const DeviceModel    dev = j.dark_diode();
   DriftDiffusionSolver solver(tria, dev, tight_numerics());
   ASSERT_TRUE(solver.solve_equilibrium().converged);
-
-  const double ni  = std::sqrt(mp.Nc * mp.Nv) * std::exp(-mp.band_gap / (2 * Vt));
-  const double D   = mp.mu_n * Vt;                      // cm^2/s, Einstein relation
-  const double tau = 1.0 / (j.B * j.N);                   // s
-  const double Ld  = std::sqrt(D * tau);                  // cm
-  const double J0  = constants::q * ni * ni * 2 * D / (Ld * j.N) * 1e3; // mA/cm^2
+  const double J0 = j.saturation_current(); // mA/cm^2
   for (double V = 0.05; V <= 0.5001; V += 0.05)
     {
       const StepReport s = move_to(solver, V, 0.0, 8);
@@ -381,24 +308,6 @@ TEST(Photoconductor, SmallSignalConductance)
     }
 }
 
-namespace
-{
-  // Light J-V from 0 V in steps of dV until the current changes sign.
-  std::vector<JVPoint>
-  light_jv(DriftDiffusionSolver &solver, const double dV)
-  {
-    std::vector<JVPoint> c;
-    for (double V = 0;; V += dV)
-      {
-        const StepReport s = move_to(solver, V, 1.0, 8);
-        EXPECT_TRUE(s.converged) << s.diagnostic;
-        c.push_back({V, solver.terminal_current().total(), s.converged, s.newton_iterations});
-        if (!s.converged || c.back().current < 0 || V > 3)
-          break;
-      }
-    return c;
-  }
-} // namespace
 
 // A long-base p-n junction under weak uniform light behaves as an ideal
 // single-diode cell (superposition, low injection): its fill factor follows
