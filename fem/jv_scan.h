@@ -1,5 +1,5 @@
 // The J-V scan of one device: biases stepped outward from short circuit
-// with a linear predictor, the maximum power point refined by bisection and
+// with a polynomial predictor, the maximum power point refined by bisection and
 // the open-circuit voltage by regula falsi, every converged point kept with
 // its state. "Scan" is the bias scan of one J-V; a parameter sweep over
 // cases is a study (study/).

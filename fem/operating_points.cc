@@ -199,6 +199,108 @@ namespace backcomb::fem
     return oc;
   }
 
+  std::vector<OpenCircuit>
+  open_circuits(DriftDiffusionSolver &solver, std::vector<double> levels, double slope,
+                const unsigned max_halvings, const double tolerance_V)
+  {
+    std::sort(levels.rbegin(), levels.rend());
+    const double Vt = solver.device_model().scaling.Vt;
+    // Converged points of the last level and of the one before (or the
+    // start): ln(light), V_oc, state.
+    struct Anchor
+    {
+      double                 log_light, voltage;
+      dealii::Vector<double> state;
+    };
+    std::vector<Anchor>      anchors{{std::log(solver.light()), solver.voltage(), solver.state()}};
+    std::vector<OpenCircuit> out;
+    for (const double s : levels)
+      {
+        OpenCircuit  oc;
+        oc.light         = s;
+        const Anchor &a  = anchors.back();
+        const double  ls = std::log(s);
+        // The first point: predicted from the last two levels (or, from
+        // the start, the ideal diode's shift of V_oc by kT/q ln ratio).
+        double                 v = a.voltage + Vt * (ls - a.log_light);
+        dealii::Vector<double> guess = a.state;
+        if (anchors.size() >= 2 && anchors[anchors.size() - 2].log_light != a.log_light)
+          {
+            const Anchor &b = anchors[anchors.size() - 2];
+            const double  t = (ls - a.log_light) / (a.log_light - b.log_light);
+            v               = a.voltage + t * (a.voltage - b.voltage);
+            guess.sadd(1 + t, -t, b.state);
+          }
+        // The secant's points, newest last: voltage, current, state.
+        std::vector<double>                 vs, js;
+        std::vector<dealii::Vector<double>> us;
+        auto solve_at = [&](const double vv, const dealii::Vector<double> &g) {
+          const StepReport r =
+            solve_from_guess(solver, g, us.empty() ? a.state : us.back(), us.empty() ? a.voltage : vs.back(),
+                             us.empty() ? std::exp(a.log_light) : s, vv, s, max_halvings);
+          oc.newton_iterations += r.newton_iterations;
+          if (!r.converged)
+            {
+              oc.diagnostic = r.diagnostic;
+              return false;
+            }
+          vs.push_back(vv);
+          js.push_back(solver.terminal_current().total());
+          us.push_back(solver.state());
+          return true;
+        };
+        bool ok = solve_at(v, guess);
+        for (int it = 0; ok && it < 30; ++it)
+          {
+            const std::size_t k = vs.size() - 1;
+            if (k > 0 && std::abs(vs[k] - vs[k - 1]) < tolerance_V)
+              {
+                oc.converged = true;
+                oc.voltage   = vs[k];
+                break;
+              }
+            double            g = slope * s / std::exp(a.log_light);
+            if (k > 0 && js[k] != js[k - 1] && vs[k] != vs[k - 1])
+              g = (js[k] - js[k - 1]) / (vs[k] - vs[k - 1]);
+            if (!(g < 0))
+              {
+                oc.diagnostic = "open circuit at light factor " + std::to_string(s) +
+                                ": the current does not fall with the voltage near " + std::to_string(vs[k]) +
+                                " V";
+                ok = false;
+                break;
+              }
+            // Limited to 0.1 V so that a flat stretch cannot throw it far.
+            const double next = std::clamp(vs[k] - js[k] / g, vs[k] - 0.1, vs[k] + 0.1);
+            guess = us[k];
+            if (k > 0)
+              guess.sadd(1 + (next - vs[k]) / (vs[k] - vs[k - 1]), -(next - vs[k]) / (vs[k] - vs[k - 1]),
+                         us[k - 1]);
+            ok = solve_at(next, guess);
+          }
+        if (ok && !oc.converged)
+          oc.diagnostic = "open circuit at light factor " + std::to_string(s) +
+                          ": the secant iteration did not settle (last bias " + std::to_string(vs.back()) + " V)";
+        out.push_back(oc);
+        if (!oc.converged)
+          break;
+        slope = (js[js.size() - 1] - js[js.size() - 2]) / (vs[vs.size() - 1] - vs[vs.size() - 2]);
+        if (anchors.size() == 2)
+          anchors.erase(anchors.begin());
+        anchors.push_back({ls, oc.voltage, us.back()});
+      }
+    return out;
+  }
+
+  double
+  slope_at_open_circuit(const std::vector<JVPoint> &c)
+  {
+    for (std::size_t i = 0; i + 1 < c.size(); ++i)
+      if (c[i].current > 0 && c[i + 1].current <= 0)
+        return (c[i + 1].current - c[i].current) / (c[i + 1].voltage - c[i].voltage);
+    return 0;
+  }
+
   JVMetrics
   jv_metrics(const std::vector<JVPoint> &c)
   {

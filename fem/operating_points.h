@@ -48,6 +48,7 @@ namespace backcomb::fem
   struct OpenCircuit
   {
     bool        converged = false;
+    double      light     = 0;
     double      voltage   = 0;
     unsigned    newton_iterations = 0;
     std::string diagnostic;
@@ -57,6 +58,21 @@ namespace backcomb::fem
                                 double v_guess,
                                 unsigned max_halvings,
                                 double tolerance_V = 1e-5);
+
+  // Open circuit at each light factor of `levels`, from the largest down,
+  // starting from the solver's state near open circuit at its own light
+  // factor, where the J-V has the slope `slope` (dJ/dV, mA/cm^2/V, < 0;
+  // e.g. from the scanned points either side of V_oc). Each level is a
+  // secant iteration to `tolerance_V` whose first point is predicted from
+  // the levels before (state and V_oc extrapolated linearly in ln light)
+  // and whose second point is one step of Newton's method in V with the
+  // slope of the level before, scaled by the light ratio (at open circuit
+  // the diode's dJ/dV is proportional to the light); later points start
+  // from the state extrapolated through the last two. Stops at the first
+  // level that fails: the points found, in the order solved, the last one
+  // not converged.
+  std::vector<OpenCircuit> open_circuits(DriftDiffusionSolver &solver, std::vector<double> levels, double slope,
+                                         unsigned max_halvings, double tolerance_V = 1e-5);
 
   struct JVPoint
   {
@@ -71,6 +87,10 @@ namespace backcomb::fem
     bool   valid = false;   // false when a point they depend on failed
     double Jsc = 0, Voc = 0, FF = 0, Pmax = 0, Vmp = 0, Jmp = 0; // mA/cm^2, V, -, mW/cm^2
   };
+
+  // dJ/dV (mA/cm^2/V) between the two points of a J-V table (sorted by
+  // voltage) either side of open circuit; 0 if it has none.
+  double slope_at_open_circuit(const std::vector<JVPoint> &curve);
 
   // Metrics from a converged J-V table (sorted by voltage). Voc by linear
   // interpolation of the sign change; the maximum power point by parabolic

@@ -827,30 +827,25 @@ namespace backcomb::simulator
     loss_points.push_back(p);
   }
 
-  // Suns-V_oc: open circuit at decreasing light, each level started from
-  // the last one's V_oc shifted by the ideal-diode kT/q ln(light ratio).
+  // Suns-V_oc: open circuit at decreasing light, from the full light's
+  // (fem::open_circuits).
   void
   CaseRun::compute_suns_voc(const fem::JVMetrics &m0)
   {
     dealii::TimerOutput::Scope scope(timer, t_losses);
-    std::vector<double>        levels = c.jv.suns_voc;
-    std::sort(levels.rbegin(), levels.rend());
-    if (!m0.valid || levels.empty() || !fem::go_to(*solver, light, m0.Voc, c.numerics.max_halvings, resume))
+    if (!m0.valid || c.jv.suns_voc.empty() || !fem::go_to(*solver, light, m0.Voc, c.numerics.max_halvings, resume))
       return;
-    double previous = 1.0;
-    for (const double s : levels)
+    const double slope = fem::slope_at_open_circuit(fem::converged_curve(light));
+    for (const fem::OpenCircuit &oc :
+         fem::open_circuits(*solver, c.jv.suns_voc, slope, c.numerics.max_halvings))
       {
-        const double guess =
-          solver->voltage() + device->scaling.Vt * std::log(s / previous) + (s == previous ? 1e-3 : 0.0);
-        const fem::OpenCircuit oc = fem::find_open_circuit(*solver, s, guess, c.numerics.max_halvings);
         light.newton += oc.newton_iterations;
         if (!oc.converged)
           {
-            light.failures.push_back("suns-Voc at light factor " + format_number(s) + ": " + oc.diagnostic);
+            light.failures.push_back("suns-Voc at light factor " + format_number(oc.light) + ": " + oc.diagnostic);
             break;
           }
-        suns_voc.emplace_back(s, oc.voltage);
-        previous = s;
+        suns_voc.emplace_back(oc.light, oc.voltage);
       }
     progress.stage("suns-Voc: open circuit at " + std::to_string(suns_voc.size()) + " light levels");
   }

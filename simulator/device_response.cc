@@ -146,37 +146,25 @@ namespace backcomb::simulator
               }
             if (!r.voc_light_factors.empty())
               {
-                // From the open circuit of the full light down (or up), each
-                // level started from the nearest one's V_oc shifted by the
-                // ideal-diode kT/q ln(light ratio).
-                const fem::JVMetrics m = fem::jv_metrics(fem::converged_curve(light));
+                // From the open circuit of the full light down (or up):
+                // fem::open_circuits.
+                const auto           curve = fem::converged_curve(light);
+                const fem::JVMetrics m     = fem::jv_metrics(curve);
                 if (m.valid && fem::go_to(solver, light, m.Voc, halvings, none))
                   {
-                    std::vector<std::size_t> order(r.voc_light_factors.size());
-                    for (std::size_t i = 0; i < order.size(); ++i)
-                      order[i] = i;
-                    std::sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) {
-                      return r.voc_light_factors[a] > r.voc_light_factors[b];
-                    });
-                    const fem::OpenCircuit full = fem::find_open_circuit(solver, 1.0, m.Voc, halvings);
-                    double previous = 1.0;
-                    for (const std::size_t i : order)
+                    for (const fem::OpenCircuit &oc : fem::open_circuits(
+                           solver, r.voc_light_factors, fem::slope_at_open_circuit(curve), halvings))
                       {
-                        const double s = r.voc_light_factors[i];
-                        if (!full.converged)
-                          break;
-                        const double guess = solver.voltage() + device->scaling.Vt * std::log(s / previous) +
-                                             (s == previous ? 1e-3 : 0.0);
-                        const fem::OpenCircuit oc = fem::find_open_circuit(solver, s, guess, halvings);
                         out.newton += oc.newton_iterations;
                         if (!oc.converged)
                           {
-                            out.failures.push_back("V_oc at light factor " + format_number(s) + ": " +
+                            out.failures.push_back("V_oc at light factor " + format_number(oc.light) + ": " +
                                                    oc.diagnostic);
                             break;
                           }
-                        out.voc[i] = oc.voltage;
-                        previous   = s;
+                        for (std::size_t i = 0; i < r.voc_light_factors.size(); ++i)
+                          if (r.voc_light_factors[i] == oc.light)
+                            out.voc[i] = oc.voltage;
                       }
                   }
                 else
