@@ -225,6 +225,12 @@ namespace backcomb::fem
     if (fc)
       out.add_data_vector(*fc, collection);
     out.build_patches();
+    // zlib's fastest level: best_compression, deal.II's default, took about
+    // 0.1 s more per file of the short-film case at 50 um for files 11 %
+    // smaller (363 kB against 405 kB).
+    DataOutBase::VtkFlags flags;
+    flags.compression_level = DataOutBase::VtkFlags::best_speed;
+    out.set_flags(flags);
     // Atomic: all processes write one temporary file next to the target
     // (MPI I/O), then the first renames it.
     const std::string tmp = vtu_file + ".tmp";
