@@ -553,8 +553,16 @@ namespace backcomb::fem
   double
   PseudoJV::voltage(const double current) const
   {
-    const double s = 1 - current / jsc_;
-    if (!(s >= points_.front().suns && s <= points_.back().suns))
+    // An intensity at an end of the range, as metrics() asks for, comes
+    // back from 1 - J/J_sc with a rounding error: within 1e-9 of the
+    // range it is taken as the end.
+    const double lo = points_.front().suns, hi = points_.back().suns;
+    double       s  = 1 - current / jsc_;
+    if (s < lo && s > lo * (1 - 1e-9))
+      s = lo;
+    if (s > hi && s < hi * (1 + 1e-9))
+      s = hi;
+    if (!(s >= lo && s <= hi))
       throw std::domain_error("suns-Voc: the pseudo J-V at " + number_text(current) +
                               " mA/cm^2 needs Voc at " + number_text(s) +
                               " suns, outside the measured intensities [" +

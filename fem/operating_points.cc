@@ -159,46 +159,6 @@ namespace backcomb::fem
     return rep;
   }
 
-  OpenCircuit
-  find_open_circuit(DriftDiffusionSolver &solver, const double light, const double v_guess,
-                    const unsigned max_halvings, const double tolerance_V)
-  {
-    OpenCircuit oc;
-    auto        current_at = [&](const double v, double &j) {
-      const StepReport r = move_to(solver, v, light, max_halvings);
-      oc.newton_iterations += r.newton_iterations;
-      if (!r.converged)
-        oc.diagnostic = r.diagnostic;
-      j = solver.terminal_current().total();
-      return r.converged;
-    };
-    double v0 = solver.voltage(), j0 = 0, v1 = v_guess, j1 = 0;
-    if (!current_at(v0, j0) || !current_at(v1, j1))
-      return oc;
-    for (int it = 0; it < 30; ++it)
-      {
-        if (j1 == j0)
-          break;
-        // Secant step, limited to 0.1 V so that a flat stretch of the
-        // curve cannot throw it far.
-        const double v2 = v1 - j1 * (v1 - v0) / (j1 - j0);
-        const double v  = std::clamp(v2, v1 - 0.1, v1 + 0.1);
-        double       j  = 0;
-        if (!current_at(v, j))
-          return oc;
-        v0 = v1, j0 = j1, v1 = v, j1 = j;
-        if (std::abs(v1 - v0) < tolerance_V)
-          {
-            oc.converged = true;
-            oc.voltage   = v1;
-            return oc;
-          }
-      }
-    oc.diagnostic = "open circuit at light factor " + std::to_string(light) +
-                    ": the secant iteration did not settle (last bias " + std::to_string(v1) + " V)";
-    return oc;
-  }
-
   std::vector<OpenCircuit>
   open_circuits(DriftDiffusionSolver &solver, std::vector<double> levels, double slope,
                 const unsigned max_halvings, const double tolerance_V)

@@ -40,11 +40,7 @@ namespace backcomb::fem
   StepReport illuminate(DriftDiffusionSolver &solver, double light, unsigned max_halvings,
                         const std::function<void(const std::string &)> &stage = {});
 
-  // The voltage where the terminal current vanishes at light factor
-  // `light`, found by the secant method from the solver's current state
-  // (best near open circuit at a neighbouring light level) and a second
-  // guess `v_guess`, to `tolerance_V`. Leaves the solver there when it
-  // converges.
+  // The open circuit at one light level (open_circuits).
   struct OpenCircuit
   {
     bool        converged = false;
@@ -53,11 +49,6 @@ namespace backcomb::fem
     unsigned    newton_iterations = 0;
     std::string diagnostic;
   };
-  OpenCircuit find_open_circuit(DriftDiffusionSolver &solver,
-                                double light,
-                                double v_guess,
-                                unsigned max_halvings,
-                                double tolerance_V = 1e-5);
 
   // Open circuit at each light factor of `levels`, from the largest down,
   // starting from the solver's state near open circuit at its own light

@@ -334,6 +334,53 @@ TEST(SolarCell, IdealDiodeFillFactorFollowsGreen)
   EXPECT_NEAR(m.FF, green, 0.01);
 }
 
+// Suns-V_oc of the textbook junction: fem::open_circuits from full light
+// down four decades. Each level's V_oc is where the current vanishes
+// (checked by a solve there) and follows the ideal diode,
+// V_oc = kT/q ln(s J_sc / J_0 + 1), with J_0 of the junction (Sze & Ng,
+// Physics of Semiconductor Devices, 3rd ed., 2007, eq. 2.65) and the
+// photocurrent s J_sc by superposition (low injection).
+TEST(SunsVoc, OpenCircuitsFollowTheIdealDiodeOverFourDecades)
+{
+  const Junction j;
+  dealii::Triangulation<2> tria;
+  j.mesh(tria);
+  const double G = 1e20; // cm^-3 s^-1, as in IdealDiodeFillFactorFollowsGreen
+  DeviceModel dev(T, {{ids::absorber, j.n_side()}, {ids::absorber_right, j.p_side()}},
+                  {ids::absorber, ids::absorber_right}, j.n_contact(), j.p_contact(), SurfaceParameters(),
+                  SurfaceParameters(), [G](double, double) { return G; });
+  DriftDiffusionSolver solver(tria, dev, tight_numerics());
+  ASSERT_TRUE(illuminate(solver, 1.0, 8).converged);
+  const std::vector<JVPoint> curve = light_jv(solver, 0.01);
+  const JVMetrics            m     = jv_metrics(curve);
+  ASSERT_TRUE(m.valid);
+  ASSERT_TRUE(move_to(solver, m.Voc, 1.0, 8).converged);
+  const std::vector<double>      levels{0.001, 1.0, 0.01, 0.1}; // any order
+  const std::vector<OpenCircuit> oc = open_circuits(solver, levels, slope_at_open_circuit(curve), 8);
+  ASSERT_EQ(oc.size(), levels.size());
+  const double J0 = j.saturation_current();
+  for (const OpenCircuit &p : oc)
+    {
+      ASSERT_TRUE(p.converged) << p.diagnostic;
+      // The terminal current is per footprint (the strip's length L), J_0
+      // per cross-section (1 um): as in PnJunction.IdealDiodeLaw.
+      const double ideal = Vt * std::log(p.light * m.Jsc * j.L / J0 + 1);
+      std::printf("light %6.3f: V_oc %.6f V, ideal diode %.6f V, %u Newton steps\n", p.light, p.voltage, ideal,
+                  p.newton_iterations);
+      EXPECT_NEAR(p.voltage, ideal, 1e-3);
+    }
+  EXPECT_EQ(oc.front().light, 1.0); // from the largest level down
+  EXPECT_EQ(oc.back().light, 0.001);
+  // kT/q ln 10 per decade (measured 0.05953 V; J_0 cancels).
+  for (std::size_t i = 0; i + 1 < oc.size(); ++i)
+    EXPECT_NEAR(oc[i].voltage - oc[i + 1].voltage, Vt * std::log(10.0), 2e-4);
+  for (const OpenCircuit &p : oc)
+    {
+      ASSERT_TRUE(move_to(solver, p.voltage, p.light, 8).converged);
+      EXPECT_LT(std::abs(solver.terminal_current().total()), 1e-3 * p.light * m.Jsc) << p.light;
+    }
+}
+
 // A film that conducts very poorly collects its photocurrent only by drift
 // in the built-in field, which falls linearly with bias: the J-V is nearly
 // a straight line and FF approaches 0.25 (common practice, no source).

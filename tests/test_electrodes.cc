@@ -113,6 +113,20 @@ TEST(SunsVoc, RecoversTheLumpedSeriesResistance)
   EXPECT_NEAR(pm.Jsc, cell.Jsc, 1e-12);
 }
 
+// The pseudo J-V's dense table starts at the lowest intensity, J = J_sc
+// (1 - s_min), and 1 - J/J_sc comes back from it a rounding error below
+// s_min for some J_sc (17.2 mA/cm^2 with s_min = 0.001): the end is still
+// inside the measured intensities. The pseudo V_oc is the 1-sun V_oc.
+TEST(SunsVoc, PseudoJVTakesTheEndsOfItsIntensities)
+{
+  const PseudoJV pseudo({{0.001, 0.90}, {0.01, 1.00}, {0.1, 1.10}, {1.0, 1.20}}, 17.2);
+  const JVMetrics pm = pseudo.metrics();
+  ASSERT_TRUE(pm.valid);
+  EXPECT_NEAR(pm.Voc, 1.20, 1e-12);
+  EXPECT_NEAR(pseudo.voltage(17.2 * (1 - 0.001)), 0.90, 1e-12);
+  EXPECT_THROW(pseudo.voltage(17.2 * (1 - 0.0009)), std::domain_error);
+}
+
 // Power balance along the fingers: the film delivers integral i V_film dy,
 // which the terminals, the fingers (integral R' I^2 dy) and the contacts
 // (integral i^2 rho_c / w dy) share (energy conservation; exact for the
