@@ -6,6 +6,7 @@
 #include <vtkDataArray.h>
 #include <vtkPointData.h>
 #include <vtkProbeFilter.h>
+#include <vtkStaticCellLocator.h>
 #include <vtkUnstructuredGrid.h>
 #include <vtkXMLUnstructuredGridReader.h>
 #include <vtkCellData.h>
@@ -92,6 +93,10 @@ namespace backcomb::postprocess
     vtkNew<vtkPolyData> grid;
     grid->SetPoints(points);
     vtkNew<vtkProbeFilter> probe;
+    // A static cell locator: VTK's default search (vtkDataSet::FindCell from
+    // the last cell found) took half the time of the collection picture.
+    vtkNew<vtkStaticCellLocator> locator;
+    probe->SetCellLocatorPrototype(locator);
     probe->SetInputData(grid);
     probe->SetSourceConnection(reader->GetOutputPort());
     probe->Update();
