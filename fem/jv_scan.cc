@@ -90,10 +90,9 @@ namespace backcomb::fem
     void
     scan_side(DriftDiffusionSolver &solver, const std::vector<double> &biases, double light,
               unsigned max_halvings, JVScan &out, const ProgressLine &progress, const std::string &label,
-              const Resume &resume, bool extend_to_voc, double step)
+              const Resume &resume, bool extend_to_voc, double step, History history)
     {
       const auto             t0 = std::chrono::steady_clock::now();
-      History                history;
       std::vector<double>    todo(biases.rbegin(), biases.rend());
       double                 extended = 0;
       while (!todo.empty())
@@ -192,7 +191,22 @@ namespace backcomb::fem
     auto run = [&](const std::vector<double> &b) {
       solver.set_state(start, v0, light);
       const bool up_side = !b.empty() && b.back() >= 0;
-      scan_side(solver, b, light, max_halvings, out, progress, label, resume, light > 0 && up_side, step);
+      // The second side's predictor starts from the first side's points
+      // nearest the start (0 V first of all), newest nearest: its first
+      // biases are then extrapolated instead of solved from the start alone.
+      History seed;
+      std::vector<const ScanPoint *> near;
+      for (const auto &p : out.points)
+        if (p.jv.converged && p.state.size() > 0 && (p.jv.voltage >= 0) != up_side)
+          near.push_back(&p);
+      std::sort(near.begin(), near.end(), [v0](const ScanPoint *a, const ScanPoint *c) {
+        return std::abs(a->jv.voltage - v0) > std::abs(c->jv.voltage - v0);
+      });
+      if (near.size() > predictor_points)
+        near.erase(near.begin(), near.end() - predictor_points);
+      for (const ScanPoint *p : near)
+        seed.push(p->jv.voltage, p->state);
+      scan_side(solver, b, light, max_halvings, out, progress, label, resume, light > 0 && up_side, step, seed);
     };
     if (reverse)
       run(down), run(up);
