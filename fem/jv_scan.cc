@@ -74,16 +74,8 @@ namespace backcomb::fem
     {
       if (h.v.size() < 2)
         return move_to(solver, v, light, max_halvings);
-      dealii::Vector<double> guess(h.u.back().size());
-      for (std::size_t i = 0; i < h.v.size(); ++i)
-        {
-          double w = 1;
-          for (std::size_t j = 0; j < h.v.size(); ++j)
-            if (j != i)
-              w *= (v - h.v[j]) / (h.v[i] - h.v[j]);
-          guess.add(w, h.u[i]);
-        }
-      return solve_from_guess(solver, guess, h.u.back(), h.v.back(), light, v, light, max_halvings);
+      return solve_from_guess(solver, extrapolated(h.v, h.u, v), h.u.back(), h.v.back(), light, v, light,
+                              max_halvings);
     }
 
     // One side of a scan, in the given order, from the solver's state.

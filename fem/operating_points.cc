@@ -57,6 +57,21 @@ namespace backcomb::fem
     return rep;
   }
 
+  dealii::Vector<double>
+  extrapolated(const std::vector<double> &x, const std::vector<dealii::Vector<double>> &u, const double at)
+  {
+    dealii::Vector<double> guess(u.back().size());
+    for (std::size_t i = 0; i < x.size(); ++i)
+      {
+        double w = 1;
+        for (std::size_t j = 0; j < x.size(); ++j)
+          if (j != i)
+            w *= (at - x[j]) / (x[i] - x[j]);
+        guess.add(w, u[i]);
+      }
+    return guess;
+  }
+
   StepReport
   solve_from_guess(DriftDiffusionSolver &solver, const dealii::Vector<double> &guess,
                    const dealii::Vector<double> &last, const double last_voltage, const double last_light,
@@ -189,15 +204,18 @@ namespace backcomb::fem
             const Anchor &b = anchors[anchors.size() - 2];
             const double  t = (ls - a.log_light) / (a.log_light - b.log_light);
             v               = a.voltage + t * (a.voltage - b.voltage);
-            guess.sadd(1 + t, -t, b.state);
+            guess           = extrapolated({b.log_light, a.log_light}, {b.state, a.state}, ls);
           }
         // The secant's points, newest last: voltage, current, state.
         std::vector<double>                 vs, js;
         std::vector<dealii::Vector<double>> us;
+        // On failure from the guess: from the last point of this level, or
+        // from the level before.
         auto solve_at = [&](const double vv, const dealii::Vector<double> &g) {
-          const StepReport r =
-            solve_from_guess(solver, g, us.empty() ? a.state : us.back(), us.empty() ? a.voltage : vs.back(),
-                             us.empty() ? std::exp(a.log_light) : s, vv, s, max_halvings);
+          const StepReport r = us.empty() ?
+                                 solve_from_guess(solver, g, a.state, a.voltage, std::exp(a.log_light), vv, s,
+                                                  max_halvings) :
+                                 solve_from_guess(solver, g, us.back(), vs.back(), s, vv, s, max_halvings);
           oc.newton_iterations += r.newton_iterations;
           if (!r.converged)
             {
@@ -232,11 +250,7 @@ namespace backcomb::fem
               }
             // Limited to 0.1 V so that a flat stretch cannot throw it far.
             const double next = std::clamp(vs[k] - js[k] / g, vs[k] - 0.1, vs[k] + 0.1);
-            guess = us[k];
-            if (k > 0)
-              guess.sadd(1 + (next - vs[k]) / (vs[k] - vs[k - 1]), -(next - vs[k]) / (vs[k] - vs[k - 1]),
-                         us[k - 1]);
-            ok = solve_at(next, guess);
+            ok = solve_at(next, k > 0 ? extrapolated({vs[k - 1], vs[k]}, {us[k - 1], us[k]}, next) : us[k]);
           }
         if (ok && !oc.converged)
           oc.diagnostic = "open circuit at light factor " + std::to_string(s) +

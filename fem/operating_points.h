@@ -19,6 +19,11 @@ namespace backcomb::fem
     std::string diagnostic;            // why it failed (bias, update history, where)
   };
 
+  // The state at x extrapolated (or interpolated) by the Lagrange
+  // polynomial through the states u[i] at x[i] (distinct x; at least one).
+  dealii::Vector<double> extrapolated(const std::vector<double> &x, const std::vector<dealii::Vector<double>> &u,
+                                      double at);
+
   // Solves at (voltage, light) from the first guess `guess` (a predictor);
   // if Newton fails from there, moves to it with move_to() from the last
   // converged state `last` at (last_voltage, last_light).
