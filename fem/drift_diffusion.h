@@ -138,9 +138,10 @@ namespace backcomb::fem
     // and light factor s (generation scaled by s), starting from the
     // current state. Does not change the state if Newton fails. A
     // non-zero `iteration_budget` caps the Newton iterations below
-    // Numerics/Newton iterations and drops the retry with plain Newton
-    // after failed chord steps: for a start from a predicted guess, whose
-    // caller falls back to a start from the last converged state.
+    // Numerics/Newton iterations, stops as soon as an update grows past
+    // the first one and the update limit, and drops the retry with plain
+    // Newton after failed chord steps: for a start from a predicted guess,
+    // whose caller falls back to a start from the last converged state.
     NewtonReport solve(double voltage, double light_factor, unsigned iteration_budget = 0);
 
     // Photon recycling as transport (DeviceModel::recycling set): each
@@ -364,8 +365,11 @@ namespace backcomb::fem
       return transient ? zero_constraints : steady_constraints;
     }
     // Newton's method; with `reuse` a step may take the factorisation of an
-    // earlier Jacobian (a chord step) while the updates contract fast.
-    NewtonReport newton(dealii::Vector<double> &u, double light, bool reuse, unsigned max_iterations) const;
+    // earlier Jacobian (a chord step) while the updates contract fast. With
+    // `give_up_on_growth` it stops, not converged, at a step whose update
+    // exceeds both the update limit and the first update.
+    NewtonReport newton(dealii::Vector<double> &u, double light, bool reuse, unsigned max_iterations,
+                        bool give_up_on_growth = false) const;
     bool lu_solve(Vec b, Vec x, bool transpose) const;
     // All DoFs of component c on boundary b, on every process.
     std::vector<dealii::types::global_dof_index> boundary_dofs(unsigned b, unsigned c) const;
@@ -410,6 +414,15 @@ namespace backcomb::fem
     mutable dealii::PETScWrappers::MPI::Vector       rhs;
     mutable dealii::PETScWrappers::MPI::Vector       row_scale; // of the factorised Jacobian
     mutable bool                     factors_valid = false; // the KSP holds factors of `jacobian`
+    // Assembly straight into the arrays of the factorised matrix and of the
+    // right-hand side (direct_assembly()): for the constraints it was built
+    // for, each cell's local entry (i, j) at csr_position[(cell * dpc + i) *
+    // dpc + j] in the matrix's value array, -1 where the constraints drop it.
+    mutable const dealii::AffineConstraints<double> *csr_for = nullptr;
+    mutable std::vector<PetscInt>                     csr_position;
+    bool direct_assembly() const;
+    void add_cell_direct(std::size_t cell, const dealii::FullMatrix<double> *A, const dealii::Vector<double> &F,
+                         PetscScalar *matrix_values, PetscScalar *rhs_values) const;
     dealii::Vector<double>           solution;
     dealii::Vector<double>           equilibrium; // once solved
     // Per-cell data of the assembly (the mesh never changes): DoF indices,

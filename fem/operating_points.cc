@@ -258,12 +258,20 @@ namespace backcomb::fem
         out.push_back(oc);
         if (!oc.converged)
           break;
-        slope = (js[js.size() - 1] - js[js.size() - 2]) / (vs[vs.size() - 1] - vs[vs.size() - 2]);
+        // Handed on at this level's light (the next level scales it again).
+        slope = next_level_slope(vs, js, slope * s / std::exp(a.log_light));
         if (anchors.size() == 2)
           anchors.erase(anchors.begin());
         anchors.push_back({ls, oc.voltage, us.back()});
       }
     return out;
+  }
+
+  double
+  next_level_slope(const std::vector<double> &v, const std::vector<double> &j, const double level_slope)
+  {
+    const double dv = v.empty() ? 0.0 : v.back() - v.front();
+    return std::abs(dv) > 1e-3 ? (j.back() - j.front()) / dv : level_slope;
   }
 
   double

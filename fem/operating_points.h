@@ -70,6 +70,14 @@ namespace backcomb::fem
   std::vector<OpenCircuit> open_circuits(DriftDiffusionSolver &solver, std::vector<double> levels, double slope,
                                          unsigned max_halvings, double tolerance_V = 1e-5);
 
+  // The slope dJ/dV an open-circuit level hands to the next one, from its
+  // secant points (voltages `v`, currents `j`, in the order solved): the
+  // secant through the first and the last when they lie more than 1 mV
+  // apart. Points closer than that (a level that starts at its own V_oc
+  // closes on the second) differ in current only at the solver's tolerance,
+  // so the level's own starting slope `level_slope` is handed on instead.
+  double next_level_slope(const std::vector<double> &v, const std::vector<double> &j, double level_slope);
+
   struct JVPoint
   {
     double   voltage   = 0; // V
