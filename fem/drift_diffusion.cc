@@ -1331,4 +1331,3 @@ namespace backcomb::fem
     return Utilities::MPI::sum(total, comm) * device.scaling.J0 / width;
   }
 } // namespace backcomb::fem
-
