@@ -553,9 +553,9 @@ namespace backcomb::fem
   double
   PseudoJV::voltage(const double current) const
   {
-    // An intensity at an end of the range, as metrics() asks for, comes
-    // back from 1 - J/J_sc with a rounding error: within 1e-9 of the
-    // range it is taken as the end.
+    // An intensity at an end of the range, as a current J_sc (1 - s_end)
+    // gives, comes back from 1 - J/J_sc with a rounding error: within 1e-9
+    // of the range it is taken as the end.
     const double lo = points_.front().suns, hi = points_.back().suns;
     double       s  = 1 - current / jsc_;
     if (s < lo && s > lo * (1 - 1e-9))
@@ -568,6 +568,12 @@ namespace backcomb::fem
                               " suns, outside the measured intensities [" +
                               number_text(points_.front().suns) + ", " +
                               number_text(points_.back().suns) + "]");
+    return voc_at(s);
+  }
+
+  double
+  PseudoJV::voc_at(const double s) const
+  {
     std::size_t k = 0;
     while (k + 2 < points_.size() && s > points_[k + 1].suns)
       ++k;
@@ -594,8 +600,8 @@ namespace backcomb::fem
     for (unsigned k = 0; k < samples; ++k)
       {
         const double s = std::exp(lo + (hi - lo) * k / (samples - 1));
-        const double J = jsc_ * (1 - s);
-        dense.push_back({voltage(J), J, true, 0});
+        // At the sampled intensity itself, not through 1 - J/J_sc.
+        dense.push_back({voc_at(s), jsc_ * (1 - s), true, 0});
       }
     return jv_metrics(dense);
   }

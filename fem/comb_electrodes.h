@@ -199,6 +199,10 @@ namespace backcomb::fem
     double jsc() const { return jsc_; }
 
   private:
+    // V_oc at intensity s (suns) in [first, last measured], interpolated
+    // linearly in ln s.
+    double voc_at(double s) const;
+
     std::vector<SunsVocPoint> points_;
     double                    jsc_;
   };

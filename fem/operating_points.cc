@@ -227,7 +227,10 @@ namespace backcomb::fem
           us.push_back(solver.state());
           return true;
         };
-        bool ok = solve_at(v, guess);
+        // This level's slope at its start: the last one scaled by the light
+        // ratio (at open circuit the diode's dJ/dV is proportional to it).
+        const double level_slope = slope * s / std::exp(a.log_light);
+        bool         ok          = solve_at(v, guess);
         for (int it = 0; ok && it < 30; ++it)
           {
             const std::size_t k = vs.size() - 1;
@@ -237,7 +240,7 @@ namespace backcomb::fem
                 oc.voltage   = vs[k];
                 break;
               }
-            double            g = slope * s / std::exp(a.log_light);
+            double            g = level_slope;
             if (k > 0 && js[k] != js[k - 1] && vs[k] != vs[k - 1])
               g = (js[k] - js[k - 1]) / (vs[k] - vs[k - 1]);
             if (!(g < 0))
@@ -258,8 +261,7 @@ namespace backcomb::fem
         out.push_back(oc);
         if (!oc.converged)
           break;
-        // Handed on at this level's light (the next level scales it again).
-        slope = next_level_slope(vs, js, slope * s / std::exp(a.log_light));
+        slope = next_level_slope(vs, js, level_slope);
         if (anchors.size() == 2)
           anchors.erase(anchors.begin());
         anchors.push_back({ls, oc.voltage, us.back()});
