@@ -13,6 +13,8 @@
 // restarted whenever a new Jacobian is factorised.
 #pragma once
 
+#include "fem/blas_lock.h"
+
 #include <deal.II/lac/lapack_full_matrix.h>
 #include <deal.II/lac/vector.h>
 
@@ -87,10 +89,14 @@ namespace backcomb::fem
             gram(i, j) = gram(j, i) = df[i] * df[j];
         }
       s = f_last;
-      if (!(gram.frobenius_norm() > 0) || !std::isfinite(gram.frobenius_norm()))
-        return;
-      gram.compute_inverse_svd(1e-10);
-      gram.vmult(gamma, rhs);
+      {
+        const BlasTurn                    turn; // LAPACK and BLAS
+        const double                      size = gram.frobenius_norm();
+        if (!(size > 0) || !std::isfinite(size))
+          return;
+        gram.compute_inverse_svd(1e-10);
+        gram.vmult(gamma, rhs);
+      }
       for (unsigned j = 0; j < m; ++j)
         if (std::isfinite(gamma(j)))
           {

@@ -2,6 +2,7 @@
 #include "fem/newton_rules.h"
 
 #include "fem/anderson.h"
+#include "fem/blas_lock.h"
 #include "fem/edge_flux.h"
 #include "geometry/ids.h"
 
@@ -17,9 +18,12 @@
 #include <deal.II/lac/sparsity_tools.h>
 #include <deal.II/numerics/vector_tools.h>
 
+#include <petscdm.h>
 #include <petscksp.h>
+#include <petscsnes.h>
 
 #include <algorithm>
+#include <optional>
 #include <chrono>
 #include <cmath>
 
@@ -89,7 +93,10 @@ namespace backcomb::fem
 
   DriftDiffusionSolver::DriftDiffusionSolver(const Triangulation<2> &tria_,
                                              const DeviceModel &device_,
-                                             const NumericsParameters &numerics_)
+                                             const NumericsParameters &numerics_,
+                                             const MPI_Comm own_comm,
+                                             const bool background_,
+                                             const std::string &lu_package_)
     : tria(tria_)
     , device(device_)
     , numerics(numerics_)
@@ -106,6 +113,21 @@ namespace backcomb::fem
   {
     if (const auto *p = dynamic_cast<const parallel::TriangulationBase<2> *>(&tria))
       comm = p->get_communicator();
+    if (own_comm != MPI_COMM_NULL)
+      {
+        AssertThrow(Utilities::MPI::n_mpi_processes(own_comm) == Utilities::MPI::n_mpi_processes(comm),
+                    ExcMessage("a solver's own communicator spans the processes of its mesh"));
+        comm = own_comm;
+      }
+    lu_package = lu_package_;
+    background = background_;
+    // PETSc registers its classes and their types at first use, which is
+    // not thread-safe: done here, before a solver may work in a thread.
+    for (PetscErrorCode (*init)() : {VecInitializePackage, MatInitializePackage, DMInitializePackage,
+                                     PCInitializePackage, KSPInitializePackage, SNESInitializePackage})
+      check(init(), "PETSc package registration");
+    AssertThrow(lu_package == MATSOLVERMUMPS || Utilities::MPI::n_mpi_processes(comm) == 1,
+                ExcMessage("LU package " + lu_package + " factorises on one process only"));
     double xmin = 1e300, xmax = -1e300;
     for (const auto &v : tria.get_vertices())
       {
@@ -121,21 +143,35 @@ namespace backcomb::fem
 
   DriftDiffusionSolver::~DriftDiffusionSolver()
   {
+    const BlasTurn turn(background);
     if (ksp)
       KSPDestroy(&ksp);
   }
 
-  // Direct LU solve with MUMPS through PETSc: J x = b or J^T x = b. The
+  // Direct LU solve with `lu_package` (MUMPS unless the solver was made
+  // with another) through PETSc: J x = b or J^T x = b. The
   // KSP object lives as long as the solver, so that the symbolic
   // factorisation (ordering) is reused; PETSc refactorises numerically
   // only when the matrix values changed since the last solve, so a chord
   // step (new right-hand side, same matrix) costs one back-substitution.
   // The PETSc options database is read last (e.g. PETSC_OPTIONS=
   // "-pc_factor_mat_solver_type umfpack" to compare direct solvers).
+  // PETSc's own LU ("petsc", nested-dissection ordering) does not pivot:
+  // each of its solutions is checked by its normwise backward error
+  // |J x - b| / (|J| |x| + |b|) in the maximum norm (N. J. Higham,
+  // Accuracy and Stability of Numerical Algorithms, 2nd ed. 2002, Thm.
+  // 7.1), and above 1e-12, or where it meets a zero pivot, the solver
+  // moves to KLU (SuiteSparse; partial pivoting) for good and solves again.
   // Returns false if the factorisation failed (e.g. a singular Jacobian).
   bool
   DriftDiffusionSolver::lu_solve(const Vec b, Vec x, const bool transpose) const
   {
+    // The packages that call BLAS take turns (fem/blas_lock.h); PETSc's
+    // own LU and KLU do not call it.
+    const bool              blas = lu_package != MATSOLVERPETSC && lu_package != MATSOLVERKLU;
+    std::optional<BlasTurn> turn;
+    if (blas)
+      turn.emplace(background);
     if (!ksp)
       {
         PC pc;
@@ -143,7 +179,9 @@ namespace backcomb::fem
         check(KSPSetType(ksp, KSPPREONLY), "KSPSetType");
         check(KSPGetPC(ksp, &pc), "KSPGetPC");
         check(PCSetType(pc, PCLU), "PCSetType");
-        check(PCFactorSetMatSolverType(pc, MATSOLVERMUMPS), "PCFactorSetMatSolverType");
+        check(PCFactorSetMatSolverType(pc, lu_package.c_str()), "PCFactorSetMatSolverType");
+        if (lu_package == MATSOLVERPETSC)
+          check(PCFactorSetMatOrderingType(pc, MATORDERINGND), "PCFactorSetMatOrderingType");
         check(KSPSetErrorIfNotConverged(ksp, PETSC_FALSE), "KSPSetErrorIfNotConverged");
         check(KSPSetFromOptions(ksp), "KSPSetFromOptions");
       }
@@ -169,15 +207,41 @@ namespace backcomb::fem
     KSPConvergedReason reason = KSP_DIVERGED_BREAKDOWN;
     if (code == 0)
       KSPGetConvergedReason(ksp, &reason);
-    if (code != 0 || reason < 0)
+    bool ok = code == 0 && reason >= 0;
+    if (ok && lu_package == MATSOLVERPETSC)
+      {
+        Vec       r;
+        PetscReal norm_A = 0, norm_x = 0, norm_b = 0, norm_r = 0;
+        check(VecDuplicate(b, &r), "VecDuplicate");
+        check(transpose ? MatMultTranspose(A, x, r) : MatMult(A, x, r), "MatMult");
+        check(VecAXPY(r, -1.0, b), "VecAXPY");
+        check(MatNorm(A, transpose ? NORM_1 : NORM_INFINITY, &norm_A), "MatNorm");
+        check(VecNorm(x, NORM_INFINITY, &norm_x), "VecNorm");
+        check(VecNorm(b, NORM_INFINITY, &norm_b), "VecNorm");
+        check(VecNorm(r, NORM_INFINITY, &norm_r), "VecNorm");
+        check(VecDestroy(&r), "VecDestroy");
+        ok = norm_r <= 1e-12 * (norm_A * norm_x + norm_b);
+      }
+    if (!ok)
       {
         // Start afresh next time: a failed factorisation leaves the PC in
         // an error state.
         KSPDestroy(&ksp);
         ksp = nullptr;
+        if (lu_package == MATSOLVERPETSC)
+          {
+            lu_package = MATSOLVERKLU;
+            return lu_solve(b, x, transpose);
+          }
         return false;
       }
     return true;
+  }
+
+  MPI_Comm
+  DriftDiffusionSolver::serial_communicator() const
+  {
+    return Utilities::MPI::n_mpi_processes(comm) == 1 ? comm : MPI_COMM_SELF;
   }
 
   std::vector<types::global_dof_index>

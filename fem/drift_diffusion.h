@@ -120,10 +120,22 @@ namespace backcomb::fem
   {
   public:
     // The processes taking part are those of `tria` if it is a parallel
-    // triangulation, otherwise only the calling process.
+    // triangulation, otherwise only the calling process. A second solver
+    // that works in a thread of its own beside the first (the dark J-V
+    // beside the light one, simulator/case_run.cc) is given a communicator
+    // of its own over the same processes, `own_comm`, so that the two
+    // never share a PETSc object or an MPI communicator; their
+    // factorisations take turns (fem/blas_lock.h), a `background` solver's
+    // after the others'. `lu_package` is PETSc's name of the LU package:
+    // MUMPS, or on one process PETSc's own LU ("petsc", which calls no BLAS
+    // and so needs no turn; checked, with KLU behind it, in lu_solve) or
+    // another package of PETSc's for comparisons.
     DriftDiffusionSolver(const dealii::Triangulation<2> &tria,
                          const DeviceModel &device,
-                         const NumericsParameters &numerics);
+                         const NumericsParameters &numerics,
+                         MPI_Comm own_comm = MPI_COMM_NULL,
+                         bool background = false,
+                         const std::string &lu_package = "mumps");
 
     // Sets the initial guess (local charge neutrality, flat quasi-Fermi
     // levels) and solves thermal equilibrium in the dark at zero bias; a
@@ -298,6 +310,12 @@ namespace backcomb::fem
     void solve_transposed(const dealii::Vector<double> &b, dealii::Vector<double> &z) const;
 
     MPI_Comm communicator() const { return comm; }
+    // PETSc's name of the LU package in use (it changes from "petsc" to
+    // "klu" where PETSc's own LU, which does not pivot, fell short).
+    const std::string &lu_package_in_use() const { return lu_package; }
+    // The communicator of the objects that live on each process alone
+    // (the recycling's Anderson mixing): `comm` itself on one process.
+    MPI_Comm serial_communicator() const;
 
   private:
     void setup_system();
@@ -387,7 +405,9 @@ namespace backcomb::fem
     // Reused by assemble_cell (the solver is used by one thread).
     std::unique_ptr<dealii::FEValues<2>>     fe_values;
     std::unique_ptr<dealii::FEFaceValues<2>> fe_face_values;
-    mutable KSP                      ksp = nullptr; // MUMPS LU, kept between solves
+    mutable std::string              lu_package;    // PETSc's name of the LU package
+    bool                             background = false; // takes its turn after the others
+    mutable KSP                      ksp = nullptr; // the LU, kept between solves
     dealii::IndexSet                 owned, relevant;
     dealii::AffineConstraints<double> zero_constraints; // Dirichlet DoFs of the update
     // With ions in their steady state, also every ion DoF tied to one:

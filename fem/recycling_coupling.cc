@@ -338,7 +338,7 @@ namespace backcomb::fem
 
     SNES snes;
     Vec  x, r;
-    VecCreateSeq(PETSC_COMM_SELF, PetscInt(nc), &x);
+    VecCreateSeq(serial_communicator(), PetscInt(nc), &x);
     VecDuplicate(x, &r);
     {
       PetscScalar *xa = nullptr;
@@ -347,7 +347,7 @@ namespace backcomb::fem
         xa[i] = columns.recycled[i] / it.scale;
       VecRestoreArray(x, &xa);
     }
-    SNESCreate(PETSC_COMM_SELF, &snes);
+    SNESCreate(serial_communicator(), &snes);
     SNESSetType(snes, SNESANDERSON);
     SNESSetFunction(snes, r, outer_residual, &it);
     SNESSetConvergenceTest(snes, converged_in_every_column, nullptr, nullptr);

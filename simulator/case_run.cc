@@ -36,15 +36,20 @@
 #include <vtkVersion.h>
 
 #include <algorithm>
+#include <atomic>
 #include <chrono>
 #include <cmath>
 #include <cstdio>
+#include <exception>
 #include <filesystem>
 #include <map>
 #include <memory>
+#include <mutex>
 #include <optional>
+#include <sched.h>
 #include <sstream>
 #include <stdexcept>
+#include <thread>
 #include <unistd.h>
 
 namespace backcomb::simulator
@@ -99,38 +104,56 @@ namespace backcomb::simulator
           }
       }
 
-      // A finished stage.
+      // A finished stage. Stages and lines may come from two threads (the
+      // dark J-V runs beside the light one): each is printed whole.
       void
       stage(const std::string &s) const
       {
-        done();
+        const std::lock_guard<std::mutex> hold(mutex);
+        clear_line();
         if (print)
           {
             std::printf("[%7.1f s] %s\n", seconds(), s.c_str());
             std::fflush(stdout);
           }
-        to_log(s);
+        write_log(s);
       }
 
       // One J-V point.
       void
       line(const std::string &s) const
       {
+        const std::lock_guard<std::mutex> hold(mutex);
         if (live)
           std::fprintf(stderr, "\r%-78s", s.c_str());
-        to_log(s);
+        write_log(s);
       }
 
       void
       done() const
       {
-        if (live)
-          std::fprintf(stderr, "\r%-78s\r", "");
+        const std::lock_guard<std::mutex> hold(mutex);
+        clear_line();
       }
 
       // A line for the log file only.
       void
       to_log(const std::string &s) const
+      {
+        const std::lock_guard<std::mutex> hold(mutex);
+        write_log(s);
+      }
+
+    private:
+      void
+      clear_line() const
+      {
+        if (live)
+          std::fprintf(stderr, "\r%-78s\r", "");
+      }
+
+      void
+      write_log(const std::string &s) const
       {
         if (log)
           {
@@ -139,7 +162,6 @@ namespace backcomb::simulator
           }
       }
 
-    private:
       double
       seconds() const
       {
@@ -153,6 +175,34 @@ namespace backcomb::simulator
       bool                               print, live;
       std::chrono::steady_clock::time_point start;
       std::unique_ptr<std::FILE, Close>   log;
+      mutable std::mutex                  mutex;
+    };
+
+    // Whether the dark J-V may run in a thread of its own beside the light
+    // J-V: the case runs on one process, MPI allows calls from several
+    // threads (the backcomb program asks for MPI_THREAD_MULTIPLE,
+    // app/mpi_threads.cc), this process may run on two CPUs or more, and
+    // the job's processes leave a core for the second thread (a sweep on
+    // as many processes as cores puts one case on each and no thread).
+    bool
+    second_core_free(const MPI_Comm comm)
+    {
+      if (dealii::Utilities::MPI::n_mpi_processes(comm) != 1)
+        return false;
+      int level = MPI_THREAD_SINGLE;
+      MPI_Query_thread(&level);
+      if (level != MPI_THREAD_MULTIPLE)
+        return false;
+      cpu_set_t allowed;
+      CPU_ZERO(&allowed);
+      if (sched_getaffinity(0, sizeof allowed, &allowed) != 0 || CPU_COUNT(&allowed) < 2)
+        return false;
+      return 2 * dealii::Utilities::MPI::n_mpi_processes(MPI_COMM_WORLD) <= std::thread::hardware_concurrency();
+    }
+
+    // Thrown in the dark J-V's thread to stop it when the run ends early.
+    struct DarkScanStopped
+    {
     };
 
     std::vector<double>
@@ -231,6 +281,9 @@ namespace backcomb::simulator
   {
   public:
     CaseRun(const Case &c, const RunOptions &o);
+    ~CaseRun();
+    CaseRun(const CaseRun &) = delete;
+    CaseRun &operator=(const CaseRun &) = delete;
     int run();
 
   private:
@@ -249,6 +302,8 @@ namespace backcomb::simulator
     void compute_power_balance(const fem::JVMetrics &m0);
     void balance_at(const std::string &name, double v);
     void compute_suns_voc(const fem::JVMetrics &m0);
+    void start_dark_jv();
+    void scan_dark(fem::DriftDiffusionSolver &s);
     void solve_dark_jv();
     void scan_with_moving_ions();
     void evaluate_comb_cell();
@@ -272,6 +327,14 @@ namespace backcomb::simulator
     std::unique_ptr<dealii::parallel::shared::Triangulation<2>> tria;
     std::unique_ptr<fem::DeviceModel>                          device;
     std::unique_ptr<fem::DriftDiffusionSolver>                 solver;
+    // The dark J-V beside the light one (second_core_free()): its own
+    // solver, communicator and thread; `stop_dark` ends it early.
+    std::unique_ptr<fem::DriftDiffusionSolver> dark_solver;
+    MPI_Comm                                   dark_comm = MPI_COMM_NULL;
+    std::thread                                dark_thread;
+    std::exception_ptr                         dark_error;
+    std::atomic<bool>                          stop_dark{false};
+    double                                     dark_seconds = 0;
     std::unique_ptr<Checkpoint>                                checkpoint;
     std::unique_ptr<FolderLock>                                lock; // rank 0
     std::optional<double>     photon_limit; // above-gap photon current of the incident light, mA/cm^2
@@ -332,12 +395,23 @@ namespace backcomb::simulator
     total_time.start();
   }
 
+  CaseRun::~CaseRun()
+  {
+    stop_dark = true;
+    if (dark_thread.joinable())
+      dark_thread.join();
+    dark_solver.reset();
+    if (dark_comm != MPI_COMM_NULL)
+      MPI_Comm_free(&dark_comm);
+  }
+
   int
   CaseRun::run()
   {
     prepare_folder();
     build_mesh();
     set_up_solver();
+    start_dark_jv();
     solve_light_jv();
     if (on.converged)
       write_fields();
@@ -850,23 +924,78 @@ namespace backcomb::simulator
     progress.stage("suns-Voc: open circuit at " + std::to_string(suns_voc.size()) + " light levels");
   }
 
-  // The dark J-V over the same biases, from equilibrium.
+  // The dark J-V over the same biases, from equilibrium: in a thread of its
+  // own from the start of the run where a core is free, on a second solver,
+  // else here on the run's solver. The second solver has its own
+  // communicator, solves equilibrium again in its thread, and factorises
+  // with PETSc's own LU, which calls no BLAS (fem/blas_lock.h: MUMPS in
+  // both threads would have to take turns, and the light J-V waited for
+  // the dark one's factorisations so often that the run gained little).
+  // The light J-V and everything from it are the same bit for bit either
+  // way; the dark currents agree to the Newton tolerance
+  // (tests/threaded_dark_cli.sh).
+  void
+  CaseRun::start_dark_jv()
+  {
+    // Photon recycling as transport is left out: PETSc's Anderson mixing
+    // of its outer iteration calls LAPACK without a turn (fem/blas_lock.h).
+    if (!lit || !c.jv.dark || solver->transports_photons() || !second_core_free(o.communicator))
+      return;
+    MPI_Comm_dup(o.communicator, &dark_comm);
+    dark_solver = std::make_unique<fem::DriftDiffusionSolver>(*tria, *device, c.numerics, dark_comm, true,
+                                                         MATSOLVERPETSC);
+    dark_thread = std::thread([this] {
+      try
+        {
+          scan_dark(*dark_solver);
+        }
+      catch (const DarkScanStopped &)
+        {
+        }
+      catch (...)
+        {
+          dark_error = std::current_exception();
+        }
+    });
+  }
+
+  void
+  CaseRun::scan_dark(fem::DriftDiffusionSolver &s)
+  {
+    const auto            t0     = std::chrono::steady_clock::now();
+    const unsigned        before = s.factorisations();
+    const fem::StepReport eq     = fem::start_state(s, 0.0, c.numerics.max_halvings, "dark", resume);
+    dark.newton += eq.newton_iterations;
+    if (eq.converged)
+      fem::scan(s, bias_grid(c), c.jv.reverse, 0.0, c.jv.step, c.numerics.max_halvings, dark,
+                [this](const std::string &line) {
+                  if (stop_dark)
+                    throw DarkScanStopped();
+                  progress.line(line);
+                },
+                "dark", resume);
+    else
+      dark.failures.push_back(eq.diagnostic);
+    dark_factorisations = s.factorisations() - before;
+    dark_seconds        = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  }
+
   void
   CaseRun::solve_dark_jv()
   {
     dealii::TimerOutput::Scope scope(timer, t_dark);
     if (!lit || !c.jv.dark)
       return;
-    const unsigned        before = solver->factorisations();
-    const fem::StepReport eq = fem::start_state(*solver, 0.0, c.numerics.max_halvings, "dark", resume);
-    dark.newton += eq.newton_iterations;
-    if (eq.converged)
-      fem::scan(*solver, bias_grid(c), c.jv.reverse, 0.0, c.jv.step, c.numerics.max_halvings, dark,
-                [this](const std::string &s) { progress.line(s); }, "dark", resume);
+    if (dark_thread.joinable())
+      {
+        dark_thread.join();
+        if (dark_error)
+          std::rethrow_exception(dark_error);
+      }
     else
-      dark.failures.push_back(eq.diagnostic);
-    dark_factorisations = solver->factorisations() - before;
-    progress.stage("dark J-V: " + std::to_string(fem::converged_curve(dark).size()) + " converged points");
+      scan_dark(*solver);
+    progress.stage("dark J-V: " + std::to_string(fem::converged_curve(dark).size()) + " converged points" +
+                   (dark_solver ? " (in a thread beside the light J-V)" : ""));
   }
 
   void
@@ -1032,7 +1161,9 @@ namespace backcomb::simulator
           {"Jsc_mA_per_cm2", S * sq.Jsc_mA_per_cm2},
           {"Voc_V", fem::thermal_voltage(c.device.temperature) * std::log1p(S * sq.Jsc_mA_per_cm2 / sq.J0_mA_per_cm2)}};
       }
-    j["outer_iterations"] = solver ? json(solver->recycling_iterations()) : json(nullptr);
+    j["outer_iterations"] =
+      solver ? json(solver->recycling_iterations() + (dark_solver ? dark_solver->recycling_iterations() : 0u))
+             : json(nullptr);
     j["operator_bytes"]   = solver ? json(solver->recycling_operator_bytes()) : json(nullptr);
     return j;
   }
@@ -1067,7 +1198,12 @@ namespace backcomb::simulator
                    {"dark_iterations", dark.newton},
                    {"dark_halvings", dark.halvings},
                    {"dark_factorisations", dark_factorisations},
-                   {"factorisations", solver ? solver->factorisations() : 0u}};
+                   {"dark_in_own_thread", dark_solver != nullptr},
+                   {"lu_package", solver ? json(solver->lu_package_in_use()) : json(nullptr)},
+                   {"dark_lu_package", dark_solver ? json(dark_solver->lu_package_in_use())
+                                                   : solver ? json(solver->lu_package_in_use()) : json(nullptr)},
+                   {"factorisations", (solver ? solver->factorisations() : 0u) +
+                                        (dark_solver ? dark_solver->factorisations() : 0u)}};
     s["fields"]         = fields;
     s["collection_map"] = collection;
     s["eqe"]            = eqe ? eqe_json(*eqe, "eqe.csv") : json(nullptr);
@@ -1106,6 +1242,9 @@ namespace backcomb::simulator
     json &t = s["timings_s"];
     for (const char *name : {t_mesh, t_light, t_fields, t_losses, t_dark, t_cell, t_ions})
       t[name] = phase(name);
+    // The dark J-V's own time (in its thread, the phase is only the wait).
+    if (lit && c.jv.dark)
+      t[t_dark] = dark_seconds;
     t["light_start"]        = ramp_seconds;
     t["light_assembly"]     = light_assembly;
     t["light_linear_solve"] = light_solve;

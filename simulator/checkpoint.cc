@@ -216,7 +216,8 @@ namespace backcomb::simulator
   void
   Checkpoint::save(const StoredPoint &p)
   {
-    std::string error;
+    const std::lock_guard<std::mutex> hold(saving);
+    std::string                       error;
     if (root)
       try
         {
@@ -233,7 +234,8 @@ namespace backcomb::simulator
         {
           error = e.what();
         }
-    error = dealii::Utilities::MPI::broadcast(comm, error, 0);
+    if (dealii::Utilities::MPI::n_mpi_processes(comm) > 1)
+      error = dealii::Utilities::MPI::broadcast(comm, error, 0);
     if (!error.empty())
       throw OutputError(error);
     fingerprint_written = true;

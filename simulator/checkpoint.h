@@ -16,6 +16,8 @@
 
 #include <mpi.h>
 
+#include <mutex>
+
 #include <string>
 #include <vector>
 
@@ -50,7 +52,9 @@ namespace backcomb::simulator
 
     // Stores one point (rank 0 writes; the others only count). Collective,
     // so that an I/O error on rank 0 stops every process alike
-    // (OutputError naming the file).
+    // (OutputError naming the file). On one process it may be called from
+    // two threads (the light and the dark J-V): the points are numbered
+    // one after the other, and no MPI call is made.
     void save(const StoredPoint &p) override;
 
     // Removes the checkpoint folder (rank 0), after the results are written.
@@ -64,5 +68,6 @@ namespace backcomb::simulator
     bool        root;
     unsigned    next = 1; // number of the next point file
     bool        fingerprint_written = false;
+    std::mutex  saving;
   };
 } // namespace backcomb::simulator

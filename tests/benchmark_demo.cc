@@ -3,7 +3,9 @@
 //   1. the demo case as shipped (light J-V in 20 mV steps with the maximum
 //      power point and V_oc refined, fields and collection map, power
 //      balance, suns-V_oc, dark J-V): the full `solve`;
-//   2. the light J-V alone on a 10 mV grid from -0.1 to 1.3 V (141 biases).
+//   2. the light J-V alone on a 10 mV grid from -0.1 to 1.3 V (141 biases);
+//   3. where the dark J-V ran in a thread of its own in run 1, run 1 again
+//      with the process held to one CPU (the dark J-V after the light one).
 // The floor is one numerical factorisation of the Jacobian (the mean over
 // the run); a bias that costs one factorisation, one assembly and a few
 // residuals is near it. The demo sweep's time is printed by `.ci/demo`.
@@ -15,6 +17,8 @@
 #include <nlohmann/json.hpp>
 
 #include <cstdio>
+#include <optional>
+#include <sched.h>
 #include <sys/resource.h>
 
 namespace
@@ -78,6 +82,32 @@ main(int argc, char **argv)
   std::printf(" factorisations in all %.0f (dark J-V %.0f)\n", number(full.s, "newton", "factorisations"),
               number(full.s, "newton", "dark_factorisations"));
   std::printf("  adjoint solve %.4f s\n", number(full.s, "timings_s", "adjoint_per_solve"));
+  const bool threaded = full.s["newton"]["dark_in_own_thread"] == true;
+  std::printf("  dark J-V %s\n", threaded ? "in a thread of its own beside the light J-V (its phase overlaps the others)"
+                                          : "after the light J-V, in the same thread");
+
+  // The same solve held to one CPU: the dark J-V then runs after the light
+  // one, as in a sweep with one case per core.
+  std::optional<Run> one_cpu;
+  cpu_set_t          allowed;
+  if (threaded && sched_getaffinity(0, sizeof allowed, &allowed) == 0)
+    {
+      cpu_set_t one;
+      CPU_ZERO(&one);
+      for (int cpu = 0; cpu < CPU_SETSIZE; ++cpu)
+        if (CPU_ISSET(cpu, &allowed))
+          {
+            CPU_SET(cpu, &one);
+            break;
+          }
+      if (sched_setaffinity(0, sizeof one, &one) == 0)
+        {
+          one_cpu = run(demo, {"Geometry/Gap=50"});
+          sched_setaffinity(0, sizeof allowed, &allowed);
+          std::printf("  the same solve held to one CPU: %.2f s (floor %.4f s), dark J-V %.2f s\n", one_cpu->wall,
+                      number(one_cpu->s, "timings_s", "factorisation_mean"), number(one_cpu->s, "timings_s", "dark"));
+        }
+    }
 
   const Run fine = run(demo, {"Geometry/Gap=50", "J-V scan/Dark scan=false", "J-V scan/Voltage step=0.01",
                               "Output/Write fields=false", "Output/Power balance biases=",
@@ -104,6 +134,12 @@ main(int argc, char **argv)
               full.wall / full_floor, 8 / 0.017);
   std::printf("| 141-bias light J-V, in floors (%.4f s) | %.0f | <= %.0f |\n", fine_floor,
               number(fine.s, "timings_s", "light") / fine_floor, 4 / 0.017);
+  if (one_cpu)
+    {
+      const double one_floor = number(one_cpu->s, "timings_s", "factorisation_mean");
+      std::printf("| full `solve` held to one CPU | %.1f s = %.0f floors (%.4f s) | (the same solve in one thread) |\n",
+                  one_cpu->wall, one_cpu->wall / one_floor, one_floor);
+    }
   std::printf("(the demo sweep, 6 gaps on mpirun -np 2: printed at the end of `bash .ci/demo`)\n");
   return full.code != 0 ? full.code : fine.code;
 }
