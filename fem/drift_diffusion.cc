@@ -1196,6 +1196,13 @@ namespace backcomb::fem
     return points;
   }
 
+  void
+  DriftDiffusionSolver::adopt_equilibrium(const dealii::Vector<double> &state)
+  {
+    AssertThrow(state.size() == solution.size(), ExcMessage("an equilibrium of another mesh"));
+    equilibrium = state;
+  }
+
   NewtonReport
   DriftDiffusionSolver::solve_equilibrium()
   {

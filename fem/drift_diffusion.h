@@ -145,6 +145,9 @@ namespace backcomb::fem
     DriftDiffusionSolver &operator=(const DriftDiffusionSolver &) = delete;
 
     NewtonReport solve_equilibrium();
+    // Takes `state` as the equilibrium a later solve_equilibrium() returns
+    // (the equilibrium another solver of the same device and mesh found).
+    void adopt_equilibrium(const dealii::Vector<double> &state);
 
     // Solves at hole-contact voltage V (volts, electron contact grounded)
     // and light factor s (generation scaled by s), starting from the

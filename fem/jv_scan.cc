@@ -144,7 +144,8 @@ namespace backcomb::fem
 
   StepReport
   start_state(DriftDiffusionSolver &solver, const double light, const unsigned max_halvings,
-              const std::string &label, const Resume &resume, const ProgressLine &stage)
+              const std::string &label, const Resume &resume, const ProgressLine &stage,
+              const std::function<void(const dealii::Vector<double> &)> &after_equilibrium)
   {
     if (const StoredPoint *q = resume.find(label + "-start", 0.0))
       {
@@ -157,7 +158,7 @@ namespace backcomb::fem
         r.halvings          = q->halvings;
         return r;
       }
-    const StepReport r = illuminate(solver, light, max_halvings, stage);
+    const StepReport r = illuminate(solver, light, max_halvings, stage, after_equilibrium);
     if (r.converged)
       {
         ScanPoint p;

@@ -73,8 +73,10 @@ namespace backcomb::fem
 
   // The state a scan starts from at 0 V: equilibrium and the light ramp
   // (illuminate), or that state from the store.
+  // `after_equilibrium` as in illuminate (not called for a stored state).
   StepReport start_state(DriftDiffusionSolver &solver, double light, unsigned max_halvings,
-                         const std::string &label, const Resume &resume, const ProgressLine &stage = {});
+                         const std::string &label, const Resume &resume, const ProgressLine &stage = {},
+                         const std::function<void(const dealii::Vector<double> &)> &after_equilibrium = {});
 
   // Scans `biases` (sorted, may hold 0) from the solver's current state:
   // 0 -> last, then (restarting from the same state) 0 -> first, or the

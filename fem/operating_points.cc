@@ -99,7 +99,8 @@ namespace backcomb::fem
 
   StepReport
   illuminate(DriftDiffusionSolver &solver, const double light, const unsigned max_halvings,
-             const std::function<void(const std::string &)> &stage)
+             const std::function<void(const std::string &)> &stage,
+             const std::function<void(const dealii::Vector<double> &)> &after_equilibrium)
   {
     StepReport         rep;
     const NewtonReport eq = solver.solve_equilibrium();
@@ -111,6 +112,8 @@ namespace backcomb::fem
       }
     if (stage)
       stage("equilibrium: converged in " + std::to_string(eq.iterations) + " Newton steps");
+    if (after_equilibrium)
+      after_equilibrium(solver.state());
     // The ramp raises the generation decade by decade, from 1e-5 of the
     // full light (measured on the two shipped films at gaps of 5 to 200 um:
     // 92 to 130 Newton steps, against 122 to 155 from 1e-8; a start at 1e-4

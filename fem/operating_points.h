@@ -41,9 +41,12 @@ namespace backcomb::fem
 
   // Equilibrium, then the generation switched on in decades (1e-8, 1e-7,
   // ..., 1) times `light`, at zero bias. `stage`, if set, hears one line
-  // when equilibrium and one when the light ramp is done.
+  // when equilibrium and one when the light ramp is done;
+  // `after_equilibrium`, if set, is called with the equilibrium state as
+  // soon as it has converged (the dark J-V's thread starts from it).
   StepReport illuminate(DriftDiffusionSolver &solver, double light, unsigned max_halvings,
-                        const std::function<void(const std::string &)> &stage = {});
+                        const std::function<void(const std::string &)> &stage = {},
+                        const std::function<void(const dealii::Vector<double> &)> &after_equilibrium = {});
 
   // The open circuit at one light level (open_circuits).
   struct OpenCircuit

@@ -302,7 +302,7 @@ namespace backcomb::simulator
     void compute_power_balance(const fem::JVMetrics &m0);
     void balance_at(const std::string &name, double v);
     void compute_suns_voc(const fem::JVMetrics &m0);
-    void start_dark_jv();
+    void start_dark_jv(const dealii::Vector<double> *equilibrium);
     void scan_dark(fem::DriftDiffusionSolver &s);
     void solve_dark_jv();
     void scan_with_moving_ions();
@@ -411,7 +411,6 @@ namespace backcomb::simulator
     prepare_folder();
     build_mesh();
     set_up_solver();
-    start_dark_jv();
     solve_light_jv();
     if (on.converged)
       write_fields();
@@ -644,7 +643,10 @@ namespace backcomb::simulator
     const std::string          label = lit ? "light" : "dark";
     dealii::Timer ramp;
     on = fem::start_state(*solver, lit ? 1.0 : 0.0, c.numerics.max_halvings, label, resume,
-                          [this](const std::string &s) { progress.stage(s); });
+                          [this](const std::string &s) { progress.stage(s); },
+                          [this](const dealii::Vector<double> &eq) { start_dark_jv(&eq); });
+    if (on.converged && !dark_thread.joinable())
+      start_dark_jv(nullptr); // the start state came from the checkpoint
     ramp_seconds        = ramp.wall_time();
     ramp_factorisations = solver->factorisations();
     light.newton += on.newton_iterations;
@@ -925,9 +927,11 @@ namespace backcomb::simulator
   }
 
   // The dark J-V over the same biases, from equilibrium: in a thread of its
-  // own from the start of the run where a core is free, on a second solver,
-  // else here on the run's solver. The second solver has its own
-  // communicator, solves equilibrium again in its thread, and factorises
+  // own from the moment the light J-V's solver found equilibrium where a
+  // core is free, on a second solver, else here on the run's solver. The
+  // second solver has its own communicator, starts from that equilibrium
+  // (solves it again in its thread after a start from the checkpoint), and
+  // factorises
   // with PETSc's own LU, which calls no BLAS (fem/blas_lock.h: MUMPS in
   // both threads would have to take turns, and the light J-V waited for
   // the dark one's factorisations so often that the run gained little).
@@ -935,7 +939,7 @@ namespace backcomb::simulator
   // way; the dark currents agree to the Newton tolerance
   // (tests/threaded_dark_cli.sh).
   void
-  CaseRun::start_dark_jv()
+  CaseRun::start_dark_jv(const dealii::Vector<double> *equilibrium)
   {
     // Photon recycling as transport is left out: PETSc's Anderson mixing
     // of its outer iteration calls LAPACK without a turn (fem/blas_lock.h).
@@ -944,6 +948,8 @@ namespace backcomb::simulator
     MPI_Comm_dup(o.communicator, &dark_comm);
     dark_solver = std::make_unique<fem::DriftDiffusionSolver>(*tria, *device, c.numerics, dark_comm, true,
                                                          MATSOLVERPETSC);
+    if (equilibrium)
+      dark_solver->adopt_equilibrium(*equilibrium);
     dark_thread = std::thread([this] {
       try
         {
