@@ -23,9 +23,9 @@
 #include <petscsnes.h>
 
 #include <algorithm>
-#include <optional>
 #include <chrono>
 #include <cmath>
+#include <optional>
 
 namespace backcomb::fem
 {

@@ -926,17 +926,16 @@ namespace backcomb::simulator
     progress.stage("suns-Voc: open circuit at " + std::to_string(suns_voc.size()) + " light levels");
   }
 
-  // The dark J-V over the same biases, from equilibrium: in a thread of its
-  // own from the moment the light J-V's solver found equilibrium where a
-  // core is free, on a second solver, else here on the run's solver. The
-  // second solver has its own communicator, starts from that equilibrium
-  // (solves it again in its thread after a start from the checkpoint), and
-  // factorises
-  // with PETSc's own LU, which calls no BLAS (fem/blas_lock.h: MUMPS in
-  // both threads would have to take turns, and the light J-V waited for
-  // the dark one's factorisations so often that the run gained little).
-  // The light J-V and everything from it are the same bit for bit either
-  // way; the dark currents agree to the Newton tolerance
+  // The dark J-V over the same biases, from equilibrium: where a core is
+  // free, in a thread of its own from the moment the light J-V's solver
+  // has found equilibrium, on a second solver; else here, on the run's
+  // solver. The second solver has its own communicator, starts from that
+  // equilibrium (or solves it again in its thread after a start from the
+  // checkpoint), and factorises with PETSc's own LU, which calls no BLAS
+  // (fem/blas_lock.h: with MUMPS in both threads taking turns, the light
+  // J-V waited for the dark one's factorisations so often that the run
+  // gained little). The light J-V and everything from it are the same bit
+  // for bit either way; the dark currents agree to the Newton tolerance
   // (tests/threaded_dark_cli.sh).
   void
   CaseRun::start_dark_jv(const dealii::Vector<double> *equilibrium)
