@@ -15,54 +15,25 @@
 // tests/threaded_dark_cli.sh.)
 #pragma once
 
-#include <condition_variable>
 #include <mutex>
 
 namespace backcomb::fem
 {
-  // Held while alive. A background holder (the dark J-V's solver, which
-  // only has to finish before the run does) waits as long as a foreground
-  // one waits, so that the light J-V, whose path decides the run's time,
-  // is held up by at most one factorisation of the dark one.
+  // Held while alive; one holder at a time in the process.
   class BlasTurn
   {
   public:
-    explicit BlasTurn(const bool background = false)
-    {
-      State                       &s = state();
-      std::unique_lock<std::mutex> hold(s.mutex);
-      if (!background)
-        ++s.foreground_waiting;
-      s.turn.wait(hold, [&] { return !s.busy && (!background || s.foreground_waiting == 0); });
-      if (!background)
-        --s.foreground_waiting;
-      s.busy = true;
-    }
-    ~BlasTurn()
-    {
-      State &s = state();
-      {
-        const std::lock_guard<std::mutex> hold(s.mutex);
-        s.busy = false;
-      }
-      s.turn.notify_all();
-    }
-    BlasTurn(const BlasTurn &)            = delete;
-    BlasTurn &operator=(const BlasTurn &) = delete;
+    BlasTurn()
+      : hold(mutex())
+    {}
 
   private:
-    struct State
+    static std::mutex &
+    mutex()
     {
-      std::mutex              mutex;
-      std::condition_variable turn;
-      bool                    busy               = false;
-      unsigned                foreground_waiting = 0;
-    };
-    static State &
-    state()
-    {
-      static State s;
-      return s;
+      static std::mutex m;
+      return m;
     }
+    std::lock_guard<std::mutex> hold;
   };
 } // namespace backcomb::fem

@@ -124,9 +124,9 @@ namespace backcomb::fem
     // that works in a thread of its own beside the first (the dark J-V
     // beside the light one, simulator/case_run.cc) is given a communicator
     // of its own over the same processes, `own_comm`, so that the two
-    // never share a PETSc object or an MPI communicator; their
-    // factorisations take turns (fem/blas_lock.h), a `background` solver's
-    // after the others'. `lu_package` is PETSc's name of the LU package:
+    // never share a PETSc object or an MPI communicator; the
+    // factorisations of packages that call BLAS take turns
+    // (fem/blas_lock.h). `lu_package` is PETSc's name of the LU package:
     // MUMPS, or on one process PETSc's own LU ("petsc", which calls no BLAS
     // and so needs no turn; checked, with KLU behind it, in lu_solve) or
     // another package of PETSc's for comparisons.
@@ -134,7 +134,6 @@ namespace backcomb::fem
                          const DeviceModel &device,
                          const NumericsParameters &numerics,
                          MPI_Comm own_comm = MPI_COMM_NULL,
-                         bool background = false,
                          const std::string &lu_package = "mumps");
 
     // Sets the initial guess (local charge neutrality, flat quasi-Fermi
@@ -389,9 +388,13 @@ namespace backcomb::fem
     // earlier Jacobian (a chord step) while the updates contract fast. With
     // `give_up_on_growth` it stops, not converged, at a step whose update
     // exceeds both the update limit and the first update.
+    // With `potential_only` (thermal equilibrium without mobile ions, from
+    // phi_n = phi_p = 0) each step solves with the psi block alone
+    // (lu_solve_potential) and every step takes a fresh Jacobian.
     NewtonReport newton(dealii::Vector<double> &u, double light, bool reuse, unsigned max_iterations,
-                        bool give_up_on_growth = false) const;
+                        bool give_up_on_growth = false, bool potential_only = false) const;
     bool lu_solve(Vec b, Vec x, bool transpose) const;
+    bool lu_solve_potential(Vec b, Vec x) const;
     // All DoFs of component c on boundary b, on every process.
     std::vector<dealii::types::global_dof_index> boundary_dofs(unsigned b, unsigned c) const;
 
@@ -409,8 +412,11 @@ namespace backcomb::fem
     std::unique_ptr<dealii::FEValues<2>>     fe_values;
     std::unique_ptr<dealii::FEFaceValues<2>> fe_face_values;
     mutable std::string              lu_package;    // PETSc's name of the LU package
-    bool                             background = false; // takes its turn after the others
     mutable KSP                      ksp = nullptr; // the LU, kept between solves
+    // The psi block of the Jacobian, its rows and its LU (equilibrium).
+    mutable IS                       potential_rows  = nullptr;
+    mutable Mat                      potential_block = nullptr;
+    mutable KSP                      potential_ksp   = nullptr;
     dealii::IndexSet                 owned, relevant;
     dealii::AffineConstraints<double> zero_constraints; // Dirichlet DoFs of the update
     // With ions in their steady state, also every ion DoF tied to one:
@@ -437,6 +443,9 @@ namespace backcomb::fem
     mutable dealii::PETScWrappers::MPI::Vector       rhs;
     mutable dealii::PETScWrappers::MPI::Vector       row_scale; // of the factorised Jacobian
     mutable bool                     factors_valid = false; // the KSP holds factors of `jacobian`
+    // |J| of the assembled Jacobian in the maximum norm and in the 1-norm
+    // (that of J^T), for the backward error of lu_solve; < 0: not yet taken.
+    mutable double jacobian_norm[2] = {-1, -1};
     // Assembly straight into the arrays of the factorised matrix and of the
     // right-hand side (direct_assembly()): for the constraints it was built
     // for, each cell's local entry (i, j) at csr_position[(cell * dpc + i) *

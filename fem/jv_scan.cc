@@ -145,7 +145,7 @@ namespace backcomb::fem
   StepReport
   start_state(DriftDiffusionSolver &solver, const double light, const unsigned max_halvings,
               const std::string &label, const Resume &resume, const ProgressLine &stage,
-              const std::function<void(const dealii::Vector<double> &)> &after_equilibrium)
+              const StateHook &after_equilibrium)
   {
     if (const StoredPoint *q = resume.find(label + "-start", 0.0))
       {

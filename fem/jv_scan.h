@@ -76,7 +76,7 @@ namespace backcomb::fem
   // `after_equilibrium` as in illuminate (not called for a stored state).
   StepReport start_state(DriftDiffusionSolver &solver, double light, unsigned max_halvings,
                          const std::string &label, const Resume &resume, const ProgressLine &stage = {},
-                         const std::function<void(const dealii::Vector<double> &)> &after_equilibrium = {});
+                         const StateHook &after_equilibrium = {});
 
   // Scans `biases` (sorted, may hold 0) from the solver's current state:
   // 0 -> last, then (restarting from the same state) 0 -> first, or the

@@ -100,7 +100,7 @@ namespace backcomb::fem
   StepReport
   illuminate(DriftDiffusionSolver &solver, const double light, const unsigned max_halvings,
              const std::function<void(const std::string &)> &stage,
-             const std::function<void(const dealii::Vector<double> &)> &after_equilibrium)
+             const StateHook &after_equilibrium)
   {
     StepReport         rep;
     const NewtonReport eq = solver.solve_equilibrium();

@@ -39,14 +39,18 @@ namespace backcomb::fem
                      double light,
                      unsigned max_halvings);
 
-  // Equilibrium, then the generation switched on in decades (1e-8, 1e-7,
-  // ..., 1) times `light`, at zero bias. `stage`, if set, hears one line
-  // when equilibrium and one when the light ramp is done;
-  // `after_equilibrium`, if set, is called with the equilibrium state as
-  // soon as it has converged (the dark J-V's thread starts from it).
+  // Called with a converged state (may do nothing).
+  using StateHook = std::function<void(const dealii::Vector<double> &)>;
+
+  // Equilibrium, then the generation switched on in decades (1e-5, 1e-4,
+  // ..., 1, or from 1e-8 where 1e-5 fails) times `light`, at zero bias.
+  // `stage`, if set, hears one line when equilibrium and one when the
+  // light ramp is done; `after_equilibrium` is called with the equilibrium
+  // state as soon as it has converged (the dark J-V's thread starts from
+  // it).
   StepReport illuminate(DriftDiffusionSolver &solver, double light, unsigned max_halvings,
                         const std::function<void(const std::string &)> &stage = {},
-                        const std::function<void(const dealii::Vector<double> &)> &after_equilibrium = {});
+                        const StateHook &after_equilibrium = {});
 
   // The open circuit at one light level (open_circuits).
   struct OpenCircuit

@@ -945,7 +945,7 @@ namespace backcomb::simulator
     if (!lit || !c.jv.dark || solver->transports_photons() || !second_core_free(o.communicator))
       return;
     MPI_Comm_dup(o.communicator, &dark_comm);
-    dark_solver = std::make_unique<fem::DriftDiffusionSolver>(*tria, *device, c.numerics, dark_comm, true,
+    dark_solver = std::make_unique<fem::DriftDiffusionSolver>(*tria, *device, c.numerics, dark_comm,
                                                          MATSOLVERPETSC);
     if (equilibrium)
       dark_solver->adopt_equilibrium(*equilibrium);
