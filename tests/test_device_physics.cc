@@ -8,7 +8,9 @@
 
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cmath>
+#include <cstdio>
 
 using namespace backcomb;
 using namespace backcomb::fem;
@@ -169,6 +171,43 @@ TEST(PnJunction, BuiltInPotentialWithUnpinnedContacts)
               Vbi_solver, Vbi_textbook, (psi_p - psi_left) * Vt, (psi_right - psi_n) * Vt, offset_p, offset_n,
               W_model, W_text);
   EXPECT_NEAR(W_model / W_text, 1.0, 0.05);
+}
+
+// Equilibrium without mobile ions is solved with the psi block of the
+// Jacobian alone (the quasi-Fermi levels stay at zero) and confirmed by one
+// step of the full system. It must agree with Newton on the full system
+// (PETSc's own LU takes that path) from the same start, and it must take
+// the short path: one factorisation of the full Jacobian, not one per
+// step. (Its V_bi against the textbook is checked above.)
+TEST(PnJunction, EquilibriumFromThePotentialBlockAgreesWithFullNewton)
+{
+  const Junction           j;
+  dealii::Triangulation<2> tria;
+  j.mesh(tria);
+  DeviceModel dev(T, {{ids::absorber, j.p_side()}, {ids::absorber_right, j.n_side()}}, {}, j.p_contact(),
+                  j.n_contact(), SurfaceParameters(), SurfaceParameters(), nullptr);
+  DriftDiffusionSolver block(tria, dev, tight_numerics());
+  DriftDiffusionSolver full(tria, dev, tight_numerics(), MPI_COMM_NULL, "petsc");
+  const NewtonReport   rb = block.solve_equilibrium(), rf = full.solve_equilibrium();
+  ASSERT_TRUE(rb.converged);
+  ASSERT_TRUE(rf.converged);
+  dealii::Vector<double> d = block.state();
+  d -= full.state();
+  double phi = 0;
+  std::vector<dealii::types::global_dof_index> idx(12);
+  for (const auto &cell : block.dof_handler().active_cell_iterators())
+    {
+      cell->get_dof_indices(idx);
+      for (unsigned v = 0; v < 4; ++v)
+        phi = std::max({phi, std::abs(block.state()[idx[3 * v + 1]]), std::abs(block.state()[idx[3 * v + 2]])});
+    }
+  std::printf("largest difference %.3g kT/q, largest quasi-Fermi level %.3g kT/q; full Jacobians factorised: "
+              "%u (psi block) against %u (full Newton, %u steps)\n",
+              d.linfty_norm(), phi, block.factorisations(), full.factorisations(), rf.iterations);
+  EXPECT_LT(d.linfty_norm(), 1e-8);
+  EXPECT_LT(phi, 1e-12);
+  EXPECT_EQ(block.factorisations(), 1u);
+  EXPECT_GE(full.factorisations(), 5u);
 }
 
 // Dark J-V of a long-base symmetric p-n junction follows the ideal-diode
