@@ -375,6 +375,7 @@ namespace backcomb::simulator
 
     std::vector<LossPoint>                 loss_points;
     std::vector<std::pair<double, double>> suns_voc; // (light factor, V_oc)
+    bool suns_voc_failed = false; // a requested level has no open circuit (status partial)
 
     json                                    cell_json = nullptr, rs_json = nullptr;
     fem::JVMetrics                          cell_metrics;
@@ -909,8 +910,15 @@ namespace backcomb::simulator
   CaseRun::compute_suns_voc(const fem::JVMetrics &m0)
   {
     dealii::TimerOutput::Scope scope(timer, t_losses);
-    if (!m0.valid || c.jv.suns_voc.empty() || !fem::go_to(*solver, light, m0.Voc, c.numerics.max_halvings, resume))
+    if (!m0.valid || c.jv.suns_voc.empty())
       return;
+    if (!fem::go_to(*solver, light, m0.Voc, c.numerics.max_halvings, resume))
+      {
+        light.failures.push_back("suns-Voc: the open circuit of the light J-V at " + format_number(m0.Voc) +
+                                 " V could not be solved again to start from");
+        suns_voc_failed = true;
+        return;
+      }
     const double slope = fem::slope_at_open_circuit(fem::converged_curve(light));
     for (const fem::OpenCircuit &oc :
          fem::open_circuits(*solver, c.jv.suns_voc, slope, c.numerics.max_halvings))
@@ -919,6 +927,7 @@ namespace backcomb::simulator
         if (!oc.converged)
           {
             light.failures.push_back("suns-Voc at light factor " + format_number(oc.light) + ": " + oc.diagnostic);
+            suns_voc_failed = true;
             break;
           }
         suns_voc.emplace_back(oc.light, oc.voltage);
@@ -1091,6 +1100,8 @@ namespace backcomb::simulator
     for (const auto &p : dark.points)
       if (!p.jv.converged && status == Status::converged)
         status = Status::partial;
+    if (suns_voc_failed && status == Status::converged)
+      status = Status::partial;
 
     // The physical bounds of the results (simulator/bounds.h).
     ResultFigures r;
